@@ -1,0 +1,70 @@
+// Command muarc archives, converts, validates, de-identifies and packs
+// high-density surface EMG recordings and their motor-unit decompositions in
+// the open muarc HDF5 layout (schema/LAYOUT.md).
+//
+// Each command lives in its own file, cmd_<verb>.go, and registers itself
+// with the root command from an init function.
+package main
+
+import (
+	"errors"
+	"fmt"
+	"os"
+
+	"github.com/spf13/cobra"
+
+	"muarc/schema"
+)
+
+// rootCmd is the top of the command tree; each cmd_<verb>.go adds itself.
+var rootCmd = &cobra.Command{
+	Use:   "muarc",
+	Short: "Open HDF5 archive tools for motor-unit studies with high-density surface EMG",
+	Long: `muarc keeps force traces, raw EMG channels with electrode geometry, motor-unit
+discharge times, per-unit quality figures and subject, session and provenance
+metadata in one documented HDF5 layout, and converts, validates, de-identifies
+and packs them for sharing.`,
+	Version:       schema.SoftwareVersion,
+	SilenceUsage:  true,
+	SilenceErrors: true,
+}
+
+// exitError carries a process exit code with an error.
+type exitError struct {
+	code int
+	err  error
+}
+
+func (e *exitError) Error() string { return e.err.Error() }
+func (e *exitError) Unwrap() error { return e.err }
+
+// withExit wraps err so that main exits with code (1 = findings or failures,
+// 2 = could not read or bad usage).
+func withExit(code int, err error) error {
+	if err == nil {
+		return nil
+	}
+	return &exitError{code, err}
+}
+
+// silentExit makes main exit with code without printing anything more (the
+// command has already reported).
+func silentExit(code int) error { return &exitError{code, errSilent} }
+
+var errSilent = errors.New("")
+
+func main() {
+	err := rootCmd.Execute()
+	if err == nil {
+		return
+	}
+	code := 2
+	var ee *exitError
+	if errors.As(err, &ee) {
+		code = ee.code
+	}
+	if !errors.Is(err, errSilent) {
+		fmt.Fprintln(os.Stderr, "muarc:", err)
+	}
+	os.Exit(code)
+}

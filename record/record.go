@@ -1,0 +1,333 @@
+package record
+
+import (
+	"math"
+	"time"
+)
+
+// Recording is one session of one subject: the unit stored in one muarc file.
+type Recording struct {
+	// LayoutVersion is the layout version read from a file ("1.0"); the
+	// writer ignores it and always writes schema.LayoutVersion.
+	LayoutVersion string
+	// Created is when the file was written (UTC, RFC 3339 on disk).
+	Created time.Time
+	// Software names the program and version that wrote the file.
+	Software string
+
+	Study   Study
+	Subject Subject
+	Session Session
+	Trials  []Trial
+
+	Provenance Provenance
+}
+
+// Study describes the study a recording belongs to.
+type Study struct {
+	ID          string
+	Title       string
+	Description string
+	// Contact is the study's contact for data requests (name or role and an
+	// address); it is study metadata, not subject data.
+	Contact string
+	// License is an SPDX licence identifier for shared data, e.g. "CC-BY-4.0".
+	License string
+	Extra   Extra
+}
+
+// Subject is the participant. Before sharing, ID is a pseudonym and the
+// identifying fields (Name, BirthDate, Phone, Email, Notes) are empty; see
+// package deid.
+type Subject struct {
+	// ID is the subject identifier: the lab's code before de-identification,
+	// a keyed pseudonym after.
+	ID string
+	// Name is the participant's name. Identifying.
+	Name string
+	// BirthDate is an ISO 8601 calendar date "YYYY-MM-DD" (or "YYYY" once
+	// reduced to the year). Identifying.
+	BirthDate string
+	// AgeYears is the age at the session in years; NaN when not known.
+	AgeYears float64
+	// AgeBand is a generalised age such as "30-39" or "90 or older"; empty
+	// when the exact age is kept or not known.
+	AgeBand string
+	// Sex is "female", "male", "other" or empty when not recorded.
+	Sex string
+	// HeightCm is body height in centimetres; NaN when not known.
+	HeightCm float64
+	// MassKg is body mass in kilograms; NaN when not known.
+	MassKg float64
+	// DominantSide is "left", "right", "both" or empty.
+	DominantSide string
+	// Phone and Email are contact details. Identifying.
+	Phone string
+	Email string
+	// Notes is free text about the subject. May identify.
+	Notes string
+	Extra Extra
+}
+
+// Session is one visit of the subject to the lab.
+type Session struct {
+	ID string
+	// Date is the session start as RFC 3339 ("2026-03-14T09:30:00Z") or an
+	// ISO 8601 calendar date ("2026-03-14").
+	Date string
+	// Site and Operator are free text. May identify.
+	Site     string
+	Operator string
+	Notes    string
+	Extra    Extra
+}
+
+// ForceProfile is the trapezoidal target: rest, linear ramp up to the target
+// level, plateau, linear ramp down, rest. Durations in seconds; NaN when not
+// known.
+type ForceProfile struct {
+	// Shape is "trapezoid" for the profile described by the durations, or
+	// another word ("ramp", "step", "sine", "free") when it differs.
+	Shape     string
+	RestS     float64 // rest before the ramp up, s
+	RampUpS   float64 // ramp up duration, s
+	PlateauS  float64 // plateau duration, s
+	RampDownS float64 // ramp down duration, s
+}
+
+// Trial is one contraction (or one task block) within a session.
+type Trial struct {
+	// Name is the trial's group name in the file: letters, digits, '_', '-'
+	// and '.', unique within the recording, e.g. "ramp_30pct_1".
+	Name string
+	// Task describes the task in words, e.g. "isometric ankle dorsiflexion".
+	Task string
+	// TargetPctMVC is the plateau target level in % MVC; NaN when not known.
+	TargetPctMVC float64
+	// MVC is the maximal voluntary contraction value in MVCUnit; NaN when not
+	// known.
+	MVC float64
+	// MVCUnit is the UCUM unit of MVC and of the force trace ("N", "N.m").
+	MVCUnit string
+	Profile ForceProfile
+	// Force is the measured force or torque trace. Optional: a zero
+	// SamplingRateHz means none was recorded.
+	Force Signal
+	// ForceTarget is the trajectory shown to the subject; optional as Force.
+	ForceTarget Signal
+	Arrays      []Array
+	Notes       string
+	Extra       Extra
+}
+
+// Signal is a 1-D, evenly sampled trace held in memory (force, target).
+type Signal struct {
+	// SamplingRateHz is the sampling rate in hertz; 0 means no signal.
+	SamplingRateHz float64
+	// StartS is the time of the first sample in seconds from the trial start.
+	StartS float64
+	// Unit is the UCUM unit of the values, e.g. "N", "N.m", "%".
+	Unit   string
+	Values []float64
+}
+
+// Present reports whether the signal holds data.
+func (s Signal) Present() bool { return s.SamplingRateHz > 0 && len(s.Values) > 0 }
+
+// DurationS is the signal's duration in seconds (samples / rate).
+func (s Signal) DurationS() float64 {
+	if s.SamplingRateHz <= 0 {
+		return 0
+	}
+	return float64(len(s.Values)) / s.SamplingRateHz
+}
+
+// SampleType is the stored floating-point width of EMG samples.
+type SampleType string
+
+// Sample types.
+const (
+	Float32 SampleType = "float32"
+	Float64 SampleType = "float64"
+)
+
+// Array is one electrode array (grid) on one muscle, with its raw EMG.
+type Array struct {
+	// Name is the array's group name, unique within the trial, e.g. "ta_grid".
+	Name string
+	// Muscle names the muscle in words, e.g. "tibialis anterior".
+	Muscle string
+	// Side is "left" or "right" (or empty).
+	Side string
+	// Rows and Columns give the electrode grid size.
+	Rows, Columns int
+	// IEDMm is the inter-electrode distance in millimetres; NaN when not known.
+	IEDMm float64
+	// Gain is the total amplifier gain in V/V; NaN when not known.
+	Gain float64
+	// ADCBits is the converter resolution in bits; 0 when not known.
+	ADCBits int
+	// FilterLowHz and FilterHighHz are the analogue band-pass corners in
+	// hertz; NaN when not known.
+	FilterLowHz, FilterHighHz float64
+	// Montage is "monopolar", "bipolar" or "differential" (single or double).
+	Montage string
+	// Reference describes the reference electrode, e.g. "ankle strap".
+	Reference string
+	// SamplingRateHz is the EMG sampling rate in hertz.
+	SamplingRateHz float64
+	// StartS is the time of sample 0 in seconds from the trial start.
+	StartS float64
+	// Unit is the UCUM unit of the samples, e.g. "uV" or "mV".
+	Unit string
+	// SampleType is the on-disk float width; empty means Float32.
+	SampleType SampleType
+	// Channels describes each column of the sample matrix, in order.
+	Channels []Channel
+	// Samples provides the [sample, channel] matrix. The writer reads it in
+	// blocks; the reader sets it to a view backed by the open file.
+	Samples        SampleSource
+	Decompositions []Decomposition
+	Extra          Extra
+}
+
+// DurationS is the EMG duration in seconds.
+func (a Array) DurationS() float64 {
+	if a.Samples == nil || a.SamplingRateHz <= 0 {
+		return 0
+	}
+	n, _ := a.Samples.Shape()
+	return float64(n) / a.SamplingRateHz
+}
+
+// NotOnGrid is the Row and Column of a channel that has no grid position
+// (an auxiliary or reference channel).
+const NotOnGrid = -1
+
+// Channel describes one column of an array's sample matrix.
+type Channel struct {
+	Label string
+	// Row and Column are the 0-based grid position, or NotOnGrid.
+	Row, Column int
+	// XMm and YMm are the electrode centre in millimetres in the array's own
+	// frame; NaN when not known.
+	XMm, YMm float64
+	// Usable is false for a channel marked bad (noise, lost contact).
+	Usable bool
+}
+
+// Decomposition is one decomposition of an array into motor units.
+type Decomposition struct {
+	// Name is the decomposition's group name, unique within the array,
+	// e.g. "auto" or "edited".
+	Name string
+	// Method names the algorithm family in words; MethodVersion its version.
+	Method        string
+	MethodVersion string
+	// Parameters is a JSON object text with the method's parameters ("{}"
+	// when none).
+	Parameters string
+	// EditedByHand is true when discharges were inspected and edited.
+	EditedByHand bool
+	Units        []Unit
+	// ExtraColumns are per-unit figures outside the layout's fixed columns,
+	// one value per unit, kept as given.
+	ExtraColumns []Column
+	// MUAPs holds optional motor unit action potential templates.
+	MUAPs *MUAPs
+	Notes string
+}
+
+// Unit is one motor unit: its discharges and its quality figures. A figure
+// not known is NaN.
+type Unit struct {
+	// ID is the unit's identifier within the decomposition (unique).
+	ID int64
+	// Discharges are sample indices (0-based) into the array's samples,
+	// sorted ascending.
+	Discharges []int64
+	// Silhouette is the silhouette measure of the unit's source, 0..1.
+	Silhouette float64
+	// PNRdB is the pulse-to-noise ratio in decibels.
+	PNRdB float64
+	// AccuracyPct is the decomposition accuracy the method reports, in %.
+	AccuracyPct float64
+	// ISICoV is the coefficient of variation of inter-discharge intervals
+	// (dimensionless).
+	ISICoV float64
+	// RecruitPctMVC and DerecruitPctMVC are the force at the first and last
+	// discharge in % MVC.
+	RecruitPctMVC   float64
+	DerecruitPctMVC float64
+	// InitialRatePPS and MeanRatePPS are discharge rates in pulses per second.
+	InitialRatePPS float64
+	MeanRatePPS    float64
+}
+
+// NewUnit returns a unit with the given id and every figure NaN.
+func NewUnit(id int64) Unit {
+	n := math.NaN()
+	return Unit{ID: id, Silhouette: n, PNRdB: n, AccuracyPct: n, ISICoV: n,
+		RecruitPctMVC: n, DerecruitPctMVC: n, InitialRatePPS: n, MeanRatePPS: n}
+}
+
+// Column is one extra per-unit column. Exactly one of Values and Text is set,
+// with one entry per unit in Decomposition.Units order.
+type Column struct {
+	Name string
+	// Unit is the column's UCUM unit; empty when dimensionless or unknown.
+	Unit   string
+	Values []float64
+	Text   []string
+}
+
+// MUAPs are motor unit action potential templates, [unit][channel][lag],
+// flattened row-major into Data.
+type MUAPs struct {
+	Units, Channels, Lags int
+	// FirstLag is the lag of Data's first lag index in samples relative to the
+	// discharge (negative: before it).
+	FirstLag int
+	// Unit is the UCUM unit of the values (as the array's samples).
+	Unit string
+	Data []float32
+}
+
+// At returns the template value of unit u, channel c, lag index l.
+func (m *MUAPs) At(u, c, l int) float32 { return m.Data[(u*m.Channels+c)*m.Lags+l] }
+
+// Provenance records where a recording came from and what was done to it.
+type Provenance struct {
+	Sources []SourceFile
+	History []Operation
+}
+
+// SourceFile is one input file a recording was made from.
+type SourceFile struct {
+	// Name is the file name relative to the source folder; never absolute.
+	Name string
+	// Role says what the file held: "force", "emg", "discharges", "units",
+	// "metadata", "profile" or another word.
+	Role string
+	// SHA256 is the lower-case hex SHA-256 of the file's bytes.
+	SHA256 string
+	// Bytes is the file size in bytes.
+	Bytes int64
+}
+
+// Operation is one step in a recording's history.
+type Operation struct {
+	// Action is a verb: "import", "generate", "deidentify", "stats", ...
+	Action string
+	// Software is the program and version, e.g. "muarc 0.1.0".
+	Software string
+	// Time is when the step ran (UTC).
+	Time time.Time
+	// Details is a JSON object text with the step's parameters ("{}" if none).
+	Details string
+}
+
+// Extra holds metadata fields outside the layout's named ones, kept as given.
+// Values are string, float64, int64, bool or []float64; other types are
+// refused by the writer.
+type Extra map[string]any
