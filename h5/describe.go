@@ -1,0 +1,291 @@
+package h5
+
+/*
+#include "shim.h"
+*/
+import "C"
+
+import (
+	"encoding/binary"
+	"fmt"
+	"sort"
+	"unsafe"
+)
+
+// Object describes one group or dataset of a file, as Describe finds it.
+type Object struct {
+	Path      string
+	IsDataset bool
+	// Type, Shape and MaxShape are set for datasets (-1 = unlimited).
+	Type            string
+	Shape, MaxShape []int
+	// Chunk is the chunk shape; nil for contiguous or compact datasets.
+	Chunk []int
+	// Filters lists the pipeline in order: "shuffle", "deflate",
+	// "fletcher32", or "filter-<id>" for others.
+	Filters []string
+	Attrs   []Attr
+}
+
+// Describe lists every group and dataset in the file, depth first, members
+// in creation order.
+func Describe(name string) ([]Object, error) {
+	f, err := Open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	root, err := f.Root()
+	if err != nil {
+		return nil, err
+	}
+	defer root.Close()
+	var out []Object
+	err = describeGroup(root, &out)
+	return out, err
+}
+
+func describeGroup(g *Group, out *[]Object) error {
+	attrs, err := g.Attrs()
+	if err != nil {
+		return err
+	}
+	*out = append(*out, Object{Path: g.path, Attrs: attrs})
+	kids, err := g.Children()
+	if err != nil {
+		return err
+	}
+	for _, k := range kids {
+		switch k.Kind {
+		case KindGroup:
+			sub, err := g.OpenGroup(k.Name)
+			if err != nil {
+				return err
+			}
+			err = describeGroup(sub, out)
+			sub.Close()
+			if err != nil {
+				return err
+			}
+		case KindDataset:
+			d, err := g.OpenDataset(k.Name, 0)
+			if err != nil {
+				return err
+			}
+			o, err := describeDataset(d)
+			d.Close()
+			if err != nil {
+				return err
+			}
+			*out = append(*out, o)
+		default:
+			*out = append(*out, Object{Path: g.child(k.Name), Type: "link"})
+		}
+	}
+	return nil
+}
+
+func describeDataset(d *Dataset) (Object, error) {
+	o := Object{Path: d.path, IsDataset: true, Type: d.Type, Shape: d.Shape, MaxShape: d.MaxShape}
+	chunk, filters, err := d.Layout()
+	if err != nil {
+		return o, err
+	}
+	o.Chunk, o.Filters = chunk, filters
+	o.Attrs, err = d.Attrs()
+	return o, err
+}
+
+// Layout returns the dataset's chunk shape (nil when not chunked) and filter
+// pipeline.
+func (d *Dataset) Layout() (chunk []int, filters []string, err error) {
+	lib.Lock()
+	defer lib.Unlock()
+	var chunked, rank, nf C.int
+	var cd [32]C.hsize_t
+	var fl [16]C.int
+	if C.muarc_dset_layout(d.id, &chunked, &rank, &cd[0], &nf, &fl[0]) < 0 {
+		return nil, nil, fail(d.file, d.path, "read layout")
+	}
+	if chunked == 0 {
+		return nil, nil, nil
+	}
+	for i := 0; i < int(rank); i++ {
+		chunk = append(chunk, int(cd[i]))
+	}
+	for i := 0; i < int(nf); i++ {
+		filters = append(filters, filterName(int(fl[i])))
+	}
+	return chunk, filters, nil
+}
+
+func filterName(id int) string {
+	switch id {
+	case int(C.H5Z_FILTER_DEFLATE):
+		return "deflate"
+	case int(C.H5Z_FILTER_SHUFFLE):
+		return "shuffle"
+	case int(C.H5Z_FILTER_FLETCHER32):
+		return "fletcher32"
+	case int(C.H5Z_FILTER_SZIP):
+		return "szip"
+	case int(C.H5Z_FILTER_NBIT):
+		return "nbit"
+	case int(C.H5Z_FILTER_SCALEOFFSET):
+		return "scaleoffset"
+	}
+	return fmt.Sprintf("filter-%d", id)
+}
+
+// ChunkFault is one stored chunk that failed its checksum or could not be
+// read. Offset is the chunk's first element (row, column, ...).
+type ChunkFault struct {
+	Dataset string
+	Offset  []int
+	Err     error
+}
+
+// VerifyChunks reads every stored chunk of every dataset that has a
+// Fletcher-32 filter, raw (without decoding), and checks its checksum. It
+// calls fn for each faulty chunk and returns the number of chunks checked.
+// Reading raw chunks also finds faults in chunks a partial read would skip.
+func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
+	objs, err := Describe(name)
+	if err != nil {
+		return 0, err
+	}
+	f, err := Open(name)
+	if err != nil {
+		return 0, err
+	}
+	defer f.Close()
+	root, err := f.Root()
+	if err != nil {
+		return 0, err
+	}
+	defer root.Close()
+	checked := 0
+	for _, o := range objs {
+		if !o.IsDataset || !hasFilter(o.Filters, "fletcher32") {
+			continue
+		}
+		d, err := openPath(root, o.Path)
+		if err != nil {
+			fn(ChunkFault{Dataset: o.Path, Err: err})
+			continue
+		}
+		n, err := d.verify(fn)
+		checked += n
+		d.Close()
+		if err != nil {
+			fn(ChunkFault{Dataset: o.Path, Err: err})
+		}
+	}
+	return checked, nil
+}
+
+func hasFilter(fs []string, name string) bool {
+	for _, f := range fs {
+		if f == name {
+			return true
+		}
+	}
+	return false
+}
+
+// openPath opens a dataset by absolute path from the root group.
+func openPath(root *Group, p string) (*Dataset, error) {
+	return root.OpenDataset(p[1:], 0)
+}
+
+// ChunkInfo is where one stored chunk is: its first element and its size
+// in bytes as stored (after filters).
+type ChunkInfo struct {
+	Offset []int
+	Bytes  int
+}
+
+// Chunks lists the dataset's stored chunks in file order.
+func (d *Dataset) Chunks() ([]ChunkInfo, error) {
+	lib.Lock()
+	defer lib.Unlock()
+	var n C.hsize_t
+	if C.muarc_chunk_count(d.id, &n) < 0 {
+		return nil, fail(d.file, d.path, "count chunks")
+	}
+	out := make([]ChunkInfo, 0, int(n))
+	addrs := make([]uint64, 0, int(n))
+	for i := C.hsize_t(0); i < n; i++ {
+		var off [32]C.hsize_t
+		var mask C.uint
+		var addr C.haddr_t
+		var size C.hsize_t
+		if C.muarc_chunk_info(d.id, i, &off[0], &mask, &addr, &size) < 0 {
+			return nil, fail(d.file, d.path, fmt.Sprintf("chunk %d info", i))
+		}
+		ci := ChunkInfo{Bytes: int(size)}
+		for k := range d.Shape {
+			ci.Offset = append(ci.Offset, int(off[k]))
+		}
+		out = append(out, ci)
+		addrs = append(addrs, uint64(addr))
+	}
+	idx := make([]int, len(out))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.Slice(idx, func(a, b int) bool { return addrs[idx[a]] < addrs[idx[b]] })
+	sorted := make([]ChunkInfo, len(out))
+	for i, k := range idx {
+		sorted[i] = out[k]
+	}
+	return sorted, nil
+}
+
+// ReadRawChunk returns the stored bytes of the chunk starting at offset.
+func (d *Dataset) ReadRawChunk(offset []int, size int, buf []byte) ([]byte, error) {
+	if cap(buf) < size {
+		buf = make([]byte, size)
+	}
+	buf = buf[:size]
+	var off [32]C.hsize_t
+	for i, o := range offset {
+		off[i] = C.hsize_t(o)
+	}
+	var mask C.uint
+	lib.Lock()
+	defer lib.Unlock()
+	var p unsafe.Pointer
+	if size > 0 {
+		p = unsafe.Pointer(&buf[0])
+	}
+	if C.muarc_chunk_read(d.id, &off[0], &mask, p) < 0 {
+		return nil, fail(d.file, d.path, fmt.Sprintf("read chunk at %v", offset))
+	}
+	return buf, nil
+}
+
+func (d *Dataset) verify(fn func(ChunkFault)) (int, error) {
+	chunks, err := d.Chunks()
+	if err != nil {
+		return 0, err
+	}
+	var buf []byte
+	for _, c := range chunks {
+		buf, err = d.ReadRawChunk(c.Offset, c.Bytes, buf)
+		if err != nil {
+			fn(ChunkFault{Dataset: d.path, Offset: c.Offset, Err: err})
+			continue
+		}
+		if len(buf) < 4 {
+			fn(ChunkFault{Dataset: d.path, Offset: c.Offset, Err: fmt.Errorf("chunk of %d bytes has no room for its checksum: %w", len(buf), ErrChecksum)})
+			continue
+		}
+		body := buf[:len(buf)-4]
+		want := binary.LittleEndian.Uint32(buf[len(buf)-4:])
+		if fletcher32(body) != want {
+			fn(ChunkFault{Dataset: d.path, Offset: c.Offset, Err: fmt.Errorf("Fletcher-32 %08x stored, %08x computed: %w", want, fletcher32(body), ErrChecksum)})
+		}
+	}
+	return len(chunks), nil
+}

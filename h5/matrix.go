@@ -1,0 +1,204 @@
+package h5
+
+/*
+#include "shim.h"
+*/
+import "C"
+
+import (
+	"encoding/binary"
+	"fmt"
+	"runtime"
+	"sync"
+	"unsafe"
+)
+
+// MatrixWriter streams a 2-D [row, column] float dataset, extendible in rows,
+// chunked [ChunkRows, ChunkCols], with shuffle + deflate + Fletcher-32. Rows
+// arrive in bands of ChunkRows rows; each band is cut into chunks that are
+// shuffled, compressed and checksummed in parallel in Go and written with
+// direct chunk writes, so the library's filter pipeline is not on the write
+// path. Readers decode the chunks with the standard filters.
+type MatrixWriter struct {
+	ds                   *Dataset
+	cols, elem           int
+	chunkRows, chunkCols int
+	level                int
+	rows                 int
+	f64                  bool
+	workers              int
+	// per-worker scratch, reused across bands
+	scratch []chunkScratch
+}
+
+type chunkScratch struct{ raw, shuf, comp []byte }
+
+// CreateMatrix creates an empty matrix dataset with cols columns. f64 picks
+// float64 elements (else float32); level is the deflate level (1-9).
+func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCols, level int) (*MatrixWriter, error) {
+	if cols <= 0 || chunkRows <= 0 || chunkCols <= 0 || level < 1 || level > 9 {
+		return nil, &Error{File: g.file, Object: g.child(name), Op: "create matrix", Detail: fmt.Sprintf("bad geometry cols=%d chunk=%dx%d level=%d", cols, chunkRows, chunkCols, level)}
+	}
+	chunkCols = min(chunkCols, cols)
+	ftype, elem := C.H5T_IEEE_F32LE_g, 4
+	if f64 {
+		ftype, elem = C.H5T_IEEE_F64LE_g, 8
+	}
+	cname := C.CString(name)
+	defer C.free(unsafe.Pointer(cname))
+	lib.Lock()
+	dims := [2]C.hsize_t{0, C.hsize_t(cols)}
+	maxd := [2]C.hsize_t{C.H5S_UNLIMITED, C.hsize_t(cols)}
+	chunk := [2]C.hsize_t{C.hsize_t(chunkRows), C.hsize_t(chunkCols)}
+	id := C.muarc_dset_create(g.id, cname, ftype, 2, &dims[0], &maxd[0], &chunk[0], 1, C.int(level), 1)
+	if id < 0 {
+		err := fail(g.file, g.child(name), "create matrix")
+		lib.Unlock()
+		return nil, err
+	}
+	lib.Unlock()
+	w := &MatrixWriter{
+		ds:   &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, Type: fmt.Sprintf("float%d", 8*elem), Shape: []int{0, cols}, MaxShape: []int{-1, cols}},
+		cols: cols, elem: elem, chunkRows: chunkRows, chunkCols: chunkCols, level: level, f64: f64,
+		workers: runtime.GOMAXPROCS(0),
+	}
+	w.scratch = make([]chunkScratch, w.workers)
+	return w, nil
+}
+
+// Dataset is the dataset being written (for attributes).
+func (w *MatrixWriter) Dataset() *Dataset { return w.ds }
+
+// BandRows is the number of rows WriteBand takes at a time.
+func (w *MatrixWriter) BandRows() int { return w.chunkRows }
+
+// Rows is the number of rows written so far.
+func (w *MatrixWriter) Rows() int { return w.rows }
+
+// WriteBand32 appends up to BandRows rows of float32 (row-major, len a
+// multiple of the column count). Only the last band may be short.
+func (w *MatrixWriter) WriteBand32(data []float32) error {
+	if w.f64 {
+		return fmt.Errorf("%s: %s: float64 matrix given float32 rows", w.ds.file, w.ds.path)
+	}
+	var b []byte
+	if len(data) > 0 {
+		b = unsafe.Slice((*byte)(unsafe.Pointer(&data[0])), 4*len(data))
+	}
+	return w.writeBand(b)
+}
+
+// WriteBand64 is WriteBand32 for a float64 matrix.
+func (w *MatrixWriter) WriteBand64(data []float64) error {
+	if !w.f64 {
+		return fmt.Errorf("%s: %s: float32 matrix given float64 rows", w.ds.file, w.ds.path)
+	}
+	var b []byte
+	if len(data) > 0 {
+		b = unsafe.Slice((*byte)(unsafe.Pointer(&data[0])), 8*len(data))
+	}
+	return w.writeBand(b)
+}
+
+type encoded struct {
+	col  int
+	data []byte
+}
+
+func (w *MatrixWriter) writeBand(band []byte) error {
+	rowBytes := w.cols * w.elem
+	if len(band)%rowBytes != 0 {
+		return fmt.Errorf("%s: %s: band of %d bytes is not whole rows of %d columns", w.ds.file, w.ds.path, len(band), w.cols)
+	}
+	n := len(band) / rowBytes
+	if n == 0 {
+		return nil
+	}
+	if n > w.chunkRows {
+		return fmt.Errorf("%s: %s: band of %d rows exceeds the chunk height %d", w.ds.file, w.ds.path, n, w.chunkRows)
+	}
+	if w.rows%w.chunkRows != 0 {
+		return fmt.Errorf("%s: %s: a short band was already written; only the last band may be short", w.ds.file, w.ds.path)
+	}
+	nchunks := (w.cols + w.chunkCols - 1) / w.chunkCols
+	out := make([]encoded, nchunks)
+	errs := make([]error, nchunks)
+	var wg sync.WaitGroup
+	next := make(chan int, nchunks)
+	for c := 0; c < nchunks; c++ {
+		next <- c
+	}
+	close(next)
+	for k := 0; k < min(w.workers, nchunks); k++ {
+		wg.Add(1)
+		go func(s *chunkScratch) {
+			defer wg.Done()
+			for c := range next {
+				out[c].col = c * w.chunkCols
+				out[c].data, errs[c] = w.encode(s, band, n, c)
+				// encode reuses s.comp, so copy out before the next chunk.
+				out[c].data = append([]byte(nil), out[c].data...)
+			}
+		}(&w.scratch[k])
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
+		}
+	}
+	lib.Lock()
+	defer lib.Unlock()
+	dims := [2]C.hsize_t{C.hsize_t(w.rows + n), C.hsize_t(w.cols)}
+	if C.muarc_dset_extend(w.ds.id, 2, &dims[0]) < 0 {
+		return fail(w.ds.file, w.ds.path, "extend")
+	}
+	for _, e := range out {
+		off := [2]C.hsize_t{C.hsize_t(w.rows), C.hsize_t(e.col)}
+		if C.muarc_chunk_write(w.ds.id, &off[0], C.size_t(len(e.data)), unsafe.Pointer(&e.data[0])) < 0 {
+			return fail(w.ds.file, w.ds.path, fmt.Sprintf("write chunk at row %d column %d", w.rows, e.col))
+		}
+	}
+	w.rows += n
+	w.ds.Shape[0] = w.rows
+	return nil
+}
+
+// encode gathers chunk c of the band (padding with zeros past the data, as
+// HDF5 stores whole chunks), then shuffles, deflates and appends the
+// Fletcher-32 checksum.
+func (w *MatrixWriter) encode(s *chunkScratch, band []byte, n, c int) ([]byte, error) {
+	cc := w.chunkCols
+	size := w.chunkRows * cc * w.elem
+	if cap(s.raw) < size {
+		s.raw = make([]byte, size)
+		s.shuf = make([]byte, size)
+		// zlib's worst case is a little over the input size.
+		s.comp = make([]byte, size+size/1000+64)
+	}
+	raw, shuf := s.raw[:size], s.shuf[:size]
+	col0 := c * cc
+	width := min(cc, w.cols-col0) * w.elem
+	rowBytes := w.cols * w.elem
+	for r := 0; r < w.chunkRows; r++ {
+		dst := raw[r*cc*w.elem : (r+1)*cc*w.elem]
+		if r < n {
+			copy(dst, band[r*rowBytes+col0*w.elem:r*rowBytes+col0*w.elem+width])
+			clear(dst[width:])
+		} else {
+			clear(dst)
+		}
+	}
+	shuffle(shuf, raw, w.elem)
+	dn := C.size_t(len(s.comp) - 4)
+	if C.muarc_deflate(unsafe.Pointer(&shuf[0]), C.size_t(size), unsafe.Pointer(&s.comp[0]), &dn, C.int(w.level)) < 0 {
+		return nil, fmt.Errorf("%s: %s: deflate failed", w.ds.file, w.ds.path)
+	}
+	comp := s.comp[:int(dn)+4]
+	binary.LittleEndian.PutUint32(comp[dn:], fletcher32(comp[:dn]))
+	return comp, nil
+}
+
+// Close finishes the matrix and releases its handle.
+func (w *MatrixWriter) Close() error { return w.ds.Close() }
+
