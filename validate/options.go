@@ -1,0 +1,76 @@
+package validate
+
+import "sort"
+
+// Options control a validation run.
+type Options struct {
+	// Strict makes warnings errors.
+	Strict bool
+	// Rules are the thresholds and switched-off checks; the zero Rules means
+	// DefaultRules.
+	Rules Rules
+	// ChecksumScan reads every stored chunk and checks its Fletcher-32
+	// checksum (default true). Off, a damaged chunk is found only if the
+	// content checks happen to read it.
+	ChecksumScan bool
+}
+
+// DefaultOptions are not strict, DefaultRules, with the checksum scan on.
+func DefaultOptions() Options {
+	return Options{Rules: DefaultRules(), ChecksumScan: true}
+}
+
+// finish applies the options to raw findings: drops switched-off checks and
+// repeats (the same check at the same place), re-ranks by the rules and makes
+// warnings errors under Strict. The order is kept.
+func finish(fs []Finding, opt Options) []Finding {
+	r := opt.Rules
+	if r.isZero() {
+		r = DefaultRules()
+	}
+	type key struct{ check, h, j string }
+	seen := map[key]bool{}
+	out := fs[:0:0]
+	for _, f := range fs {
+		if r.disabled(f.Check) {
+			continue
+		}
+		k := key{f.Check, f.HDF5Path, f.JSONPath}
+		if seen[k] {
+			continue
+		}
+		seen[k] = true
+		if _, ok := r.Severity[f.Check]; ok || hasPatternFor(r, f.Check) {
+			f.Severity = r.severity(f.Check)
+		}
+		if opt.Strict && f.Severity == Warning {
+			f.Severity = Error
+		}
+		out = append(out, f)
+	}
+	return out
+}
+
+func hasPatternFor(r Rules, id string) bool {
+	for k := range r.Severity {
+		if matchCheck(k, id) {
+			return true
+		}
+	}
+	return false
+}
+
+// sortFindings orders findings by HDF5 path, then severity (worst first),
+// then check id, so a report reads object by object.
+func sortFindings(fs []Finding) {
+	sort.SliceStable(fs, func(i, j int) bool {
+		a, b := fs[i], fs[j]
+		if a.HDF5Path != b.HDF5Path {
+			return a.HDF5Path < b.HDF5Path
+		}
+		if a.Severity != b.Severity {
+			return a.Severity > b.Severity
+		}
+		return a.Check < b.Check
+	})
+}
