@@ -131,14 +131,14 @@ func TestInitialRateRule(t *testing.T) {
 	tr := trapezoidTrial(20, 0)
 	arr := record.Array{Name: "g", SamplingRateHz: 1000}
 	u := record.NewUnit(1)
-	// ISIs 125, 100, 80, 50 ms: rates 8, 10, 12.5, 20 pps; the first three
-	// give (8 + 10 + 12.5)/3 = 10.1666... pps.
+	// ISIs 125, 100, 80, 50 ms: the first three span 305 ms, so the
+	// initial rate is 3 / 0.305 s = 9.8360... pps.
 	u.Discharges = []int64{5000, 5125, 5225, 5305, 5355}
 	short := record.NewUnit(2)
 	short.Discharges = []int64{5000, 5100, 5200}
 	arr.Decompositions = []record.Decomposition{{Name: "d", Units: []record.Unit{u, short}}}
 	ds := Decomposition(&tr, &arr, &arr.Decompositions[0])
-	near(t, "initial rate", ds.Units[0].InitialRatePPS, 30.5/3, 1e-9)
+	near(t, "initial rate", ds.Units[0].InitialRatePPS, 3/0.305, 1e-9)
 	if !math.IsNaN(ds.Units[1].InitialRatePPS) {
 		t.Errorf("two intervals give initial rate %v, want NaN (rule needs three)", ds.Units[1].InitialRatePPS)
 	}

@@ -24,6 +24,8 @@ type Templates struct {
 	// sample.
 	Averaged []int
 	AtEdge   []int
+	// IDs are the unit ids, in template order.
+	IDs []int64
 	// PeakToPeak is, per unit and channel, max - min of the template over
 	// its lags, in MUAPs.Unit.
 	PeakToPeak [][]float64
@@ -67,6 +69,7 @@ func ArrayTemplates(arr *record.Array, halfWindowS float64) ([]*Templates, error
 		t := &Templates{MUAPs: record.MUAPs{Units: len(dec.Units), Channels: nch, Lags: lags,
 			FirstLag: firstLag, Unit: arr.Unit, Data: make([]float32, len(dec.Units)*nch*lags)}}
 		for ui := range dec.Units {
+			t.IDs = append(t.IDs, dec.Units[ui].ID)
 			t.Averaged = append(t.Averaged, counts[k])
 			t.AtEdge = append(t.AtEdge, edge[k])
 			p2p := make([]float64, nch)

@@ -9,20 +9,24 @@ import (
 )
 
 // InitialISIs is the number of inter-discharge intervals from recruitment
-// whose instantaneous rates are averaged for the initial rate: the initial
-// rate is the mean of 1/ISI over the first InitialISIs intervals (the first
-// InitialISIs+1 discharges). A unit with fewer discharges has no initial
-// rate (NaN).
+// that give the initial rate: the initial rate is InitialISIs divided by the
+// time from the first to the (InitialISIs+1)-th discharge, i.e. 1 / the mean
+// of the first InitialISIs intervals. A unit with fewer discharges has no
+// initial rate (NaN).
 const InitialISIs = 3
+
+// PlateauMinISIs is the least number of intervals on the plateau for a
+// plateau mean rate and ISI CoV; with fewer they are NaN.
+const PlateauMinISIs = 3
 
 // Method describes, in words, how the figures of this package are computed;
 // it goes into a file's provenance when the figures are stored.
 func Method() map[string]any {
 	return map[string]any{
 		"recruit":        "force (linearly interpolated) at the first discharge; derecruit: at the last discharge",
-		"initial_rate":   fmt.Sprintf("mean of 1/ISI over the first %d inter-discharge intervals", InitialISIs),
+		"initial_rate":   fmt.Sprintf("1 / mean of the first %d inter-discharge intervals", InitialISIs),
 		"plateau":        fmt.Sprintf("longest run of the force target within %g %% of its peak (no target: of the force smoothed by a %g s moving mean, within %g %% of its peak)", 100*PlateauTargetTol, PlateauForceSmoothS, 100*PlateauForceTol),
-		"mean_rate":      "mean of 1/ISI over the intervals whose both discharges lie on the plateau",
+		"mean_rate":      fmt.Sprintf("1 / mean of the intervals whose both discharges lie on the plateau (at least %d intervals)", PlateauMinISIs),
 		"isi_cov":        "sample standard deviation / mean of the plateau intervals",
 		"regression":     "ordinary least squares of plateau mean rate and of initial rate on recruitment threshold (% MVC), per decomposition",
 		"muap_window_ms": 1000 * MUAPHalfWindowS,
@@ -48,8 +52,9 @@ type UnitStats struct {
 	// InitialRatePPS is the initial rate at recruitment (see InitialISIs).
 	InitialRatePPS float64 `json:"initial_rate_pps"`
 	// PlateauISIs is the number of intervals wholly on the plateau;
-	// PlateauRatePPS their mean instantaneous rate and PlateauISICoV their
-	// coefficient of variation (dimensionless).
+	// PlateauRatePPS is 1 / their mean (pps) and PlateauISICoV their sample
+	// standard deviation / mean (dimensionless); both NaN with fewer than
+	// PlateauMinISIs intervals.
 	PlateauISIs    int     `json:"plateau_isi_count"`
 	PlateauRatePPS float64 `json:"mean_rate_pps"`
 	PlateauISICoV  float64 `json:"isi_cov"`
@@ -162,24 +167,20 @@ func unitStats(tr *record.Trial, arr *record.Array, u record.Unit, sc ForceScale
 		us.RecruitPctMVC, us.DerecruitPctMVC = f0*sc.ToPct, f1*sc.ToPct
 		us.RecruitForce, us.DerecruitForce = f0*sc.ToForce, f1*sc.ToForce
 	}
-	rates := InstantRatesPPS(t)
-	if len(rates) >= InitialISIs {
-		us.InitialRatePPS, _ = meanStd(rates[:InitialISIs])
+	if len(t) > InitialISIs && t[InitialISIs] > t[0] {
+		us.InitialRatePPS = InitialISIs / (t[InitialISIs] - t[0])
 	}
 	if havePl {
 		var isi []float64
-		var r []float64
 		for k := 0; k+1 < len(t); k++ {
 			if t[k] >= pl.StartS && t[k+1] <= pl.EndS && t[k+1] > t[k] {
 				isi = append(isi, t[k+1]-t[k])
-				r = append(r, rates[k])
 			}
 		}
 		us.PlateauISIs = len(isi)
-		if len(isi) > 0 {
-			us.PlateauRatePPS, _ = meanStd(r)
+		if len(isi) >= PlateauMinISIs {
 			m, s := meanStd(isi)
-			us.PlateauISICoV = s / m
+			us.PlateauRatePPS, us.PlateauISICoV = 1/m, s/m
 		}
 	}
 	return us, outside
