@@ -81,6 +81,8 @@ func RateThreshold(levels []Level) *Figure {
 	p.Legend.Left = true
 	p.Legend.XOffs = vg.Points(8)
 	p.Legend.YOffs = vg.Points(4)
+	// Room between entries for a browser's substitute face in SVG.
+	p.Legend.Padding = vg.Points(2)
 	p.Y.Min = 0
 	return &Figure{Width: 8 * vg.Inch, Height: 6 * vg.Inch, draw: func(dc draw.Canvas) {
 		p.Draw(draw.Crop(dc, vg.Points(4), -vg.Points(10), vg.Points(4), -vg.Points(4)))

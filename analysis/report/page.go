@@ -1,0 +1,139 @@
+// Package report renders a study's one-page HTML report: an index of the
+// recordings, the validation summary of each, its derived unit figures and
+// its figures inline as SVG, and the data dictionary. The page is
+// self-contained: styles are inline, figures are inline SVG, there are no
+// scripts and no links to load, so it renders the same with no network.
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"html/template"
+	"io"
+	"regexp"
+)
+
+// Page is everything the report shows.
+type Page struct {
+	Title string
+	// Generated is when the report was made (RFC 3339); Software what made
+	// it; Folder the study folder as given.
+	Generated, Software, Folder string
+	// Notes are page-level remarks (what was left out, and why).
+	Notes      []string
+	Index      Table
+	Recordings []Section
+	// Derived explains the figures the report derives (see analysis).
+	Derived    Table
+	Dictionary Table
+}
+
+// Table is a captioned table of text cells.
+type Table struct {
+	Caption string
+	Columns []string
+	Rows    [][]string
+	// Empty is shown instead of the table when it has no rows.
+	Empty string
+}
+
+// Section is one recording.
+type Section struct {
+	// File is the path relative to the study folder.
+	File string
+	// Status is a short verdict: "valid", "valid with warnings", "invalid"
+	// or "could not read"; Class its style ("ok", "warn", "bad").
+	Status, Class string
+	Summary       string
+	Validation    Table
+	Stats         Table
+	Notes         []string
+	Figures       []Figure
+}
+
+// Figure is one inline SVG drawing with its caption.
+type Figure struct {
+	Caption string
+	// SVG is the drawing as produced by analysis/plot (an XML prolog is
+	// stripped when inlined).
+	SVG []byte
+}
+
+var prolog = regexp.MustCompile(`^\s*(<\?xml[^>]*\?>\s*)?(<!--.*?-->\s*)*`)
+
+// inline returns svg as trusted HTML without its XML prolog and comments.
+// The SVG comes from our own plot package, never from a file being
+// reported on.
+func inline(svg []byte) template.HTML {
+	return template.HTML(prolog.ReplaceAll(svg, nil))
+}
+
+// Render writes the page as one HTML document.
+func Render(w io.Writer, p *Page) error {
+	var buf bytes.Buffer
+	if err := pageTemplate.Execute(&buf, p); err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	_, err := w.Write(buf.Bytes())
+	return err
+}
+
+var pageTemplate = template.Must(template.New("page").Funcs(template.FuncMap{"inline": inline}).Parse(`<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>{{.Title}}</title>
+<style>
+body{font-family:"Liberation Sans",Arial,Helvetica,sans-serif;margin:1.5em auto;max-width:78em;padding:0 1em;color:#1a1a1a;line-height:1.4}
+h1{font-size:1.6em;margin-bottom:.2em}h2{font-size:1.3em;border-bottom:2px solid #c8d3e6;padding-bottom:.2em;margin-top:2em}
+h3{font-size:1.1em;margin-top:1.4em}
+.meta{color:#555;font-size:.9em}
+table{border-collapse:collapse;margin:.6em 0 1em;font-size:.85em}
+caption{text-align:left;font-weight:bold;padding:.3em 0}
+th,td{border:1px solid #ccd;padding:.25em .5em;text-align:left;vertical-align:top}
+th{background:#eef2f8}
+tr:nth-child(even) td{background:#fafbfd}
+.status{display:inline-block;padding:.1em .6em;border-radius:.8em;font-weight:bold;font-size:.85em}
+.ok{background:#dff3e0;color:#1d5e22}.warn{background:#fff2cc;color:#7a5a00}.bad{background:#fbdcdc;color:#8a1c1c}
+figure{margin:1em 0;border:1px solid #dde;padding:.5em;background:#fff}
+figure svg{max-width:100%;height:auto;display:block}
+figcaption{font-size:.85em;color:#444;margin-top:.3em}
+nav ul{columns:3;font-size:.9em}
+.note{font-size:.85em;color:#555}
+</style>
+</head>
+<body>
+<h1>{{.Title}}</h1>
+<p class="meta">Study folder {{.Folder}} · made {{.Generated}} by {{.Software}} · one page, no network needed.</p>
+{{range .Notes}}<p class="note">{{.}}</p>
+{{end}}
+<p class="note">This report shows what the files hold. Before a study is shared, the
+ethics board, the consent given and local data-protection law decide what may leave the
+lab; muarc helps to de-identify, it does not certify that a file is anonymous.</p>
+<h2 id="index">Recordings</h2>
+{{template "table" .Index}}
+{{if .Recordings}}<nav><ul>{{range $i, $r := .Recordings}}<li><a href="#rec-{{$i}}">{{$r.File}}</a></li>{{end}}</ul></nav>{{end}}
+{{range $i, $r := .Recordings}}
+<section id="rec-{{$i}}" class="recording">
+<h2>{{$r.File}} <span class="status {{$r.Class}}">{{$r.Status}}</span></h2>
+{{if $r.Summary}}<p>{{$r.Summary}}</p>{{end}}
+{{template "table" $r.Validation}}
+{{template "table" $r.Stats}}
+{{range $r.Notes}}<p class="note">{{.}}</p>
+{{end}}
+{{range $r.Figures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
+{{end}}
+</section>
+{{end}}
+<h2 id="derived">Derived figures</h2>
+{{template "table" .Derived}}
+<h2 id="dictionary">Data dictionary</h2>
+{{template "table" .Dictionary}}
+</body>
+</html>
+{{define "table"}}{{if .Rows}}<table>{{if .Caption}}<caption>{{.Caption}}</caption>{{end}}
+<thead><tr>{{range .Columns}}<th>{{.}}</th>{{end}}</tr></thead>
+<tbody>{{range .Rows}}<tr>{{range .}}<td>{{.}}</td>{{end}}</tr>
+{{end}}</tbody></table>{{else if .Empty}}<p class="note">{{if .Caption}}{{.Caption}}: {{end}}{{.Empty}}</p>{{end}}{{end}}
+`))
