@@ -42,10 +42,10 @@ var ErrChecksum = errors.New("checksum mismatch")
 // Error is a failed HDF5 operation: the file, the object path inside it, what
 // was being done and the library's own explanation.
 type Error struct {
-	File   string
-	Object string
-	Op     string
-	Detail string
+	File     string
+	Object   string
+	Op       string
+	Detail   string
 	sentinel error
 }
 

@@ -201,4 +201,3 @@ func (w *MatrixWriter) encode(s *chunkScratch, band []byte, n, c int) ([]byte, e
 
 // Close finishes the matrix and releases its handle.
 func (w *MatrixWriter) Close() error { return w.ds.Close() }
-

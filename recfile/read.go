@@ -1,0 +1,841 @@
+package recfile
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+	"time"
+
+	"muarc/h5"
+	"muarc/record"
+	"muarc/schema"
+)
+
+// File is an open muarc file. Its recording's Array.Samples read from the
+// file until Close.
+type File struct {
+	path    string
+	f       *h5.File
+	rec     *record.Recording
+	samples []*ArraySamples
+}
+
+// Path is the file's path.
+func (f *File) Path() string { return f.path }
+
+// Recording returns the recording read by Open.
+func (f *File) Recording() *record.Recording { return f.rec }
+
+// Close closes the file; the recording's sample views stop working.
+func (f *File) Close() error {
+	var first error
+	for _, s := range f.samples {
+		if err := s.ds.Close(); err != nil && first == nil {
+			first = err
+		}
+	}
+	f.samples = nil
+	if err := f.f.Close(); err != nil && first == nil {
+		first = err
+	}
+	return first
+}
+
+// Open reads a muarc file: every attribute, force, channels, discharges,
+// unit tables and MUAPs; samples stay in the file behind Array.Samples. It
+// refuses a file of a newer major layout version (ErrNewerLayout) and
+// reports layout violations as *FormatError.
+func Open(path string) (*File, error) {
+	hf, err := h5.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	f := &File{path: path, f: hf}
+	if err := f.read(); err != nil {
+		f.Close()
+		return nil, err
+	}
+	return f, nil
+}
+
+// ReadAll reads a whole recording into memory, samples included (tests and
+// small files; large recordings should use Open).
+func ReadAll(path string) (*record.Recording, error) {
+	f, err := Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	rec := f.rec
+	for ti := range rec.Trials {
+		for ai := range rec.Trials[ti].Arrays {
+			a := &rec.Trials[ti].Arrays[ai]
+			n, c := a.Samples.Shape()
+			m := &record.MemSamples{Samples: n, Channels: c}
+			if a.SampleType == record.Float64 {
+				m.F64 = make([]float64, n*c)
+				err = a.Samples.ReadFloat64(0, m.F64)
+			} else {
+				m.F32 = make([]float32, n*c)
+				err = a.Samples.ReadFloat32(0, m.F32)
+			}
+			if err != nil {
+				return nil, err
+			}
+			a.Samples = m
+		}
+	}
+	return rec, nil
+}
+
+// attrGet reads typed attributes of one object and remembers the first
+// problem; names it was not asked for become Extra.
+type attrGet struct {
+	file, obj string
+	m         map[string]h5.Attr
+	used      map[string]bool
+	err       error
+}
+
+func newAttrGet(file, obj string, as []h5.Attr) *attrGet {
+	return &attrGet{file: file, obj: obj, m: h5.AttrMap(as), used: map[string]bool{}}
+}
+
+func (g *attrGet) bad(name, want string, a h5.Attr) {
+	if g.err == nil {
+		g.err = formatErr(g.file, g.obj, "rewrite the attribute with the type LAYOUT.md gives",
+			"attribute %q is %s %v, want %s", name, a.Type, a.Shape, want)
+	}
+}
+
+func (g *attrGet) str(name string) string {
+	g.used[name] = true
+	a, ok := g.m[name]
+	if !ok {
+		return ""
+	}
+	s, ok := a.Value.(string)
+	if !ok {
+		g.bad(name, "a string", a)
+	}
+	return s
+}
+
+func (g *attrGet) num(name string) float64 {
+	g.used[name] = true
+	a, ok := g.m[name]
+	if !ok {
+		return math.NaN()
+	}
+	switch v := a.Value.(type) {
+	case float64:
+		return v
+	case int64:
+		return float64(v)
+	}
+	g.bad(name, "a number", a)
+	return math.NaN()
+}
+
+func (g *attrGet) int(name string) int {
+	g.used[name] = true
+	a, ok := g.m[name]
+	if !ok {
+		return 0
+	}
+	if v, ok := a.Value.(int64); ok {
+		return int(v)
+	}
+	g.bad(name, "an integer", a)
+	return 0
+}
+
+func (g *attrGet) boolean(name string) bool {
+	g.used[name] = true
+	a, ok := g.m[name]
+	if !ok {
+		return false
+	}
+	switch v := a.Value.(type) {
+	case bool:
+		return v
+	case int64:
+		return v != 0
+	}
+	g.bad(name, "a boolean", a)
+	return false
+}
+
+func (g *attrGet) required(name string) {
+	if _, ok := g.m[name]; !ok && g.err == nil {
+		g.err = formatErr(g.file, g.obj, "LAYOUT.md lists the required attributes", "required attribute %q is missing", name)
+	}
+}
+
+// extra returns the attributes nobody asked for.
+func (g *attrGet) extra() record.Extra {
+	var x record.Extra
+	for k, a := range g.m {
+		if g.used[k] {
+			continue
+		}
+		if x == nil {
+			x = record.Extra{}
+		}
+		switch v := a.Value.(type) {
+		case string, float64, int64, bool, []float64, []int64:
+			x[k] = v
+		default:
+			if g.err == nil {
+				g.err = formatErr(g.file, g.obj, "extra attributes may be strings, numbers, booleans or 1-D numeric arrays", "attribute %q has type %s", k, a.Type)
+			}
+		}
+	}
+	return x
+}
+
+func (f *File) read() error {
+	root, err := f.f.Root()
+	if err != nil {
+		return err
+	}
+	defer root.Close()
+	as, err := root.Attrs()
+	if err != nil {
+		return err
+	}
+	ra := newAttrGet(f.path, "/", as)
+	if layout := ra.str(attrLayout); layout != schema.LayoutName {
+		return formatErr(f.path, "/", "is this a muarc file? `muarc inspect` shows what it holds", "root attribute layout is %q, want %q", layout, schema.LayoutName)
+	}
+	version := ra.str(attrVersion)
+	if err := schema.CheckReadable(version); err != nil {
+		fe := formatErr(f.path, "/", "", "%v", err)
+		if major, _, perr := schema.ParseVersion(version); perr == nil && major > 1 {
+			fe.err = ErrNewerLayout
+		}
+		return fe
+	}
+	rec := &record.Recording{LayoutVersion: version, Software: ra.str(attrSoftware)}
+	if c := ra.str(attrCreated); c != "" {
+		t, err := time.Parse(time.RFC3339Nano, c)
+		if err != nil {
+			return formatErr(f.path, "/", "write created as RFC 3339, e.g. 2026-03-14T09:30:00Z", "created %q is not an RFC 3339 time", c)
+		}
+		rec.Created = t
+	}
+	if ra.err != nil {
+		return ra.err
+	}
+	f.rec = rec
+	if err := f.readStudy(root, rec); err != nil {
+		return err
+	}
+	trials, err := mustGroup(f.path, root, grpTrials)
+	if err != nil {
+		return err
+	}
+	defer trials.Close()
+	kids, err := trials.Children()
+	if err != nil {
+		return err
+	}
+	for _, k := range kids {
+		if k.Kind != h5.KindGroup {
+			return formatErr(f.path, "/trials/"+k.Name, "only trial groups belong in /trials", "not a group")
+		}
+		t, err := f.readTrial(trials, k.Name)
+		if err != nil {
+			return err
+		}
+		rec.Trials = append(rec.Trials, t)
+	}
+	if root.Has(grpProvenance) {
+		p, err := f.readProvenance(root)
+		if err != nil {
+			return err
+		}
+		rec.Provenance = p
+	}
+	return nil
+}
+
+func mustGroup(file string, parent *h5.Group, name string) (*h5.Group, error) {
+	if !parent.Has(name) {
+		p := parent.Path() + "/" + name
+		if parent.Path() == "/" {
+			p = "/" + name
+		}
+		return nil, formatErr(file, p, "LAYOUT.md lists the required groups", "required group is missing")
+	}
+	return parent.OpenGroup(name)
+}
+
+func groupAttrs(file string, parent *h5.Group, name string, optional bool) (*attrGet, error) {
+	if optional && !parent.Has(name) {
+		return newAttrGet(file, "/"+name, nil), nil
+	}
+	g, err := mustGroup(file, parent, name)
+	if err != nil {
+		return nil, err
+	}
+	defer g.Close()
+	as, err := g.Attrs()
+	if err != nil {
+		return nil, err
+	}
+	return newAttrGet(file, g.Path(), as), nil
+}
+
+func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
+	a, err := groupAttrs(f.path, root, grpStudy, false)
+	if err != nil {
+		return err
+	}
+	rec.Study = record.Study{ID: a.str("id"), Title: a.str("title"), Description: a.str("description"),
+		Contact: a.str("contact"), License: a.str("license")}
+	rec.Study.Extra = a.extra()
+	if a.err != nil {
+		return a.err
+	}
+	a, err = groupAttrs(f.path, root, grpSubject, false)
+	if err != nil {
+		return err
+	}
+	rec.Subject = record.Subject{ID: a.str("id"), Name: a.str("name"), BirthDate: a.str("birth_date"),
+		AgeYears: a.num("age_years"), AgeBand: a.str("age_band"), Sex: a.str("sex"),
+		HeightCm: a.num("height_cm"), MassKg: a.num("mass_kg"), DominantSide: a.str("dominant_side"),
+		Phone: a.str("phone"), Email: a.str("email"), Notes: a.str("notes")}
+	rec.Subject.Extra = a.extra()
+	if a.err != nil {
+		return a.err
+	}
+	a, err = groupAttrs(f.path, root, grpSession, false)
+	if err != nil {
+		return err
+	}
+	rec.Session = record.Session{ID: a.str("id"), Date: a.str("date"), Site: a.str("site"),
+		Operator: a.str("operator"), Notes: a.str("notes")}
+	rec.Session.Extra = a.extra()
+	return a.err
+}
+
+func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
+	t := record.Trial{Name: name}
+	g, err := parent.OpenGroup(name)
+	if err != nil {
+		return t, err
+	}
+	defer g.Close()
+	as, err := g.Attrs()
+	if err != nil {
+		return t, err
+	}
+	a := newAttrGet(f.path, g.Path(), as)
+	t.Task = a.str("task")
+	t.TargetPctMVC = a.num("target_pct_mvc")
+	t.MVC = a.num("mvc")
+	t.MVCUnit = a.str("mvc_unit")
+	t.Profile = record.ForceProfile{Shape: a.str("profile_shape"), RestS: a.num("rest_s"),
+		RampUpS: a.num("ramp_up_s"), PlateauS: a.num("plateau_s"), RampDownS: a.num("ramp_down_s")}
+	t.Notes = a.str("notes")
+	t.Extra = a.extra()
+	if a.err != nil {
+		return t, a.err
+	}
+	if t.Force, err = f.readSignal(g, dsForce); err != nil {
+		return t, err
+	}
+	if t.ForceTarget, err = f.readSignal(g, dsForceTarget); err != nil {
+		return t, err
+	}
+	arrays, err := mustGroup(f.path, g, grpArrays)
+	if err != nil {
+		return t, err
+	}
+	defer arrays.Close()
+	kids, err := arrays.Children()
+	if err != nil {
+		return t, err
+	}
+	for _, k := range kids {
+		ar, err := f.readArray(arrays, k.Name)
+		if err != nil {
+			return t, err
+		}
+		t.Arrays = append(t.Arrays, ar)
+	}
+	return t, nil
+}
+
+func (f *File) readSignal(g *h5.Group, name string) (record.Signal, error) {
+	var s record.Signal
+	if !g.Has(name) {
+		return s, nil
+	}
+	d, err := g.OpenDataset(name, 0)
+	if err != nil {
+		return s, err
+	}
+	defer d.Close()
+	if len(d.Shape) != 1 {
+		return s, formatErr(f.path, d.Path(), "store the trace as a 1-D float64 dataset", "shape %v is not 1-D", d.Shape)
+	}
+	as, err := d.Attrs()
+	if err != nil {
+		return s, err
+	}
+	a := newAttrGet(f.path, d.Path(), as)
+	a.required("sampling_rate_hz")
+	s.SamplingRateHz = a.num("sampling_rate_hz")
+	s.StartS = a.num("start_s")
+	if math.IsNaN(s.StartS) {
+		s.StartS = 0
+	}
+	s.Unit = a.str("unit")
+	if a.err != nil {
+		return s, a.err
+	}
+	s.Values, err = d.Float64s()
+	return s, err
+}
+
+func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
+	ar := record.Array{Name: name}
+	g, err := parent.OpenGroup(name)
+	if err != nil {
+		return ar, err
+	}
+	defer g.Close()
+	as, err := g.Attrs()
+	if err != nil {
+		return ar, err
+	}
+	a := newAttrGet(f.path, g.Path(), as)
+	a.required("sampling_rate_hz")
+	ar.Muscle, ar.Side = a.str("muscle"), a.str("side")
+	ar.Rows, ar.Columns = a.int("rows"), a.int("columns")
+	ar.IEDMm, ar.Gain = a.num("ied_mm"), a.num("gain")
+	ar.ADCBits = a.int("adc_bits")
+	ar.FilterLowHz, ar.FilterHighHz = a.num("filter_low_hz"), a.num("filter_high_hz")
+	ar.Montage, ar.Reference = a.str("montage"), a.str("reference")
+	ar.SamplingRateHz, ar.StartS = a.num("sampling_rate_hz"), a.num("start_s")
+	if math.IsNaN(ar.StartS) {
+		ar.StartS = 0
+	}
+	ar.Unit = a.str("unit")
+	ar.Extra = a.extra()
+	if a.err != nil {
+		return ar, a.err
+	}
+	if !g.Has(dsSamples) {
+		return ar, formatErr(f.path, g.Path()+"/"+dsSamples, "every array holds its samples", "required dataset is missing")
+	}
+	d, err := g.OpenDataset(dsSamples, 0)
+	if err != nil {
+		return ar, err
+	}
+	chunk, _, lerr := d.Layout()
+	d.Close()
+	if lerr != nil {
+		return ar, lerr
+	}
+	if len(d.Shape) != 2 || (d.Type != "float32" && d.Type != "float64") {
+		return ar, formatErr(f.path, d.Path(), "samples are a 2-D float32 or float64 [sample, channel] matrix", "samples are %s %v", d.Type, d.Shape)
+	}
+	// Cache two bands of chunks across all channels, so block readers that
+	// are not aligned to chunk rows still inflate each chunk once.
+	cache := 1 << 20
+	if len(chunk) == 2 {
+		cache = max(cache, 2*chunk[0]*d.Shape[1]*elemSize(d.Type))
+	}
+	if d, err = g.OpenDataset(dsSamples, cache); err != nil {
+		return ar, err
+	}
+	ar.SampleType = record.SampleType(d.Type)
+	sv := &ArraySamples{ds: d, rows: d.Shape[0], cols: d.Shape[1]}
+	f.samples = append(f.samples, sv)
+	ar.Samples = sv
+	if ar.Channels, err = f.readChannels(g, sv.cols); err != nil {
+		return ar, err
+	}
+	decs, err := mustGroup(f.path, g, grpDecomps)
+	if err != nil {
+		return ar, err
+	}
+	defer decs.Close()
+	kids, err := decs.Children()
+	if err != nil {
+		return ar, err
+	}
+	for _, k := range kids {
+		dec, err := f.readDecomposition(decs, k.Name, sv.cols)
+		if err != nil {
+			return ar, err
+		}
+		ar.Decompositions = append(ar.Decompositions, dec)
+	}
+	return ar, nil
+}
+
+func elemSize(t string) int {
+	if t == "float64" {
+		return 8
+	}
+	return 4
+}
+
+// column reads a 1-D column of a group and checks its length.
+type columns struct {
+	file string
+	g    *h5.Group
+	n    int
+}
+
+func (c *columns) open(name string) (*h5.Dataset, error) {
+	if !c.g.Has(name) {
+		return nil, formatErr(c.file, c.g.Path()+"/"+name, "LAYOUT.md lists the required columns", "required column is missing")
+	}
+	d, err := c.g.OpenDataset(name, 0)
+	if err != nil {
+		return nil, err
+	}
+	if len(d.Shape) != 1 || d.Shape[0] != c.n {
+		d.Close()
+		return nil, formatErr(c.file, d.Path(), "every column of a table has one value per row", "shape %v, want [%d]", d.Shape, c.n)
+	}
+	return d, nil
+}
+
+func (c *columns) f64(name string) ([]float64, error) {
+	d, err := c.open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer d.Close()
+	return d.Float64s()
+}
+
+func (c *columns) i64(name string) ([]int64, error) {
+	d, err := c.open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer d.Close()
+	return d.Int64s()
+}
+
+func (c *columns) strs(name string) ([]string, error) {
+	d, err := c.open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer d.Close()
+	return d.Strings()
+}
+
+func (c *columns) bools(name string) ([]bool, error) {
+	d, err := c.open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer d.Close()
+	return d.Bools()
+}
+
+func (f *File) readChannels(parent *h5.Group, n int) ([]record.Channel, error) {
+	g, err := mustGroup(f.path, parent, grpChannels)
+	if err != nil {
+		return nil, err
+	}
+	defer g.Close()
+	c := &columns{file: f.path, g: g, n: n}
+	label, err := c.strs("label")
+	if err != nil {
+		return nil, err
+	}
+	row, err := c.i64("row")
+	if err != nil {
+		return nil, err
+	}
+	col, err := c.i64("column")
+	if err != nil {
+		return nil, err
+	}
+	x, err := c.f64("x_mm")
+	if err != nil {
+		return nil, err
+	}
+	y, err := c.f64("y_mm")
+	if err != nil {
+		return nil, err
+	}
+	ok, err := c.bools("usable")
+	if err != nil {
+		return nil, err
+	}
+	out := make([]record.Channel, n)
+	for i := range out {
+		out[i] = record.Channel{Label: label[i], Row: int(row[i]), Column: int(col[i]), XMm: x[i], YMm: y[i], Usable: ok[i]}
+	}
+	return out, nil
+}
+
+func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (record.Decomposition, error) {
+	dec := record.Decomposition{Name: name}
+	g, err := parent.OpenGroup(name)
+	if err != nil {
+		return dec, err
+	}
+	defer g.Close()
+	as, err := g.Attrs()
+	if err != nil {
+		return dec, err
+	}
+	a := newAttrGet(f.path, g.Path(), as)
+	dec.Method, dec.MethodVersion = a.str("method"), a.str("method_version")
+	dec.Parameters = a.str("parameters")
+	dec.EditedByHand = a.boolean("edited_by_hand")
+	dec.Notes = a.str("notes")
+	if x := a.extra(); len(x) > 0 && a.err == nil {
+		keys := make([]string, 0, len(x))
+		for k := range x {
+			keys = append(keys, k)
+		}
+		slices.Sort(keys)
+		return dec, formatErr(f.path, g.Path(), "decompositions have no extra attributes; put per-unit figures in units/", "unknown attributes %v", keys)
+	}
+	if a.err != nil {
+		return dec, a.err
+	}
+	if dec.Parameters != "" && !json.Valid([]byte(dec.Parameters)) {
+		return dec, formatErr(f.path, g.Path(), "parameters is a JSON object text", "parameters are not valid JSON")
+	}
+	units, err := mustGroup(f.path, g, grpUnits)
+	if err != nil {
+		return dec, err
+	}
+	defer units.Close()
+	if !units.Has(colID) {
+		return dec, formatErr(f.path, units.Path()+"/"+colID, "LAYOUT.md lists the required columns", "required column is missing")
+	}
+	idd, err := units.OpenDataset(colID, 0)
+	if err != nil {
+		return dec, err
+	}
+	n := idd.Len()
+	idd.Close()
+	c := &columns{file: f.path, g: units, n: n}
+	ids, err := c.i64(colID)
+	if err != nil {
+		return dec, err
+	}
+	counts, err := c.i64(colDischargeN)
+	if err != nil {
+		return dec, err
+	}
+	figs := make([][]float64, len(unitColumns))
+	for k, name := range unitColumns {
+		if figs[k], err = c.f64(name); err != nil {
+			return dec, err
+		}
+	}
+	// Offsets and discharges.
+	oc := &columns{file: f.path, g: g, n: n + 1}
+	off, err := oc.i64(dsOffsets)
+	if err != nil {
+		return dec, err
+	}
+	if !g.Has(dsDischarges) {
+		return dec, formatErr(f.path, g.Path()+"/"+dsDischarges, "LAYOUT.md lists the required datasets", "required dataset is missing")
+	}
+	dd, err := g.OpenDataset(dsDischarges, 0)
+	if err != nil {
+		return dec, err
+	}
+	dis, err := dd.Int64s()
+	dd.Close()
+	if err != nil {
+		return dec, err
+	}
+	if off[0] != 0 || off[n] != int64(len(dis)) {
+		return dec, formatErr(f.path, g.Path()+"/"+dsOffsets, "offsets start at 0 and end at the length of discharges", "offsets run %d..%d for %d discharges", off[0], off[n], len(dis))
+	}
+	dec.Units = make([]record.Unit, n)
+	v := make([]float64, len(unitColumns))
+	for i := range dec.Units {
+		if off[i+1] < off[i] {
+			return dec, formatErr(f.path, g.Path()+"/"+dsOffsets, "offsets never decrease", "offset %d (%d) is below offset %d (%d)", i+1, off[i+1], i, off[i])
+		}
+		if counts[i] != off[i+1]-off[i] {
+			return dec, formatErr(f.path, units.Path()+"/"+colDischargeN, "discharge_count equals the unit's span in discharge_offsets", "unit %d: count %d, offsets give %d", ids[i], counts[i], off[i+1]-off[i])
+		}
+		u := &dec.Units[i]
+		u.ID = ids[i]
+		u.Discharges = slices.Clone(dis[off[i]:off[i+1]])
+		for k := range v {
+			v[k] = figs[k][i]
+		}
+		setUnitFigures(u, v)
+	}
+	// Extra columns: every other dataset in units/, in creation order.
+	kids, err := units.Children()
+	if err != nil {
+		return dec, err
+	}
+	for _, k := range kids {
+		if k.Name == colID || k.Name == colDischargeN || slices.Contains(unitColumns, k.Name) {
+			continue
+		}
+		d, err := c.open(k.Name)
+		if err != nil {
+			return dec, err
+		}
+		col := record.Column{Name: k.Name}
+		das, err := d.Attrs()
+		if err == nil {
+			if u, ok := h5.AttrMap(das)[attrColumnUnit].Value.(string); ok {
+				col.Unit = u
+			}
+			if len(d.Type) >= 6 && d.Type[:6] == "string" {
+				col.Text, err = d.Strings()
+			} else {
+				col.Values, err = d.Float64s()
+			}
+		}
+		d.Close()
+		if err != nil {
+			return dec, err
+		}
+		dec.ExtraColumns = append(dec.ExtraColumns, col)
+	}
+	if g.Has(dsMUAPs) {
+		d, err := g.OpenDataset(dsMUAPs, 0)
+		if err != nil {
+			return dec, err
+		}
+		defer d.Close()
+		if len(d.Shape) != 3 || d.Shape[0] != n || d.Shape[1] != channels {
+			return dec, formatErr(f.path, d.Path(), "muaps are [unit, channel, lag]", "shape %v for %d units and %d channels", d.Shape, n, channels)
+		}
+		das, err := d.Attrs()
+		if err != nil {
+			return dec, err
+		}
+		ma := newAttrGet(f.path, d.Path(), das)
+		m := &record.MUAPs{Units: n, Channels: channels, Lags: d.Shape[2], FirstLag: ma.int("first_lag"), Unit: ma.str("unit")}
+		if ma.err != nil {
+			return dec, ma.err
+		}
+		if m.Data, err = d.Float32s(); err != nil {
+			return dec, err
+		}
+		dec.MUAPs = m
+	}
+	return dec, nil
+}
+
+func (f *File) readProvenance(root *h5.Group) (record.Provenance, error) {
+	var p record.Provenance
+	g, err := root.OpenGroup(grpProvenance)
+	if err != nil {
+		return p, err
+	}
+	defer g.Close()
+	read := func(name string, cols []string, fn func(n int, vals []any) error) error {
+		sub, err := mustGroup(f.path, g, name)
+		if err != nil {
+			return err
+		}
+		defer sub.Close()
+		if !sub.Has(cols[0]) {
+			return formatErr(f.path, sub.Path()+"/"+cols[0], "LAYOUT.md lists the provenance columns", "required column is missing")
+		}
+		d, err := sub.OpenDataset(cols[0], 0)
+		if err != nil {
+			return err
+		}
+		n := d.Len()
+		d.Close()
+		c := &columns{file: f.path, g: sub, n: n}
+		vals := make([]any, len(cols))
+		for i, name := range cols {
+			if name == "bytes" {
+				vals[i], err = c.i64(name)
+			} else {
+				vals[i], err = c.strs(name)
+			}
+			if err != nil {
+				return err
+			}
+		}
+		return fn(n, vals)
+	}
+	err = read(grpSources, []string{"name", "role", "sha256", "bytes"}, func(n int, v []any) error {
+		for i := 0; i < n; i++ {
+			p.Sources = append(p.Sources, record.SourceFile{Name: v[0].([]string)[i], Role: v[1].([]string)[i],
+				SHA256: v[2].([]string)[i], Bytes: v[3].([]int64)[i]})
+		}
+		return nil
+	})
+	if err != nil {
+		return p, err
+	}
+	err = read(grpHistory, []string{"action", "software", "time", "details"}, func(n int, v []any) error {
+		for i := 0; i < n; i++ {
+			ts := v[2].([]string)[i]
+			t, err := time.Parse(time.RFC3339Nano, ts)
+			if err != nil {
+				return formatErr(f.path, "/provenance/history/time", "times are RFC 3339", "entry %d: %q is not an RFC 3339 time", i, ts)
+			}
+			p.History = append(p.History, record.Operation{Action: v[0].([]string)[i], Software: v[1].([]string)[i],
+				Time: t, Details: v[3].([]string)[i]})
+		}
+		return nil
+	})
+	return p, err
+}
+
+// ArraySamples is the file-backed record.SampleSource of one array.
+type ArraySamples struct {
+	ds         *h5.Dataset
+	rows, cols int
+}
+
+// Shape implements record.SampleSource.
+func (s *ArraySamples) Shape() (int, int) { return s.rows, s.cols }
+
+// ReadFloat32 implements record.SampleSource.
+func (s *ArraySamples) ReadFloat32(start int, dst []float32) error {
+	if len(dst)%s.cols != 0 {
+		return errors.New("recfile: block is not whole rows")
+	}
+	return s.ds.ReadSlab32([]int{start, 0}, []int{len(dst) / s.cols, s.cols}, dst)
+}
+
+// ReadFloat64 implements record.SampleSource.
+func (s *ArraySamples) ReadFloat64(start int, dst []float64) error {
+	if len(dst)%s.cols != 0 {
+		return errors.New("recfile: block is not whole rows")
+	}
+	return s.ds.ReadSlab64([]int{start, 0}, []int{len(dst) / s.cols, s.cols}, dst)
+}
+
+// ReadRange32 reads rows [row0, row0+rows) of channels [ch0, ch0+nch) into
+// dst (row-major rows x nch). Only the chunks that hold them are read.
+func (s *ArraySamples) ReadRange32(row0, rows, ch0, nch int, dst []float32) error {
+	if row0 < 0 || rows < 0 || ch0 < 0 || nch < 0 || row0+rows > s.rows || ch0+nch > s.cols {
+		return fmt.Errorf("recfile: range rows %d+%d channels %d+%d outside %dx%d", row0, rows, ch0, nch, s.rows, s.cols)
+	}
+	return s.ds.ReadSlab32([]int{row0, ch0}, []int{rows, nch}, dst)
+}
+
+// ReadRange64 is ReadRange32 for float64.
+func (s *ArraySamples) ReadRange64(row0, rows, ch0, nch int, dst []float64) error {
+	if row0 < 0 || rows < 0 || ch0 < 0 || nch < 0 || row0+rows > s.rows || ch0+nch > s.cols {
+		return fmt.Errorf("recfile: range rows %d+%d channels %d+%d outside %dx%d", row0, rows, ch0, nch, s.rows, s.cols)
+	}
+	return s.ds.ReadSlab64([]int{row0, ch0}, []int{rows, nch}, dst)
+}
