@@ -1,0 +1,410 @@
+package synth
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"maps"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+
+	"muarc/internal/atomicfile"
+	"muarc/record"
+)
+
+// ExportOptions tune WriteExportsOpt.
+type ExportOptions struct {
+	// Overwrite replaces existing files; without it an existing file is an
+	// error wrapping atomicfile.ErrExists and nothing of it is touched.
+	Overwrite bool
+	// Progress, when set, is called after each EMG block with the sample
+	// rows written so far and the total over all arrays and trials.
+	Progress func(done, total int64)
+}
+
+// ExportDir is the folder WriteExports(dir) fills for this recording:
+// dir/<subject code>.
+func (g *Generated) ExportDir(dir string) string {
+	return filepath.Join(dir, g.Recording.Subject.ID)
+}
+
+// WriteExports writes the recording's plain-text exports and truth.json
+// into dir/<subject code>/ (see EXPORTS.md), each file atomically. It
+// refuses to replace existing files.
+func (g *Generated) WriteExports(dir string) error {
+	return g.WriteExportsOpt(dir, ExportOptions{})
+}
+
+// WriteExportsOpt is WriteExports with options.
+func (g *Generated) WriteExportsOpt(dir string, opt ExportOptions) error {
+	rec := g.Recording
+	root := g.ExportDir(dir)
+	if err := os.MkdirAll(root, 0o755); err != nil {
+		return err
+	}
+	var total, done int64
+	for _, t := range rec.Trials {
+		for _, a := range t.Arrays {
+			n, _ := a.Samples.Shape()
+			total += int64(n)
+		}
+	}
+	meta, err := json.MarshalIndent(sidecar(rec), "", "  ")
+	if err != nil {
+		return err
+	}
+	if err := atomicfile.WriteFile(filepath.Join(root, "metadata.json"), append(meta, '\n'), opt.Overwrite); err != nil {
+		return err
+	}
+	for _, t := range rec.Trials {
+		td := filepath.Join(root, t.Name)
+		if err := os.MkdirAll(td, 0o755); err != nil {
+			return err
+		}
+		if err := writeFile(filepath.Join(td, "force.csv"), opt.Overwrite, func(w *bufio.Writer) error { return writeForce(w, t) }); err != nil {
+			return err
+		}
+		for _, a := range t.Arrays {
+			err := writeFile(filepath.Join(td, "emg_"+a.Name+".csv"), opt.Overwrite, func(w *bufio.Writer) error {
+				return writeEMG(w, a, func(rows int) {
+					done += int64(rows)
+					if opt.Progress != nil {
+						opt.Progress(done, total)
+					}
+				})
+			})
+			if err != nil {
+				return err
+			}
+			for _, d := range a.Decompositions {
+				stem := a.Name + "_" + d.Name + ".csv"
+				if err := writeFile(filepath.Join(td, "discharges_"+stem), opt.Overwrite, func(w *bufio.Writer) error { return writeDischarges(w, d, a.SamplingRateHz) }); err != nil {
+					return err
+				}
+				if err := writeFile(filepath.Join(td, "units_"+stem), opt.Overwrite, func(w *bufio.Writer) error { return writeUnits(w, d) }); err != nil {
+					return err
+				}
+			}
+		}
+	}
+	truth, err := json.Marshal(g.Truth)
+	if err != nil {
+		return err
+	}
+	return atomicfile.WriteFile(filepath.Join(root, "truth.json"), append(truth, '\n'), opt.Overwrite)
+}
+
+func writeFile(path string, overwrite bool, fill func(*bufio.Writer) error) error {
+	return atomicfile.Write(path, overwrite, func(f *os.File) error {
+		w := bufio.NewWriterSize(f, 1<<16)
+		if err := fill(w); err != nil {
+			return err
+		}
+		return w.Flush()
+	})
+}
+
+func fmtNum(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }
+
+// header writes the "key: value" block and the blank line after it.
+func header(w *bufio.Writer, kv ...string) {
+	for i := 0; i+1 < len(kv); i += 2 {
+		w.WriteString(kv[i] + ": " + kv[i+1] + "\n")
+	}
+	w.WriteString("\n")
+}
+
+func writeForce(w *bufio.Writer, t record.Trial) error {
+	f, tg := t.Force, t.ForceTarget
+	if len(tg.Values) != len(f.Values) || tg.SamplingRateHz != f.SamplingRateHz {
+		return fmt.Errorf("synth: trial %s: force and target differ in length or rate", t.Name)
+	}
+	header(w, "device", "force transducer (simulated)",
+		"quantity", "ankle dorsiflexion force",
+		"sampling rate", fmtNum(f.SamplingRateHz)+" Hz",
+		"start", fmtNum(f.StartS)+" s",
+		"unit", f.Unit,
+		"samples", strconv.Itoa(len(f.Values)))
+	w.WriteString("time [s],force [" + f.Unit + "],target [" + tg.Unit + "]\n")
+	var b []byte
+	for k, v := range f.Values {
+		b = strconv.AppendFloat(b[:0], f.StartS+float64(k)/f.SamplingRateHz, 'f', -1, 64)
+		b = append(b, ',')
+		b = strconv.AppendFloat(b, v, 'f', 4, 64)
+		b = append(b, ',')
+		b = strconv.AppendFloat(b, tg.Values[k], 'f', 4, 64)
+		b = append(b, '\n')
+		w.Write(b)
+	}
+	return nil
+}
+
+// emgBlockRows is the row count of one EMG read while exporting.
+const emgBlockRows = 2048
+
+func writeEMG(w *bufio.Writer, a record.Array, progress func(rows int)) error {
+	rows, ch := a.Samples.Shape()
+	header(w, "array", a.Name,
+		"muscle", a.Muscle,
+		"sampling rate", fmtNum(a.SamplingRateHz)+" Hz",
+		"start", fmtNum(a.StartS)+" s",
+		"unit", a.Unit,
+		"channels", strconv.Itoa(ch),
+		"samples", strconv.Itoa(rows))
+	w.WriteString("time [s]")
+	for _, c := range a.Channels {
+		w.WriteString("," + c.Label + " [" + a.Unit + "]")
+	}
+	w.WriteString("\n")
+	buf := make([]float64, emgBlockRows*ch)
+	var b []byte
+	for r0 := 0; r0 < rows; r0 += emgBlockRows {
+		n := min(emgBlockRows, rows-r0)
+		blk := buf[:n*ch]
+		if err := a.Samples.ReadFloat64(r0, blk); err != nil {
+			return err
+		}
+		for r := range n {
+			b = strconv.AppendFloat(b[:0], a.StartS+float64(r0+r)/a.SamplingRateHz, 'f', -1, 64)
+			for _, v := range blk[r*ch : (r+1)*ch] {
+				b = append(b, ',')
+				b = strconv.AppendFloat(b, v, 'f', 2, 64)
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+		progress(n)
+	}
+	return nil
+}
+
+func writeDischarges(w *bufio.Writer, d record.Decomposition, fs float64) error {
+	w.WriteString("unit,time [s]\n")
+	var b []byte
+	for _, u := range d.Units {
+		for _, k := range u.Discharges {
+			b = strconv.AppendInt(b[:0], u.ID, 10)
+			b = append(b, ',')
+			b = strconv.AppendFloat(b, float64(k)/fs, 'f', 6, 64)
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	}
+	return nil
+}
+
+// Unit-table columns: header and decimals.
+var unitColumns = []struct {
+	head string
+	dec  int
+	get  func(record.Unit) float64
+}{
+	{"SIL", 4, func(u record.Unit) float64 { return u.Silhouette }},
+	{"PNR [dB]", 2, func(u record.Unit) float64 { return u.PNRdB }},
+	{"accuracy [%]", 2, func(u record.Unit) float64 { return u.AccuracyPct }},
+	{"CoV ISI", 4, func(u record.Unit) float64 { return u.ISICoV }},
+	{"recruitment [%MVC]", 3, func(u record.Unit) float64 { return u.RecruitPctMVC }},
+	{"derecruitment [%MVC]", 3, func(u record.Unit) float64 { return u.DerecruitPctMVC }},
+	{"initial rate [pps]", 3, func(u record.Unit) float64 { return u.InitialRatePPS }},
+	{"mean rate [pps]", 3, func(u record.Unit) float64 { return u.MeanRatePPS }},
+}
+
+// extraHeader is an extra column's header: its name with spaces for
+// underscores and its unit in brackets.
+func extraHeader(c record.Column) string {
+	h := strings.ReplaceAll(c.Name, "_", " ")
+	if c.Unit != "" {
+		h += " [" + c.Unit + "]"
+	}
+	return h
+}
+
+func writeUnits(w *bufio.Writer, d record.Decomposition) error {
+	w.WriteString("unit")
+	for _, c := range unitColumns {
+		w.WriteString("," + c.head)
+	}
+	for _, c := range d.ExtraColumns {
+		w.WriteString("," + extraHeader(c))
+	}
+	w.WriteString("\n")
+	var b []byte
+	for i, u := range d.Units {
+		b = strconv.AppendInt(b[:0], u.ID, 10)
+		for _, c := range unitColumns {
+			b = append(b, ',')
+			if v := c.get(u); !math.IsNaN(v) {
+				b = strconv.AppendFloat(b, v, 'f', c.dec, 64)
+			}
+		}
+		for _, c := range d.ExtraColumns {
+			b = append(b, ',')
+			switch {
+			case c.Values != nil && !math.IsNaN(c.Values[i]):
+				b = strconv.AppendFloat(b, c.Values[i], 'f', -1, 64)
+			case c.Text != nil:
+				b = append(b, c.Text[i]...)
+			}
+		}
+		b = append(b, '\n')
+		w.Write(b)
+	}
+	return nil
+}
+
+// obj is a JSON object that keeps its keys in insertion order.
+type obj []kv
+
+type kv struct {
+	k string
+	v any
+}
+
+// add appends k unless v is an empty string or a NaN number.
+func (o *obj) add(k string, v any) {
+	switch x := v.(type) {
+	case string:
+		if x == "" {
+			return
+		}
+	case float64:
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return
+		}
+	}
+	*o = append(*o, kv{k, v})
+}
+
+func (o *obj) extra(e record.Extra) {
+	for _, k := range slices.Sorted(maps.Keys(e)) {
+		o.add(k, e[k])
+	}
+}
+
+// MarshalJSON implements json.Marshaler.
+func (o obj) MarshalJSON() ([]byte, error) {
+	var b bytes.Buffer
+	b.WriteByte('{')
+	for i, p := range o {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		k, _ := json.Marshal(p.k)
+		b.Write(k)
+		b.WriteByte(':')
+		v, err := json.Marshal(p.v)
+		if err != nil {
+			return nil, err
+		}
+		b.Write(v)
+	}
+	b.WriteByte('}')
+	return b.Bytes(), nil
+}
+
+// sidecar builds the metadata sidecar: the metadata view's study, subject,
+// session and trials, without samples and units.
+func sidecar(r *record.Recording) obj {
+	var st, su, se obj
+	st.add("id", r.Study.ID)
+	st.add("title", r.Study.Title)
+	st.add("description", r.Study.Description)
+	st.add("contact", r.Study.Contact)
+	st.add("license", r.Study.License)
+	st.extra(r.Study.Extra)
+	s := r.Subject
+	su.add("id", s.ID)
+	su.add("name", s.Name)
+	su.add("birth_date", s.BirthDate)
+	su.add("age_years", s.AgeYears)
+	su.add("age_band", s.AgeBand)
+	su.add("sex", s.Sex)
+	su.add("height_cm", s.HeightCm)
+	su.add("mass_kg", s.MassKg)
+	su.add("dominant_side", s.DominantSide)
+	su.add("phone", s.Phone)
+	su.add("email", s.Email)
+	su.add("notes", s.Notes)
+	su.extra(s.Extra)
+	se.add("id", r.Session.ID)
+	se.add("date", r.Session.Date)
+	se.add("site", r.Session.Site)
+	se.add("operator", r.Session.Operator)
+	se.add("notes", r.Session.Notes)
+	se.extra(r.Session.Extra)
+	trials := []obj{}
+	for _, t := range r.Trials {
+		var to obj
+		to.add("name", t.Name)
+		to.add("task", t.Task)
+		to.add("target_pct_mvc", t.TargetPctMVC)
+		to.add("mvc", t.MVC)
+		to.add("mvc_unit", t.MVCUnit)
+		to.add("profile_shape", t.Profile.Shape)
+		to.add("rest_s", t.Profile.RestS)
+		to.add("ramp_up_s", t.Profile.RampUpS)
+		to.add("plateau_s", t.Profile.PlateauS)
+		to.add("ramp_down_s", t.Profile.RampDownS)
+		to.add("notes", t.Notes)
+		to.extra(t.Extra)
+		arrays := []obj{}
+		for _, a := range t.Arrays {
+			var ao obj
+			ao.add("name", a.Name)
+			ao.add("muscle", a.Muscle)
+			ao.add("side", a.Side)
+			ao.add("rows", a.Rows)
+			ao.add("columns", a.Columns)
+			ao.add("ied_mm", a.IEDMm)
+			ao.add("gain", a.Gain)
+			if a.ADCBits > 0 {
+				ao.add("adc_bits", a.ADCBits)
+			}
+			ao.add("filter_low_hz", a.FilterLowHz)
+			ao.add("filter_high_hz", a.FilterHighHz)
+			ao.add("montage", a.Montage)
+			ao.add("reference", a.Reference)
+			ao.extra(a.Extra)
+			chans := []obj{}
+			for _, c := range a.Channels {
+				var co obj
+				co.add("label", c.Label)
+				co.add("row", c.Row)
+				co.add("column", c.Column)
+				co.add("x_mm", c.XMm)
+				co.add("y_mm", c.YMm)
+				co.add("usable", c.Usable)
+				chans = append(chans, co)
+			}
+			ao.add("channels", chans)
+			decs := []obj{}
+			for _, d := range a.Decompositions {
+				var do obj
+				do.add("name", d.Name)
+				do.add("method", d.Method)
+				do.add("method_version", d.MethodVersion)
+				if d.Parameters != "" {
+					do.add("parameters", json.RawMessage(d.Parameters))
+				}
+				do.add("edited_by_hand", d.EditedByHand)
+				do.add("notes", d.Notes)
+				decs = append(decs, do)
+			}
+			ao.add("decompositions", decs)
+			arrays = append(arrays, ao)
+		}
+		to.add("arrays", arrays)
+		trials = append(trials, to)
+	}
+	var o obj
+	o.add("study", st)
+	o.add("subject", su)
+	o.add("session", se)
+	o.add("trials", trials)
+	return o
+}
