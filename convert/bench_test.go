@@ -1,0 +1,72 @@
+package convert
+
+import (
+	"bufio"
+	"math/rand"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+
+	"muarc/record"
+)
+
+// writeBenchCSV writes a channels x (rate*secs) EMG CSV with a time column
+// in seconds and six decimals per value (about 76 MB for 64 x 2048 x 60).
+func writeBenchCSV(tb testing.TB, path string, channels, rate, secs int) int64 {
+	tb.Helper()
+	f, err := os.Create(path)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	w.WriteString("time [s]")
+	for c := 0; c < channels; c++ {
+		w.WriteString(",ch" + strconv.Itoa(c+1) + " [mV]")
+	}
+	w.WriteByte('\n')
+	rng := rand.New(rand.NewSource(1))
+	var buf []byte
+	for i := 0; i < rate*secs; i++ {
+		buf = strconv.AppendFloat(buf[:0], float64(i)/float64(rate), 'f', 6, 64)
+		for c := 0; c < channels; c++ {
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, rng.NormFloat64()*0.2, 'f', 6, 64)
+		}
+		buf = append(buf, '\n')
+		w.Write(buf)
+	}
+	if err := w.Flush(); err != nil {
+		tb.Fatal(err)
+	}
+	st, _ := f.Stat()
+	f.Close()
+	return st.Size()
+}
+
+// BenchmarkScanAndStream64x2048x60 measures both text passes without the
+// HDF5 writer: the first pass and a full streaming read as float32.
+func BenchmarkScanAndStream64x2048x60(b *testing.B) {
+	p := filepath.Join(b.TempDir(), "emg.csv")
+	size := writeBenchCSV(b, p, 64, 2048, 60)
+	b.SetBytes(size)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		s, err := ScanSignals(p, SignalOptions{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if s.DType != record.Float32 || s.RateHz != 2048 {
+			b.Fatalf("%s %v", s.DTypeWhy, s.RateHz)
+		}
+		src := s.Source()
+		dst := make([]float32, 4096*64)
+		for r := 0; r < s.Samples; r += 4096 {
+			n := min(4096, s.Samples-r)
+			if err := src.ReadFloat32(r, dst[:n*64]); err != nil {
+				b.Fatal(err)
+			}
+		}
+		src.Close()
+	}
+}

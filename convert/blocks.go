@@ -1,0 +1,449 @@
+package convert
+
+import (
+	"bytes"
+	"io"
+	"math"
+	"os"
+	"runtime"
+	"sync"
+)
+
+// blockBytes is the size of the text blocks parsed in parallel. Small enough
+// that a few blocks in flight keep memory flat, large enough that the
+// per-block overhead vanishes.
+const blockBytes = 1 << 20
+
+// blockMode says what a worker does with the numbers of a block.
+type blockMode uint8
+
+const (
+	modeScan blockMode = iota // check and gather statistics only
+	mode32                    // convert data cells to float32
+	mode64                    // convert data cells to float64
+)
+
+// blockSpec is what every worker needs to parse a block of signal rows.
+type blockSpec struct {
+	file  string
+	d     Dialect
+	cols  int // fields per row
+	tcol  int // time column index or -1
+	mode  blockMode
+	all32 bool // check every cell for float32 (forced float32: largest error wanted)
+}
+
+// block is one run of whole lines and what parsing it gave.
+type block struct {
+	buf  []byte
+	data []byte
+	line int // line number of data[0]
+
+	rows      int
+	f32       []float32
+	f64       []float64
+	times     []float64
+	rowLines  []int32 // line of each row relative to line (time files only)
+	timeDec   int     // most decimals written in a time cell
+	timeFrac  bool    // a time cell had a fraction or exponent
+	maxDigits int
+	nan       int64
+	// f32 check: cells that do not fit float32, the largest error and where
+	// the first one is.
+	f32bad    int64
+	f32MaxErr float64
+	f32First  cellRef
+	f64bad    int64
+	f64MaxErr float64
+	f64First  cellRef
+	err       error
+	done      chan struct{}
+}
+
+// cellRef locates a cell for the report.
+type cellRef struct {
+	Line, Column int
+	Text         string
+}
+
+func (b *block) reset() {
+	b.rows, b.timeDec, b.maxDigits = 0, 0, 0
+	b.timeFrac = false
+	b.f32, b.f64, b.times, b.rowLines = b.f32[:0], b.f64[:0], b.times[:0], b.rowLines[:0]
+	b.nan, b.f32bad, b.f64bad = 0, 0, 0
+	b.f32MaxErr, b.f64MaxErr = 0, 0
+	b.f32First, b.f64First = cellRef{}, cellRef{}
+	b.err = nil
+	b.done = make(chan struct{})
+}
+
+// parse parses every row of the block.
+func (sp *blockSpec) parse(b *block) {
+	data := b.data
+	line := b.line
+	for len(data) > 0 {
+		nl := bytes.IndexByte(data, '\n')
+		var l []byte
+		if nl < 0 {
+			l, data = data, nil
+		} else {
+			l, data = data[:nl], data[nl+1:]
+		}
+		t := trimBlank(l)
+		if len(t) != 0 && !isComment(t) {
+			if err := sp.row(b, t, line); err != nil {
+				b.err = err
+				return
+			}
+		}
+		line++
+	}
+}
+
+// fastCell reads a plain decimal ("-12.345", "7") starting at pos and
+// ending at the delimiter or the end of the line: no blanks, quotes,
+// exponents or more than 19 digits. ok is false for anything else, and the
+// caller takes the general path for that cell.
+func fastCell(l []byte, pos int, delim, sep byte) (m uint64, frac int, neg, hasSep bool, end int, ok bool) {
+	i := pos
+	if i < len(l) && l[i] == '-' {
+		neg = true
+		i++
+	}
+	start := i
+	for i < len(l) {
+		c := l[i] - '0'
+		if c > 9 {
+			break
+		}
+		m = m*10 + uint64(c)
+		i++
+	}
+	digits := i - start
+	if i < len(l) && l[i] == sep {
+		hasSep = true
+		i++
+		fs := i
+		for i < len(l) {
+			c := l[i] - '0'
+			if c > 9 {
+				break
+			}
+			m = m*10 + uint64(c)
+			i++
+		}
+		frac = i - fs
+		digits += frac
+	}
+	if digits == 0 || digits > 19 || i < len(l) && l[i] != delim {
+		return 0, 0, false, false, i, false
+	}
+	return m, frac, neg, hasSep, i, true
+}
+
+func (sp *blockSpec) row(b *block, l []byte, line int) error {
+	d := sp.d.Delimiter
+	comma := sp.d.DecimalComma
+	sep := byte('.')
+	if comma {
+		sep = ','
+	}
+	col := 0
+	pos := 0
+	for {
+		if col >= sp.cols {
+			return perr(sp.file, line, col+1, "every row needs as many fields as the header; check for a stray delimiter", "row has more than %d fields", sp.cols)
+		}
+		if d != ' ' {
+			m, frac, neg, hasSep, end, ok := fastCell(l, pos, d, sep)
+			if ok && frac <= 22 && (sp.mode != modeScan || col == sp.tcol || m < 1000000) {
+				if col == sp.tcol || sp.mode == mode64 {
+					var v float64
+					if m < 1<<53 {
+						v = float64(m) / pow10[frac]
+						if neg {
+							v = -v
+						}
+					} else {
+						n, _ := parseNumber(l[pos:end], comma)
+						v = n.v
+					}
+					if col == sp.tcol {
+						b.times = append(b.times, v)
+						b.rowLines = append(b.rowLines, int32(line-b.line))
+						b.timeDec = max(b.timeDec, frac)
+						b.timeFrac = b.timeFrac || hasSep
+					} else {
+						b.f64 = append(b.f64, v)
+					}
+				} else if sp.mode == mode32 {
+					var f float32
+					if m < 1<<24 && frac <= 10 {
+						f = float32(m) / pow10f32[frac]
+						if neg {
+							f = -f
+						}
+					} else {
+						n, _ := parseNumber(l[pos:end], comma)
+						f = toF32(&n, l[pos:end], comma)
+					}
+					b.f32 = append(b.f32, f)
+				} else {
+					// Scan: at most 6 significant digits and at least 1e-37 in
+					// magnitude (or zero) fit float32 (FLT_DIG = 6).
+					if m != 0 && frac > 37 {
+						goto general
+					}
+					nd := 0
+					for x := m; x != 0; x /= 10 {
+						nd++
+					}
+					b.maxDigits = max(b.maxDigits, nd)
+				}
+				col++
+				if end >= len(l) {
+					break
+				}
+				pos = end + 1
+				continue
+			}
+		}
+	general:
+		// Find the cell [pos, end).
+		var cell []byte
+		last := false
+		if d == ' ' {
+			for pos < len(l) && (l[pos] == ' ' || l[pos] == '\t') {
+				pos++
+			}
+			end := pos
+			for end < len(l) && l[end] != ' ' && l[end] != '\t' {
+				end++
+			}
+			cell = l[pos:end]
+			pos = end
+			for pos < len(l) && (l[pos] == ' ' || l[pos] == '\t') {
+				pos++
+			}
+			last = pos >= len(l)
+		} else {
+			i := bytes.IndexByte(l[pos:], d)
+			if i < 0 {
+				cell = l[pos:]
+				last = true
+			} else {
+				cell = l[pos : pos+i]
+				pos += i + 1
+			}
+			cell = trimBlank(cell)
+			if len(cell) >= 2 && cell[0] == '"' && cell[len(cell)-1] == '"' {
+				cell = trimBlank(cell[1 : len(cell)-1])
+			}
+		}
+		n, kind := parseNumber(cell, comma)
+		switch kind {
+		case cellText:
+			return perr(sp.file, line, col+1, "fix the cell; write NaN or leave it empty for a missing value", "text %q in a numeric cell", clip(cell))
+		case cellEmpty, cellNaN:
+			if col == sp.tcol {
+				return perr(sp.file, line, col+1, "every row needs its time", "time cell is empty")
+			}
+			n.v = math.NaN()
+			b.nan++
+		}
+		if col == sp.tcol {
+			b.times = append(b.times, n.v)
+			b.rowLines = append(b.rowLines, int32(line-b.line))
+			b.timeDec = max(b.timeDec, n.decimals)
+			b.timeFrac = b.timeFrac || !n.integer
+		} else {
+			switch sp.mode {
+			case modeScan:
+				b.maxDigits = max(b.maxDigits, n.digits)
+				if kind == cellNumber && (b.f32bad == 0 || sp.all32) {
+					f := toF32(&n, cell, comma)
+					if !f32Exact(&n, f) {
+						if b.f32bad == 0 {
+							b.f32First = cellRef{line, col + 1, string(cell)}
+						}
+						b.f32bad++
+						if e := math.Abs(float64(f) - n.v); e > b.f32MaxErr {
+							b.f32MaxErr = e
+						}
+					}
+				}
+				if n.digits > 15 && !f64Exact(&n) {
+					if b.f64bad == 0 {
+						b.f64First = cellRef{line, col + 1, string(cell)}
+					}
+					b.f64bad++
+					if e := math.Abs(n.v) * 0x1p-53; e > b.f64MaxErr {
+						b.f64MaxErr = e
+					}
+				}
+			case mode32:
+				if kind == cellNumber {
+					b.f32 = append(b.f32, toF32(&n, cell, comma))
+				} else {
+					b.f32 = append(b.f32, float32(math.NaN()))
+				}
+			case mode64:
+				b.f64 = append(b.f64, n.v)
+			}
+		}
+		col++
+		if last {
+			break
+		}
+	}
+	if col != sp.cols {
+		return perr(sp.file, line, col, "every row needs as many fields as the header; fill a missing value with NaN or an empty cell", "row has %d fields, expected %d", col, sp.cols)
+	}
+	b.rows++
+	return nil
+}
+
+func clip(b []byte) string {
+	if len(b) > 40 {
+		return string(b[:40]) + "..."
+	}
+	return string(b)
+}
+
+// pipeline reads a file from an offset in blocks of whole lines, parses them
+// on all cores and hands them back in order.
+type pipeline struct {
+	out  chan *block
+	free chan *block
+	stop chan struct{}
+	once sync.Once
+	wg   sync.WaitGroup
+	err  error // read error, set before out is closed
+}
+
+func startPipeline(sp *blockSpec, off int64, line int) *pipeline {
+	workers := runtime.GOMAXPROCS(0)
+	inflight := workers + 2
+	p := &pipeline{
+		out:  make(chan *block, inflight),
+		free: make(chan *block, inflight),
+		stop: make(chan struct{}),
+	}
+	for i := 0; i < inflight; i++ {
+		p.free <- &block{buf: make([]byte, blockBytes)}
+	}
+	work := make(chan *block, inflight)
+	for w := 0; w < workers; w++ {
+		p.wg.Add(1)
+		go func() {
+			defer p.wg.Done()
+			for b := range work {
+				sp.parse(b)
+				close(b.done)
+			}
+		}()
+	}
+	go func() {
+		defer close(p.out)
+		defer close(work)
+		f, err := os.Open(sp.file)
+		if err != nil {
+			p.err = err
+			return
+		}
+		defer f.Close()
+		if _, err := f.Seek(off, io.SeekStart); err != nil {
+			p.err = err
+			return
+		}
+		var carry []byte
+		eof := false
+		for !eof || len(carry) > 0 {
+			var b *block
+			select {
+			case b = <-p.free:
+			case <-p.stop:
+				return
+			}
+			b.reset()
+			if cap(b.buf) < len(carry)+blockBytes/2 {
+				b.buf = make([]byte, 2*(len(carry)+blockBytes/2))
+			}
+			buf := b.buf[:cap(b.buf)]
+			n := copy(buf, carry)
+			for n < len(buf) && !eof {
+				m, err := f.Read(buf[n:])
+				n += m
+				if err == io.EOF {
+					eof = true
+				} else if err != nil {
+					p.err = err
+					return
+				}
+			}
+			data := buf[:n]
+			cut := bytes.LastIndexByte(data, '\n')
+			if eof {
+				cut = n - 1
+			} else if cut < 0 {
+				// One line longer than the block: grow and read on.
+				carry = append([]byte(nil), data...)
+				b.buf = make([]byte, 2*len(data))
+				p.free <- b
+				continue
+			}
+			b.data = data[:cut+1]
+			carry = append(carry[:0], data[cut+1:]...)
+			b.line = line
+			line += bytes.Count(b.data, []byte{'\n'})
+			if eof && len(b.data) > 0 && b.data[len(b.data)-1] != '\n' {
+				line++
+			}
+			if eof {
+				carry = nil
+			}
+			select {
+			case work <- b:
+			case <-p.stop:
+				return
+			}
+			select {
+			case p.out <- b:
+			case <-p.stop:
+				return
+			}
+		}
+	}()
+	return p
+}
+
+// next returns the next parsed block in file order, nil at the end.
+func (p *pipeline) next() (*block, error) {
+	b, ok := <-p.out
+	if !ok {
+		return nil, p.err
+	}
+	<-b.done
+	if b.err != nil {
+		return b, b.err
+	}
+	return b, nil
+}
+
+// release gives a block's memory back to the reader.
+func (p *pipeline) release(b *block) {
+	select {
+	case p.free <- b:
+	default:
+	}
+}
+
+// close stops the pipeline and waits for its workers.
+func (p *pipeline) close() {
+	p.once.Do(func() { close(p.stop) })
+	// Drain so the reader and workers can finish.
+	for b := range p.out {
+		<-b.done
+	}
+	p.wg.Wait()
+}

@@ -1,0 +1,573 @@
+package convert
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"muarc/record"
+)
+
+// SignalOptions control reading a delimited signal file (force or EMG).
+type SignalOptions struct {
+	TextOptions
+	// TimeColumn is "" or "auto" (the first column when its header names
+	// time or a sample number), "none", "first", or a column label.
+	TimeColumn string
+	// TimeUnit overrides the time column's unit: "s", "ms" or "samples".
+	TimeUnit string
+	// RateHz is the sampling rate in hertz when the file has no time column
+	// (or a sample-number column); 0 = not given.
+	RateHz float64
+	// AllowGaps accepts missing samples in the time column; they become
+	// rows of NaN so that sample indices stay on one grid.
+	AllowGaps bool
+	// DType forces the stored sample type; "" decides by the digits written.
+	DType record.SampleType
+	// Unit is the unit of columns whose header gives none ("" = unknown).
+	Unit string
+}
+
+// Gap is a run of missing samples found in a time column.
+type Gap struct {
+	// Row is the grid row (0-based) of the first missing sample.
+	Row int64 `json:"row"`
+	// Missing is the number of samples missing.
+	Missing int64 `json:"missing"`
+	// Line is the file line of the sample after the gap.
+	Line int `json:"line"`
+}
+
+// Signals describes a delimited signal file after the first pass: its
+// dialect, columns, rate and the sample type that keeps it lossless. Its
+// data is read by a second, streaming pass (Source or Columns).
+type Signals struct {
+	File    string
+	Dialect Dialect
+	// Meta holds the "key: value" lines above the table.
+	Meta []MetaLine
+	// Labels and Units describe the data columns (the time column is not one
+	// of them); Units are UCUM ("" unknown).
+	Labels []string
+	Units  []string
+	// TimeLabel is the time column's header ("" when none), TimeUnit "s",
+	// "ms" or "samples".
+	TimeLabel string
+	TimeUnit  string
+	// Rows is the number of table rows; Samples the number on the sample
+	// grid (Rows plus the samples missing in gaps).
+	Rows    int
+	Samples int
+	// RateHz is the sampling rate in hertz, StartS the time of the first
+	// sample in seconds; RateWhy says where the rate came from.
+	RateHz  float64
+	StartS  float64
+	RateWhy string
+	Gaps    []Gap
+	// JitterS is the largest distance in seconds between a time cell and
+	// its place on the sample grid; known after a full second pass.
+	JitterS float64
+	// TimeResolutionS is the step of the last written digit of the time
+	// column in seconds.
+	TimeResolutionS float64
+	// DType is the stored sample type and DTypeWhy the reason.
+	DType    record.SampleType
+	DTypeWhy string
+	// MaxDigits is the most significant digits written in a data cell.
+	MaxDigits int
+	// LossyCells counts cells the chosen type does not hold at the digits
+	// written; MaxAbsError is the largest error that causes (in the
+	// column's unit).
+	LossyCells  int64
+	MaxAbsError float64
+	// NaNCells counts empty or NaN data cells.
+	NaNCells int64
+	// Notes says what was assumed and why.
+	Notes []string
+
+	lay  *layout
+	cols int
+	tcol int
+
+	lossy32, lossy64   int64
+	maxErr32, maxErr64 float64
+	first32, first64   cellRef
+}
+
+var timeLabels = map[string]string{
+	"time": "s", "t": "s", "timestamp": "s", "seconds": "s", "sec": "s", "time_s": "s", "time s": "s",
+	"time_ms": "ms", "time ms": "ms", "milliseconds": "ms",
+	"sample": "samples", "samples": "samples", "sample #": "samples", "sample_number": "samples",
+	"sample number": "samples", "sample index": "samples", "sample_index": "samples", "n": "samples", "index": "samples", "#": "samples",
+}
+
+// ScanSignals runs the first pass over a signal file: dialect, header,
+// units, time column (constant step, gaps, rate), row count and the sample
+// type decision. It reads the whole file once and keeps nothing of it.
+func ScanSignals(path string, opt SignalOptions) (*Signals, error) {
+	lay, err := readLayout(path, opt.TextOptions)
+	if err != nil {
+		return nil, err
+	}
+	s := &Signals{File: path, Dialect: lay.dialect, Meta: lay.meta, lay: lay, cols: lay.fields, tcol: -1}
+	s.Notes = append(s.Notes, lay.dialect.Why)
+	if lay.bom {
+		s.Notes = append(s.Notes, "UTF-8 byte order mark skipped")
+	}
+	if err := s.columns(opt); err != nil {
+		return nil, err
+	}
+	if err := s.firstPass(opt); err != nil {
+		return nil, err
+	}
+	return s, nil
+}
+
+func (s *Signals) columns(opt SignalOptions) error {
+	lay := s.lay
+	defUnit, err := NormalizeUnit(opt.Unit)
+	if err != nil {
+		return perr(s.File, 0, 0, "give a UCUM unit such as uV, mV or N", "%v", err)
+	}
+	if mu := metaValue(s.Meta, "unit", "units"); mu != "" && defUnit == "" {
+		if defUnit, err = NormalizeUnit(mu); err != nil {
+			return perr(s.File, metaLineOf(s.Meta, "unit", "units"), 0, "give a UCUM unit such as uV, mV or N", "%v", err)
+		}
+	}
+	labels := make([]string, s.cols)
+	units := make([]string, s.cols)
+	given := make([]bool, s.cols)
+	for i := range labels {
+		labels[i] = fmt.Sprintf("col%d", i+1)
+		units[i] = defUnit
+	}
+	if lay.header != nil {
+		for i, h := range lay.header {
+			l, u, has := splitLabelUnit(h)
+			labels[i] = l
+			if has {
+				nu, err := NormalizeUnit(u)
+				if err != nil {
+					return perr(s.File, lay.headerLine, i+1, "write the unit in UCUM (uV, mV, V, N, N.m, %, s, ms) in brackets after the label", "%v", err)
+				}
+				units[i] = nu
+				given[i] = true
+			}
+			if l == "" {
+				labels[i] = fmt.Sprintf("col%d", i+1)
+			}
+		}
+	}
+	// The time column.
+	tc := strings.ToLower(strings.TrimSpace(opt.TimeColumn))
+	switch tc {
+	case "none":
+	case "first":
+		s.tcol = 0
+	case "", "auto":
+		if lay.header != nil {
+			if _, ok := timeLabels[strings.ToLower(labels[0])]; ok {
+				s.tcol = 0
+			}
+		}
+	default:
+		for i, l := range labels {
+			if strings.EqualFold(l, opt.TimeColumn) {
+				s.tcol = i
+			}
+		}
+		if s.tcol < 0 {
+			return perr(s.File, lay.headerLine, 0, "give a label of the header", "no column %q for --time-column", opt.TimeColumn)
+		}
+	}
+	if s.tcol >= 0 {
+		s.TimeLabel = labels[s.tcol]
+		unit := units[s.tcol]
+		why := "from the header"
+		if opt.TimeUnit != "" {
+			unit, why = opt.TimeUnit, "as given"
+		} else if !given[s.tcol] {
+			unit = timeLabels[strings.ToLower(labels[s.tcol])]
+			why = "from the label " + strconv.Quote(labels[s.tcol])
+			if unit == "" {
+				unit = "s"
+				why = "assumed: the time column has no unit"
+			}
+		}
+		switch unit {
+		case "s", "ms", "samples":
+		default:
+			return perr(s.File, lay.headerLine, s.tcol+1, "give the time in s or ms, or sample numbers (--time-unit)", "time unit %q not usable", unit)
+		}
+		s.TimeUnit = unit
+		s.Notes = append(s.Notes, fmt.Sprintf("time column %q in %s (%s)", s.TimeLabel, unit, why))
+	}
+	for i := range labels {
+		if i == s.tcol {
+			continue
+		}
+		s.Labels = append(s.Labels, labels[i])
+		s.Units = append(s.Units, units[i])
+	}
+	if len(s.Labels) == 0 {
+		return perr(s.File, lay.firstRowLine, 0, "the file needs at least one data column besides the time", "no data columns")
+	}
+	return nil
+}
+
+func (s *Signals) spec(mode blockMode, all32 bool) *blockSpec {
+	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32}
+}
+
+// timeTrack follows a time column row by row: order, gaps and a running
+// least-squares fit of time against grid index.
+type timeTrack struct {
+	file    string
+	col     int
+	nominal float64 // expected step in the time unit (0 = learn it)
+	allow   bool
+	n       int64
+	k       int64 // grid index of the next row
+	t0      float64
+	prev    float64
+	first   bool
+	// Welford sums for the fit of t against k.
+	mk, mt, ckt, ckk float64
+	gaps             []Gap
+}
+
+func (tt *timeTrack) add(t float64, line int) error {
+	if tt.n == 0 {
+		tt.t0, tt.prev = t, t
+		tt.push(0, 0)
+		tt.n, tt.k = 1, 1
+		return nil
+	}
+	d := t - tt.prev
+	if !(d > 0) {
+		return perr(tt.file, line, tt.col+1, "rows must be in time order with no repeats; sort the file or remove the repeated rows", "time goes backwards or repeats (%g after %g)", t, tt.prev)
+	}
+	if tt.nominal == 0 {
+		tt.nominal = d
+	}
+	steps := int64(1)
+	if d > 1.5*tt.nominal {
+		steps = int64(math.Round(d / tt.nominal))
+		if !tt.allow {
+			return perr(tt.file, line, tt.col+1, "give --allow-gaps to fill missing samples with NaN", "gap in the time column: %g to %g, about %d samples missing", tt.prev, t, steps-1)
+		}
+		tt.gaps = append(tt.gaps, Gap{Row: tt.k, Missing: steps - 1, Line: line})
+	} else if d < 0.5*tt.nominal {
+		return perr(tt.file, line, tt.col+1, "samples must be evenly spaced; check the time column", "uneven time step: %g after a step of %g", d, tt.nominal)
+	}
+	tt.k += steps - 1
+	tt.push(float64(tt.k), t-tt.t0)
+	tt.k++
+	tt.n++
+	tt.prev = t
+	return nil
+}
+
+func (tt *timeTrack) push(k, t float64) {
+	n := float64(tt.n + 1)
+	dk := k - tt.mk
+	tt.mk += dk / n
+	tt.mt += (t - tt.mt) / n
+	tt.ckt += dk * (t - tt.mt)
+	tt.ckk += dk * (k - tt.mk)
+}
+
+// slope is the fitted step per sample in the time unit.
+func (tt *timeTrack) slope() float64 {
+	if tt.ckk == 0 {
+		return 0
+	}
+	return tt.ckt / tt.ckk
+}
+
+func (s *Signals) firstPass(opt SignalOptions) error {
+	rate, rateWhy := opt.RateHz, "as given"
+	if rate < 0 || math.IsNaN(rate) || math.IsInf(rate, 0) {
+		return perr(s.File, 0, 0, "give a positive rate in Hz", "rate %g not usable", rate)
+	}
+	if rate == 0 {
+		if v, line := metaRate(s.Meta); line > 0 {
+			if v <= 0 {
+				return perr(s.File, line, 0, "write the rate as a positive number in Hz", "sampling rate %q not usable", metaValue(s.Meta, rateKeys...))
+			}
+			rate, rateWhy = v, fmt.Sprintf("from the line %q above the table (line %d)", metaValue(s.Meta, rateKeys...), line)
+		}
+	}
+	tt := &timeTrack{file: s.File, col: s.tcol, allow: opt.AllowGaps}
+	if s.TimeUnit == "samples" {
+		tt.nominal = 1
+	} else if rate > 0 && s.TimeUnit != "" {
+		tt.nominal = 1 / rate
+		if s.TimeUnit == "ms" {
+			tt.nominal = 1000 / rate
+		}
+	}
+	p := startPipeline(s.spec(modeScan, opt.DType == record.Float32), s.lay.bodyOffset, s.lay.bodyLine)
+	defer p.close()
+	var timeDec int
+	timeFrac := false
+	for {
+		b, err := p.next()
+		if err != nil {
+			return err
+		}
+		if b == nil {
+			break
+		}
+		s.Rows += b.rows
+		s.NaNCells += b.nan
+		if b.maxDigits > s.MaxDigits {
+			s.MaxDigits = b.maxDigits
+		}
+		if b.f32bad > 0 && s.lossy32 == 0 {
+			s.first32 = b.f32First
+		}
+		s.lossy32 += b.f32bad
+		s.maxErr32 = math.Max(s.maxErr32, b.f32MaxErr)
+		if b.f64bad > 0 && s.lossy64 == 0 {
+			s.first64 = b.f64First
+		}
+		s.lossy64 += b.f64bad
+		s.maxErr64 = math.Max(s.maxErr64, b.f64MaxErr)
+		timeDec = max(timeDec, b.timeDec)
+		timeFrac = timeFrac || b.timeFrac
+		for i, t := range b.times {
+			if err := tt.add(t, b.line+int(b.rowLines[i])); err != nil {
+				return err
+			}
+		}
+		p.release(b)
+	}
+	if s.Rows == 0 {
+		return perr(s.File, s.lay.bodyLine, 0, "the file needs at least one row of numbers under the header", "no data rows")
+	}
+	s.Gaps = tt.gaps
+	s.Samples = s.Rows
+	for _, g := range tt.gaps {
+		s.Samples += int(g.Missing)
+	}
+	if len(s.Gaps) > 0 {
+		s.Notes = append(s.Notes, fmt.Sprintf("%d gaps in the time column (%d samples) filled with NaN (--allow-gaps)", len(s.Gaps), s.Samples-s.Rows))
+	}
+	// Rate and start.
+	scale := 1.0
+	switch s.TimeUnit {
+	case "ms":
+		scale = 1e-3
+	}
+	res := math.Pow(10, -float64(timeDec))
+	s.TimeResolutionS = res * scale
+	switch {
+	case s.TimeUnit == "samples":
+		if timeFrac {
+			return perr(s.File, s.lay.firstRowLine, s.tcol+1, "a sample-number column holds whole numbers", "sample-number column has fractions")
+		}
+		if rate == 0 {
+			return perr(s.File, s.lay.headerLine, s.tcol+1, "give --rate in Hz (a sample-number column gives no rate)", "sampling rate not known")
+		}
+		s.StartS = 0
+		s.Notes = append(s.Notes, fmt.Sprintf("sample-number column starts at %g; that sample is taken as time 0 s", tt.t0))
+		s.TimeResolutionS = 1 / rate
+	case s.TimeUnit != "":
+		s.StartS = tt.t0 * scale
+		if s.Rows < 2 {
+			if rate == 0 {
+				return perr(s.File, s.lay.firstRowLine, s.tcol+1, "give --rate in Hz", "one row only: the time column gives no rate")
+			}
+			break
+		}
+		step := tt.slope() * scale
+		if rate == 0 {
+			rate, rateWhy = snapRate(1/step, float64(s.Samples-1), s.TimeResolutionS)
+		} else {
+			// A rate given must agree with the time column to within half a
+			// step over the whole file.
+			drift := math.Abs(step-1/rate) * float64(s.Samples-1)
+			if drift > 0.5/rate+s.TimeResolutionS {
+				return perr(s.File, s.lay.firstRowLine, s.tcol+1, "fix the rate given or the time column", "time column steps %.9g s (%.6g Hz) but the rate is %g Hz (%s)", step, 1/step, rate, rateWhy)
+			}
+		}
+	default:
+		if rate == 0 {
+			return perr(s.File, s.lay.headerLine, 0, "give --rate in Hz, a time column, or a \"sampling rate: ... Hz\" line above the table", "sampling rate not known")
+		}
+		s.StartS = 0
+		if v, line := metaStart(s.Meta); line > 0 {
+			s.StartS = v
+		} else {
+			s.Notes = append(s.Notes, "no time column: first sample taken as time 0 s")
+		}
+	}
+	s.RateHz, s.RateWhy = rate, rateWhy
+	s.Notes = append(s.Notes, fmt.Sprintf("sampling rate %g Hz %s", rate, rateWhy))
+	s.decideType(opt.DType)
+	return nil
+}
+
+// snapRate rounds a rate estimated from a time column to the fewest decimals
+// that stay within half the time column's resolution over the whole file.
+func snapRate(est, span, res float64) (float64, string) {
+	for p := 0; p <= 6; p++ {
+		m := math.Pow(10, float64(p))
+		r := math.Round(est*m) / m
+		if r > 0 && math.Abs(1/r-1/est)*span <= res/2+1e-12 {
+			return r, fmt.Sprintf("derived from the time column (mean step %.9g s, %.9g Hz; the nearest rate with %d decimals fits every row to the digits written)", 1/est, est, p)
+		}
+	}
+	return est, fmt.Sprintf("derived from the time column (mean step %.9g s)", 1/est)
+}
+
+func (s *Signals) decideType(forced record.SampleType) {
+	switch forced {
+	case record.Float32:
+		s.DType = record.Float32
+		if s.lossy32 > 0 {
+			s.LossyCells, s.MaxAbsError = s.lossy32, s.maxErr32
+			s.DTypeWhy = fmt.Sprintf("float32 as forced: %d cells lose digits (first at line %d, column %d: %q); the largest error is %.3g", s.lossy32, s.first32.Line, s.first32.Column, s.first32.Text, s.maxErr32)
+		} else {
+			s.DTypeWhy = "float32 as forced; every cell fits it at the digits written"
+		}
+	case record.Float64:
+		s.DType = record.Float64
+		s.DTypeWhy = "float64 as forced"
+	default:
+		if s.lossy32 == 0 {
+			s.DType = record.Float32
+			s.DTypeWhy = fmt.Sprintf("float32: every cell reads back from float32 at the digits written (at most %d significant digits)", s.MaxDigits)
+		} else {
+			s.DType = record.Float64
+			s.DTypeWhy = fmt.Sprintf("float64: float32 would not hold the digits written (first at line %d, column %d: %q)", s.first32.Line, s.first32.Column, s.first32.Text)
+		}
+	}
+	if s.DType == record.Float64 && s.lossy64 > 0 {
+		s.LossyCells, s.MaxAbsError = s.lossy64, s.maxErr64
+		s.DTypeWhy += fmt.Sprintf("; %d cells have more digits than float64 holds (first at line %d, column %d), largest error about %.3g", s.lossy64, s.first64.Line, s.first64.Column, s.maxErr64)
+	}
+}
+
+var rateKeys = []string{"sampling rate", "sampling_rate", "sampling rate hz", "sampling_rate_hz", "sample rate", "sample_rate", "rate", "fs", "sampling frequency", "sampling_frequency", "srate"}
+
+func normKey(k string) string {
+	l, _, _ := splitLabelUnit(k)
+	return strings.ToLower(strings.TrimSpace(l))
+}
+
+func metaValue(meta []MetaLine, keys ...string) string {
+	for _, m := range meta {
+		nk := normKey(m.Key)
+		for _, k := range keys {
+			if nk == k {
+				return m.Value
+			}
+		}
+	}
+	return ""
+}
+
+func metaLineOf(meta []MetaLine, keys ...string) int {
+	for _, m := range meta {
+		nk := normKey(m.Key)
+		for _, k := range keys {
+			if nk == k {
+				return m.Line
+			}
+		}
+	}
+	return 0
+}
+
+// metaRate reads a "sampling rate: 2048 Hz" line; line 0 when there is none.
+func metaRate(meta []MetaLine) (float64, int) {
+	line := metaLineOf(meta, rateKeys...)
+	if line == 0 {
+		return 0, 0
+	}
+	v := strings.TrimSpace(metaValue(meta, rateKeys...))
+	v = strings.TrimSpace(strings.TrimSuffix(strings.TrimSuffix(v, "Hz"), "hz"))
+	f, err := strconv.ParseFloat(v, 64)
+	if err != nil {
+		return -1, line
+	}
+	return f, line
+}
+
+var startKeys = []string{"start", "start_s", "start time", "start_time", "start time s"}
+
+func metaStart(meta []MetaLine) (float64, int) {
+	line := metaLineOf(meta, startKeys...)
+	if line == 0 {
+		return 0, 0
+	}
+	v := strings.TrimSpace(strings.TrimSuffix(metaValue(meta, startKeys...), "s"))
+	f, err := strconv.ParseFloat(v, 64)
+	if err != nil {
+		return 0, 0
+	}
+	return f, line
+}
+
+// MetaExtra turns the "key: value" lines into metadata fields: keys in
+// snake_case, numbers as int64 or float64 when the value is one, else text.
+// The keys the reader used itself (rate, start, unit) are left out.
+func MetaExtra(meta []MetaLine) record.Extra {
+	if len(meta) == 0 {
+		return nil
+	}
+	used := map[string]bool{"unit": true, "units": true}
+	for _, k := range rateKeys {
+		used[k] = true
+	}
+	for _, k := range startKeys {
+		used[k] = true
+	}
+	ex := record.Extra{}
+	for _, m := range meta {
+		if used[normKey(m.Key)] {
+			continue
+		}
+		ex[snakeKey(m.Key)] = metaScalar(m.Value)
+	}
+	if len(ex) == 0 {
+		return nil
+	}
+	return ex
+}
+
+func metaScalar(v string) any {
+	if i, err := strconv.ParseInt(v, 10, 64); err == nil {
+		return i
+	}
+	if f, err := strconv.ParseFloat(v, 64); err == nil && !math.IsInf(f, 0) && !math.IsNaN(f) {
+		return f
+	}
+	switch strings.ToLower(v) {
+	case "true", "yes":
+		return true
+	case "false", "no":
+		return false
+	}
+	return v
+}
+
+// snakeKey makes an attribute name: lower case, runs of other characters
+// turned into one '_' ("Amplifier Gain [V/V]" -> "amplifier_gain_v_v").
+func snakeKey(k string) string {
+	var b strings.Builder
+	us := false
+	for _, r := range strings.ToLower(strings.TrimSpace(k)) {
+		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
+			b.WriteRune(r)
+			us = false
+		} else if !us && b.Len() > 0 {
+			b.WriteByte('_')
+			us = true
+		}
+	}
+	return strings.TrimSuffix(b.String(), "_")
+}
