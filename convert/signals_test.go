@@ -157,10 +157,10 @@ func TestGaps(t *testing.T) {
 
 func TestSignalErrors(t *testing.T) {
 	cases := []struct {
-		name, text     string
-		opt            SignalOptions
-		line, col      int
-		msg            string
+		name, text string
+		opt        SignalOptions
+		line, col  int
+		msg        string
 	}{
 		{"ragged", "time [s],a,b\n0,1,2\n0.001,1\n", SignalOptions{}, 3, 2, "2 fields, expected 3"},
 		{"long", "time [s],a,b\n0,1,2\n0.001,1,2,3\n", SignalOptions{}, 3, 4, "more than 3"},
