@@ -74,7 +74,8 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 		small := hdr
 		small.Font = font.From(gplot.DefaultFont, 7.5)
 		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(5)},
-			fmt.Sprintf("%s — MUAP templates, ±%.0f ms, %d units; shade = peak-to-peak amplitude map", title, -1000*float64(m.FirstLag)/arr.SamplingRateHz, n))
+			fmt.Sprintf("%s — MUAP templates, %.0f to %.0f ms, %d units; shade = peak-to-peak amplitude map", title,
+				1000*float64(m.FirstLag)/arr.SamplingRateHz, 1000*float64(m.FirstLag+m.Lags-1)/arr.SamplingRateHz, n))
 		for u := 0; u < n; u++ {
 			px := dc.Min.X + panelW*vg.Length(u%pc)
 			py := dc.Max.Y - headH - panelH*vg.Length(u/pc) // top of panel
@@ -85,6 +86,9 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 				}
 			}
 			label := fmt.Sprintf("unit %d: n=%d, max %.3g %s", unitID(t, u), t.Averaged[u], maxP, m.Unit)
+			if t.Averaged[u] < 0 {
+				label = fmt.Sprintf("unit %d: stored, max %.3g %s", unitID(t, u), maxP, m.Unit)
+			}
 			dc.FillText(small, vg.Point{X: px + vg.Points(4), Y: py - vg.Points(2)}, label)
 			if !(maxP > 0) {
 				continue
