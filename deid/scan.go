@@ -1,0 +1,262 @@
+package deid
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"sort"
+	"strings"
+	"unicode/utf16"
+)
+
+// Leak is one original identifying value found in a file's bytes.
+type Leak struct {
+	// Needle is the value searched for.
+	Needle string `json:"needle"`
+	// Encoding is how it was found: "utf-8" (ASCII letters matched without
+	// regard to case), "utf-16le" or "utf-16be".
+	Encoding string `json:"encoding"`
+	// Offset is the byte offset of the first match in the file.
+	Offset int64 `json:"offset"`
+	// Count is how many matches there were in this encoding.
+	Count int `json:"count"`
+}
+
+// String describes the leak without repeating the value in full.
+func (l Leak) String() string {
+	return fmt.Sprintf("%s found as %s at byte %d (%d time(s))", maskValue(l.Needle), l.Encoding, l.Offset, l.Count)
+}
+
+// maskValue shows the first and last character of a value and its length,
+// so a report about a leak is not itself a leak.
+func maskValue(s string) string {
+	r := []rune(s)
+	if len(r) <= 2 {
+		return fmt.Sprintf("%q (%d characters)", strings.Repeat("*", len(r)), len(r))
+	}
+	return fmt.Sprintf("%q (%d characters)", string(r[0])+strings.Repeat("*", len(r)-2)+string(r[len(r)-1]), len(r))
+}
+
+// MinNeedleBytes is the shortest encoded needle ScanBytes searches for. A
+// shorter byte string turns up by chance in compressed sample data (a given
+// 3-byte string is expected about 6 times in 100 MB of random bytes, a
+// 4-byte string 0.02 times); shorter needles are reported by Unscannable.
+const MinNeedleBytes = 4
+
+type needleForm struct {
+	needle   string
+	encoding string
+	pat      []byte // ASCII letters lower-cased; the file's bytes are too
+}
+
+func needleForms(needles []string) []needleForm {
+	var forms []needleForm
+	seen := map[string]bool{}
+	for _, n := range needles {
+		if n == "" || seen[n] {
+			continue
+		}
+		seen[n] = true
+		if u := lowerASCII([]byte(n)); len(u) >= MinNeedleBytes {
+			forms = append(forms, needleForm{n, "utf-8", u})
+		}
+		le, be := utf16Bytes(n)
+		if len(le) >= MinNeedleBytes {
+			forms = append(forms, needleForm{n, "utf-16le", lowerASCII(le)}, needleForm{n, "utf-16be", lowerASCII(be)})
+		}
+	}
+	return forms
+}
+
+func lowerASCII(b []byte) []byte {
+	for i, c := range b {
+		if c >= 'A' && c <= 'Z' {
+			b[i] = c + 32
+		}
+	}
+	return b
+}
+
+func utf16Bytes(s string) (le, be []byte) {
+	for _, u := range utf16.Encode([]rune(s)) {
+		le = append(le, byte(u), byte(u>>8))
+		be = append(be, byte(u>>8), byte(u))
+	}
+	return le, be
+}
+
+// Unscannable returns the needles too short to search for in any encoding
+// (fewer than MinNeedleBytes bytes even as UTF-16).
+func Unscannable(needles []string) []string {
+	var out []string
+	for _, n := range needles {
+		le, _ := utf16Bytes(n)
+		if n != "" && len(le) < MinNeedleBytes {
+			out = append(out, n)
+		}
+	}
+	return out
+}
+
+// ScanBytes reads the raw bytes of the file at path and reports every needle
+// found in it as UTF-8 (ASCII letters without regard to case), UTF-16LE or
+// UTF-16BE. A match counts only when the bytes around it are not ASCII
+// letters or digits (in the same encoding), so "Ana" is not found inside
+// "analysis". The file is read in blocks; memory stays flat. Needles shorter
+// than MinNeedleBytes in an encoding are not searched in it (see
+// Unscannable).
+func ScanBytes(path string, needles []string) ([]Leak, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	return scanReader(f, needles)
+}
+
+const scanBlock = 1 << 20
+
+func scanReader(r io.Reader, needles []string) ([]Leak, error) {
+	forms := needleForms(needles)
+	if len(forms) == 0 {
+		return nil, nil
+	}
+	maxLen := 0
+	for _, f := range forms {
+		if len(f.pat) > maxLen {
+			maxLen = len(f.pat)
+		}
+	}
+	keep := maxLen + 4 // overlap: a match and its boundary bytes may straddle blocks
+	found := make([]Leak, len(forms))
+	for i := range found {
+		found[i].Offset = -1
+	}
+	buf := make([]byte, 0, scanBlock+keep)
+	low := make([]byte, 0, scanBlock+keep)
+	var base int64 // file offset of buf[0]
+	// reported marks matches already counted (they may be seen twice in the overlap).
+	lastEnd := make([]int64, len(forms))
+	for {
+		n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
+		buf = buf[:len(buf)+n]
+		eof := err == io.EOF || errors.Is(err, io.ErrUnexpectedEOF)
+		if err != nil && !eof {
+			return nil, err
+		}
+		low = append(low[:0], buf...)
+		lowerASCII(low)
+		for i, f := range forms {
+			hay := low
+			step := 1
+			if f.encoding != "utf-8" {
+				step = 2
+			}
+			for at := 0; at < len(hay); {
+				j := bytes.Index(hay[at:], f.pat)
+				if j < 0 {
+					break
+				}
+				pos := at + j
+				end := pos + len(f.pat)
+				abs := base + int64(pos)
+				// the first two bytes of a kept tail were judged with their left neighbour in the last block
+				if base > 0 && pos < 2 {
+					at = pos + 1
+					continue
+				}
+				// a match whose right boundary byte is not read yet waits for the next block
+				if !eof && end+step > len(hay) {
+					break
+				}
+				if abs >= lastEnd[i] && bounded(hay, pos, end, f.encoding) {
+					if found[i].Offset < 0 {
+						found[i] = Leak{Needle: f.needle, Encoding: f.encoding, Offset: abs}
+					}
+					found[i].Count++
+					lastEnd[i] = base + int64(end)
+				}
+				at = pos + 1
+			}
+		}
+		if eof {
+			break
+		}
+		// keep the tail for matches straddling the block boundary
+		if len(buf) > keep {
+			tail := len(buf) - keep
+			base += int64(tail)
+			copy(buf, buf[tail:])
+			buf = buf[:keep]
+		}
+	}
+	var out []Leak
+	for _, l := range found {
+		if l.Count > 0 {
+			out = append(out, l)
+		}
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].Offset < out[j].Offset })
+	return out, nil
+}
+
+// bounded reports whether the match hay[pos:end] is not part of a longer
+// word: the unit before and after is not an ASCII letter or digit.
+func bounded(hay []byte, pos, end int, enc string) bool {
+	alnum := func(c byte) bool { return c >= '0' && c <= '9' || c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' }
+	switch enc {
+	case "utf-16le":
+		if pos >= 2 && hay[pos-1] == 0 && alnum(hay[pos-2]) {
+			return false
+		}
+		if end+1 < len(hay) && hay[end+1] == 0 && alnum(hay[end]) {
+			return false
+		}
+	case "utf-16be":
+		if pos >= 2 && hay[pos-2] == 0 && alnum(hay[pos-1]) {
+			return false
+		}
+		if end+1 < len(hay) && hay[end] == 0 && alnum(hay[end+1]) {
+			return false
+		}
+	default:
+		if pos >= 1 && alnum(hay[pos-1]) {
+			return false
+		}
+		if end < len(hay) && alnum(hay[end]) {
+			return false
+		}
+	}
+	return true
+}
+
+// scanText searches decoded text (a metadata view as JSON, a string column)
+// for needles as whole words, ASCII letters without regard to case. It finds
+// what compression hides from ScanBytes.
+func scanText(text string, needles []string) []string {
+	low := string(lowerASCII([]byte(text)))
+	var hits []string
+	seen := map[string]bool{}
+	for _, n := range needles {
+		if n == "" || seen[n] {
+			continue
+		}
+		seen[n] = true
+		pat := string(lowerASCII([]byte(n)))
+		for at := 0; at < len(low); {
+			j := strings.Index(low[at:], pat)
+			if j < 0 {
+				break
+			}
+			pos := at + j
+			if bounded([]byte(low), pos, pos+len(pat), "utf-8") {
+				hits = append(hits, n)
+				break
+			}
+			at = pos + 1
+		}
+	}
+	return hits
+}
