@@ -1,0 +1,624 @@
+package archive
+
+import (
+	"archive/tar"
+	"bytes"
+	"errors"
+	"io"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	"muarc/archive/bagit"
+	"muarc/internal/batch"
+	"muarc/recfile"
+)
+
+var testDate = time.Date(2026, 5, 4, 0, 0, 0, 0, time.UTC)
+
+func packTo(t *testing.T, src string, opt PackOptions) (string, *PackResult) {
+	t.Helper()
+	out := filepath.Join(t.TempDir(), "deposit")
+	if opt.Licence == "" {
+		opt.Licence = "CC-BY-4.0"
+	}
+	opt.Date = testDate
+	res, err := Pack(src, out, opt)
+	if err != nil {
+		t.Fatalf("pack: %v (%+v)", err, res)
+	}
+	return out, res
+}
+
+// copyTree copies a folder (test helper for damaging copies).
+func copyTree(t *testing.T, src string) string {
+	t.Helper()
+	dst := filepath.Join(t.TempDir(), filepath.Base(src))
+	err := filepath.Walk(src, func(p string, info os.FileInfo, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(src, p)
+		target := filepath.Join(dst, rel)
+		if info.IsDir() {
+			return os.MkdirAll(target, 0o755)
+		}
+		b, err := os.ReadFile(p)
+		if err != nil {
+			return err
+		}
+		return os.WriteFile(target, b, 0o644)
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return dst
+}
+
+func TestIndexRowsAndFilters(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	rows, err := Index(src, AnyLevel())
+	if err != nil {
+		t.Fatal(err)
+	}
+	// One row per recording, trial and array, checked against the files
+	// read whole by recfile.ReadAll.
+	want := 0
+	for _, rel := range []string{"s1_a.h5", "visit2/s1_b.h5"} {
+		rec, err := recfile.ReadAll(filepath.Join(src, filepath.FromSlash(rel)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, tr := range rec.Trials {
+			for _, a := range tr.Arrays {
+				want++
+				var row *IndexRow
+				for i := range rows {
+					if rows[i].File == rel && rows[i].Trial == tr.Name && rows[i].Array == a.Name {
+						row = &rows[i]
+					}
+				}
+				if row == nil {
+					t.Fatalf("no row for %s %s %s", rel, tr.Name, a.Name)
+				}
+				n, ch := a.Samples.Shape()
+				if row.Channels != ch || math.Abs(row.DurationS-float64(n)/a.SamplingRateHz) > 1e-12 ||
+					row.Muscle != a.Muscle || row.LevelPctMVC != tr.TargetPctMVC || row.Subject != rec.Subject.ID {
+					t.Errorf("row %+v disagrees with the file", *row)
+				}
+				d := a.Decompositions[chosenDecomposition(a.Decompositions)]
+				var dis int64
+				low := 0
+				for _, u := range d.Units {
+					dis += int64(len(u.Discharges))
+					// Quality gates: silhouette < 0.90 or PNR < 30 dB
+					// (common practice).
+					if u.Silhouette < 0.90 || u.PNRdB < 30 {
+						low++
+					}
+				}
+				if row.Units != len(d.Units) || row.Discharges != dis || row.LowConfidenceUnits != low {
+					t.Errorf("%s %s %s: units %d/%d discharges %d/%d low %d/%d", rel, tr.Name, a.Name,
+						row.Units, len(d.Units), row.Discharges, dis, row.LowConfidenceUnits, low)
+				}
+			}
+		}
+	}
+	if len(rows) != want {
+		t.Fatalf("%d rows, want %d", len(rows), want)
+	}
+	muscle := rows[0].Muscle
+	opt := AnyLevel()
+	opt.Muscle = strings.ToUpper(muscle)
+	got, _ := Index(src, opt)
+	for _, r := range got {
+		if r.Muscle != muscle {
+			t.Fatalf("muscle filter kept %q", r.Muscle)
+		}
+	}
+	if len(got) == 0 || len(got) == len(rows) {
+		t.Fatalf("muscle filter kept %d of %d", len(got), len(rows))
+	}
+	opt = AnyLevel()
+	opt.Level = rows[0].LevelPctMVC
+	got, _ = Index(src, opt)
+	if len(got) == 0 || len(got) == len(rows) {
+		t.Fatalf("level filter kept %d of %d", len(got), len(rows))
+	}
+	opt = AnyLevel()
+	opt.Subject = "nobody"
+	if got, _ = Index(src, opt); len(got) != 0 {
+		t.Fatalf("subject filter kept %d", len(got))
+	}
+	var b bytes.Buffer
+	WriteIndexTSV(&b, rows)
+	lines := strings.Split(strings.TrimSuffix(b.String(), "\n"), "\n")
+	if len(lines) != len(rows)+1 || strings.Count(lines[1], "\t") != len(IndexColumns)-1 {
+		t.Fatalf("TSV shape: %d lines, %q", len(lines), lines[1])
+	}
+}
+
+func TestIndexReportsUnreadableFile(t *testing.T) {
+	src := copyTree(t, filepath.Join(fixture(t), "clean"))
+	os.WriteFile(filepath.Join(src, "broken.h5"), []byte("not HDF5"), 0o644)
+	rows, err := Index(src, AnyLevel())
+	if err == nil || !strings.Contains(err.Error(), "broken.h5") {
+		t.Fatalf("error %v does not name the file", err)
+	}
+	if len(rows) == 0 {
+		t.Fatal("good files dropped with the bad one")
+	}
+}
+
+var manifestLine = regexp.MustCompile(`^[0-9a-f]{64}  data/[^\r\n]+$`)
+
+func TestPackMakesRFC8493Bag(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	out, res := packTo(t, src, PackOptions{Workers: 2})
+	if res.Hashed != 2 || res.Reused != 0 || res.Identified {
+		t.Fatalf("result %+v", res)
+	}
+	// RFC 8493 section 2.1.1: bagit.txt exact text.
+	decl, _ := os.ReadFile(filepath.Join(out, "bagit.txt"))
+	if string(decl) != "BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n" {
+		t.Fatalf("bagit.txt %q", decl)
+	}
+	// RFC 8493 section 2.1.3: one line per payload file, "<hex>  data/<path>".
+	man, _ := os.ReadFile(filepath.Join(out, "manifest-sha256.txt"))
+	listed := map[string]bool{}
+	for _, l := range strings.Split(strings.TrimSuffix(string(man), "\n"), "\n") {
+		if !manifestLine.MatchString(l) {
+			t.Errorf("manifest line %q", l)
+		}
+		listed[l[66:]] = true
+	}
+	var octets, files int64
+	filepath.Walk(filepath.Join(out, "data"), func(p string, info os.FileInfo, err error) error {
+		if err == nil && !info.IsDir() {
+			rel, _ := filepath.Rel(out, p)
+			if !listed[filepath.ToSlash(rel)] {
+				t.Errorf("%s not in the manifest", rel)
+			}
+			octets += info.Size()
+			files++
+		}
+		return nil
+	})
+	for _, want := range []string{"data/recordings/s1_a.h5", "data/recordings/visit2/s1_b.h5", "data/README.md",
+		"data/layout.md", "data/data-dictionary.md", "data/data-dictionary.tsv", "data/tables/subjects.tsv", "data/tables/recordings.tsv"} {
+		if !listed[want] {
+			t.Errorf("%s missing from the deposit", want)
+		}
+	}
+	if int64(len(listed)) != files {
+		t.Errorf("manifest lists %d, payload has %d", len(listed), files)
+	}
+	// RFC 8493 section 2.2.2: Payload-Oxum "octets.streamcount"; reserved
+	// labels Bagging-Date (YYYY-MM-DD), External-Description, Contact-*.
+	info, _ := os.ReadFile(filepath.Join(out, "bag-info.txt"))
+	fields, err := bagit.ParseInfo(bytes.NewReader(info), "bag-info.txt")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v, _ := bagit.Lookup(fields, "Payload-Oxum"); v != bagit.PayloadOxum(octets, files) {
+		t.Errorf("Payload-Oxum %q, payload is %d.%d", v, octets, files)
+	}
+	if v, _ := bagit.Lookup(fields, "Bagging-Date"); v != "2026-05-04" {
+		t.Errorf("Bagging-Date %q", v)
+	}
+	if _, ok := bagit.Lookup(fields, identifyingLabel); ok {
+		t.Error("clean bag marked as identified")
+	}
+	// The tag manifest lists the three tag files.
+	tm, _ := os.ReadFile(filepath.Join(out, "tagmanifest-sha256.txt"))
+	for _, n := range []string{"bagit.txt", "bag-info.txt", "manifest-sha256.txt"} {
+		if !strings.Contains(string(tm), "  "+n+"\n") {
+			t.Errorf("tag manifest lacks %s", n)
+		}
+	}
+	// No staging folder or resume cache is left behind.
+	if _, err := os.Stat(StagingPath(out)); !os.IsNotExist(err) {
+		t.Error("staging folder left")
+	}
+	if _, err := os.Stat(filepath.Join(out, cacheFile)); !os.IsNotExist(err) {
+		t.Error("resume cache left in the deposit")
+	}
+	readme, _ := os.ReadFile(filepath.Join(out, "data/README.md"))
+	for _, want := range []string{"CC-BY-4.0", "## Citation", "does not certify"} {
+		if !bytes.Contains(readme, []byte(want)) {
+			t.Errorf("README lacks %q", want)
+		}
+	}
+	rep, err := VerifyDeposit(out, VerifyOptions{})
+	if err != nil || !rep.OK() {
+		t.Fatalf("verify of a fresh deposit: %v %+v", err, rep)
+	}
+	if rep.Recordings != 2 || rep.Chunks == 0 {
+		t.Fatalf("verify checked %d recordings, %d chunks", rep.Recordings, rep.Chunks)
+	}
+
+	// coreutils sha256sum -c, run in the bag's top folder, agrees with both
+	// manifests (general-purpose reference tool).
+	requireTool(t, "sha256sum")
+	for _, m := range []string{"manifest-sha256.txt", "tagmanifest-sha256.txt"} {
+		cmd := exec.Command("sha256sum", "--strict", "--quiet", "-c", m)
+		cmd.Dir = out
+		if b, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("sha256sum -c %s: %v\n%s", m, err, b)
+		}
+	}
+}
+
+func requireTool(t *testing.T, name string) {
+	t.Helper()
+	if _, err := exec.LookPath(name); err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatalf("%s missing under CI", name)
+		}
+		t.Skipf("%s not found", name)
+	}
+}
+
+func TestVerifyFindsDamageByFile(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	good, _ := packTo(t, src, PackOptions{})
+	rec := "data/recordings/s1_a.h5"
+	cases := []struct {
+		name, kind, file string
+		damage           func(dir string)
+	}{
+		{"byte flipped", bagit.KindMismatch, rec, func(d string) {
+			p := filepath.Join(d, rec)
+			b, _ := os.ReadFile(p)
+			b[len(b)*3/4] ^= 0x20
+			os.WriteFile(p, b, 0o644)
+		}},
+		{"file removed", bagit.KindMissing, "data/tables/subjects.tsv", func(d string) { os.Remove(filepath.Join(d, "data/tables/subjects.tsv")) }},
+		{"file added", bagit.KindUnlisted, "data/recordings/extra.h5", func(d string) {
+			b, _ := os.ReadFile(filepath.Join(d, rec))
+			os.WriteFile(filepath.Join(d, "data/recordings/extra.h5"), b, 0o644)
+		}},
+		{"manifest line edited", bagit.KindMismatch, "data/README.md", func(d string) {
+			p := filepath.Join(d, "manifest-sha256.txt")
+			b, _ := os.ReadFile(p)
+			lines := strings.Split(string(b), "\n")
+			for i, l := range lines {
+				if strings.HasSuffix(l, "  data/README.md") {
+					lines[i] = strings.Repeat("0", 64) + l[64:]
+				}
+			}
+			os.WriteFile(p, []byte(strings.Join(lines, "\n")), 0o644)
+		}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			d := copyTree(t, good)
+			c.damage(d)
+			rep, err := VerifyDeposit(d, VerifyOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			found := false
+			for _, f := range rep.Findings {
+				if f.Kind == c.kind && f.File == c.file {
+					found = true
+				}
+			}
+			if !found || rep.OK() {
+				t.Fatalf("want %s on %s; findings %v", c.kind, c.file, rep.Findings)
+			}
+			switch c.name {
+			case "byte flipped":
+				// Fletcher-32 locates the flip inside the recording.
+				var chunk *Finding
+				for i, f := range rep.Findings {
+					if f.Kind == KindChunk && f.File == rec {
+						chunk = &rep.Findings[i]
+					}
+				}
+				if chunk == nil || chunk.Dataset == "" || chunk.Chunk == nil {
+					t.Fatalf("no chunk finding: %v", rep.Findings)
+				}
+				t.Logf("located: %s", chunk)
+			case "manifest line edited":
+				// The tag manifest sees the edited manifest too.
+				hit := false
+				for _, f := range rep.Findings {
+					hit = hit || f.Kind == bagit.KindMismatch && f.File == "manifest-sha256.txt"
+				}
+				if !hit {
+					t.Fatalf("tag manifest did not catch the edit: %v", rep.Findings)
+				}
+			case "file added":
+				hit := false
+				for _, f := range rep.Findings {
+					hit = hit || f.Kind == bagit.KindOxum
+				}
+				if !hit {
+					t.Fatalf("Payload-Oxum did not catch the added file: %v", rep.Findings)
+				}
+			}
+		})
+	}
+}
+
+// The deposit's recordings read back with h5py (Debian python3-h5py), a
+// general-purpose HDF5 reader: layout attribute, sample shapes, discharges.
+func TestH5pyReadsDepositRecordings(t *testing.T) {
+	py := "/usr/bin/python3"
+	if err := exec.Command(py, "-c", "import h5py").Run(); err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatalf("h5py (python3-h5py) missing under CI: %v", err)
+		}
+		t.Skip("h5py not available")
+	}
+	src := filepath.Join(fixture(t), "clean")
+	out, _ := packTo(t, src, PackOptions{})
+	script := `
+import sys, h5py
+for name in sys.argv[1:]:
+    with h5py.File(name, "r") as f:
+        assert f.attrs["layout"] in (b"muarc-recording", "muarc-recording"), f.attrs["layout"]
+        arrays = units = 0
+        for tr in f["trials"].values():
+            for a in tr["arrays"].values():
+                s = a["samples"]
+                s[:]  # reads every chunk (Fletcher-32 checked by the HDF5 library)
+                arrays += 1
+                for d in a["decompositions"].values():
+                    off = d["discharge_offsets"][:]
+                    assert off[-1] == d["discharges"].shape[0]
+                    units += len(off) - 1
+        print(name.split("/recordings/")[1], arrays, units)
+`
+	var files []string
+	filepath.Walk(filepath.Join(out, "data", "recordings"), func(p string, info os.FileInfo, err error) error {
+		if err == nil && strings.HasSuffix(p, ".h5") {
+			files = append(files, p)
+		}
+		return nil
+	})
+	b, err := exec.Command(py, append([]string{"-c", script}, files...)...).CombinedOutput()
+	if err != nil {
+		t.Fatalf("h5py: %v\n%s", err, b)
+	}
+	rows, _ := Index(filepath.Join(out, "data", "recordings"), AnyLevel())
+	arrays := map[string]int{}
+	units := map[string]int{}
+	for _, r := range rows {
+		arrays[r.File]++
+	}
+	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n") {
+		var name string
+		var a, u int
+		if _, err := fmtSscan(l, &name, &a, &u); err != nil {
+			t.Fatalf("h5py output %q", l)
+		}
+		if arrays[name] != a {
+			t.Errorf("%s: h5py sees %d arrays, the index %d", name, a, arrays[name])
+		}
+		units[name] = u
+	}
+	if len(units) != 2 {
+		t.Fatalf("h5py read %d files: %s", len(units), b)
+	}
+}
+
+func TestPackRefusesIdentifiedUnlessAllowed(t *testing.T) {
+	src := filepath.Join(fixture(t), "identified")
+	out := filepath.Join(t.TempDir(), "deposit")
+	res, err := Pack(src, out, PackOptions{Licence: "CC0-1.0"})
+	if !errors.Is(err, ErrRefused) {
+		t.Fatalf("identified recording packed: %v", err)
+	}
+	ref := res.Refused()
+	if len(ref) != 1 || ref[0].Path != "subject1.h5" || !strings.Contains(ref[0].Message, "subject.name") {
+		t.Fatalf("refusal %+v", ref)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Fatal("a deposit was written despite the refusal")
+	}
+	out2, res2 := packTo(t, src, PackOptions{AllowIdentified: true})
+	if !res2.Identified {
+		t.Fatal("not marked")
+	}
+	info, _ := os.ReadFile(filepath.Join(out2, "bag-info.txt"))
+	if !regexp.MustCompile(`(?m)^Identifying-Data: PRESENT.*subject\.name`).Match(info) {
+		t.Fatalf("bag-info lacks the mark:\n%s", info)
+	}
+}
+
+func TestPackResumesAfterInterruption(t *testing.T) {
+	src := copyTree(t, filepath.Join(fixture(t), "clean"))
+	// A bad recording makes the first run stop before publishing, as an
+	// interruption would; the good ones are in the staging folder.
+	ident, _ := os.ReadFile(filepath.Join(fixture(t), "identified", "subject1.h5"))
+	os.WriteFile(filepath.Join(src, "late.h5"), ident, 0o644)
+	out := filepath.Join(t.TempDir(), "deposit")
+	opt := PackOptions{Licence: "CC-BY-4.0", Date: testDate}
+	res, err := Pack(src, out, opt)
+	if !errors.Is(err, ErrRefused) || res.Hashed != 2 {
+		t.Fatalf("first run: %v %+v", err, res)
+	}
+	if _, err := os.Stat(filepath.Join(StagingPath(out), cacheFile)); err != nil {
+		t.Fatalf("no resume cache: %v", err)
+	}
+	// Fix: drop the bad file, touch nothing else; only nothing is hashed
+	// again. Then change one file's time: only that one is hashed.
+	os.Remove(filepath.Join(src, "late.h5"))
+	res, err = Pack(src, out, opt)
+	if err != nil || res.Hashed != 0 || res.Reused != 2 {
+		t.Fatalf("second run: %v hashed %d reused %d", err, res.Hashed, res.Reused)
+	}
+	rep, _ := VerifyDeposit(out, VerifyOptions{})
+	if !rep.OK() {
+		t.Fatalf("resumed deposit: %v", rep.Findings)
+	}
+	// Interrupted again (staging folder left from a rerun with an extra file).
+	os.WriteFile(filepath.Join(src, "late.h5"), ident, 0o644)
+	out3 := filepath.Join(t.TempDir(), "deposit")
+	Pack(src, out3, opt)
+	os.Remove(filepath.Join(src, "late.h5"))
+	later := time.Now().Add(time.Hour)
+	os.Chtimes(filepath.Join(src, "s1_a.h5"), later, later)
+	res, err = Pack(src, out3, opt)
+	if err != nil || res.Hashed != 1 || res.Reused != 1 {
+		t.Fatalf("changed-file run: %v hashed %d reused %d", err, res.Hashed, res.Reused)
+	}
+}
+
+func TestPackTarStreamsBag(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	out := filepath.Join(t.TempDir(), "study.tar")
+	res, err := Pack(src, out, PackOptions{Tar: true, Licence: "CC-BY-4.0", Date: testDate})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Hashed != 2 {
+		t.Fatalf("%+v", res)
+	}
+	f, _ := os.Open(out)
+	defer f.Close()
+	tr := tar.NewReader(f)
+	names := map[string]bool{}
+	for {
+		h, err := tr.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		if h.Format != tar.FormatUSTAR && h.Format != tar.FormatPAX && h.Format != tar.FormatUnknown {
+			t.Errorf("%s: tar format %v, want POSIX ustar or pax", h.Name, h.Format)
+		}
+		names[h.Name] = true
+	}
+	if !names["study/bagit.txt"] || !names["study/data/recordings/visit2/s1_b.h5"] {
+		t.Fatalf("tar entries %v", names)
+	}
+	// GNU tar (a general-purpose reference tool) extracts it; the result
+	// is a valid bag.
+	requireTool(t, "tar")
+	dir := t.TempDir()
+	if b, err := exec.Command("tar", "-xf", out, "-C", dir).CombinedOutput(); err != nil {
+		t.Fatalf("tar -xf: %v\n%s", err, b)
+	}
+	rep, err := VerifyDeposit(filepath.Join(dir, "study"), VerifyOptions{})
+	if err != nil || !rep.OK() {
+		t.Fatalf("extracted tar: %v %v", err, rep.Findings)
+	}
+}
+
+func TestShardsMergeAndFeedPack(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	tmp := t.TempDir()
+	var reports []*ShardReport
+	var names []string
+	for i := 1; i <= 2; i++ {
+		p := filepath.Join(tmp, "r"+string(rune('0'+i))+".json")
+		res, err := Pack(src, p, PackOptions{Shard: batch.Shard{I: i, N: 2}})
+		if err != nil || res.Hashed != 1 {
+			t.Fatalf("shard %d: %v %+v", i, err, res)
+		}
+		r, err := ReadShardReport(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		reports = append(reports, r)
+		names = append(names, p)
+	}
+	m := MergeReports(reports, names)
+	if len(m.Missing) != 0 || len(m.Problems) != 0 || m.Report.Summary.OK != 2 {
+		t.Fatalf("merge: %+v", m)
+	}
+	// The merged manifest checks with sha256sum -c in the study folder.
+	requireTool(t, "sha256sum")
+	os.WriteFile(filepath.Join(tmp, "m.txt"), m.Report.Manifest(), 0o644)
+	cmd := exec.Command("sha256sum", "--strict", "-c", filepath.Join(tmp, "m.txt"))
+	cmd.Dir = src
+	if b, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("sha256sum -c: %v\n%s", err, b)
+	}
+	// One shard alone is incomplete; a shard twice is a problem.
+	if m := MergeReports(reports[:1], names[:1]); len(m.Missing) != 1 || m.Missing[0] != "2/2" {
+		t.Fatalf("missing shard not found: %+v", m.Missing)
+	}
+	if m := MergeReports([]*ShardReport{reports[0], reports[0]}, []string{"a", "b"}); len(m.Problems) == 0 {
+		t.Fatal("shard given twice not found")
+	}
+	// The final pack takes the hashes and checks: nothing hashed again.
+	out, res := packTo(t, src, PackOptions{Known: []*ShardReport{m.Report}})
+	if res.Hashed != 0 || res.Reused != 2 {
+		t.Fatalf("pack with known hashes: %+v", res)
+	}
+	if rep, _ := VerifyDeposit(out, VerifyOptions{}); !rep.OK() {
+		t.Fatalf("%v", rep.Findings)
+	}
+}
+
+// Every property of the JSON Schema appears in the data dictionary; the
+// schema's fields are listed by Python's json module (a second reader).
+func TestDataDictionaryCoversSchema(t *testing.T) {
+	d, err := DataDictionary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	have := map[string]DictEntry{}
+	for _, e := range d {
+		have[e.Field] = e
+		if e.Meaning == "" && !strings.HasSuffix(e.Field, ".*") && e.Type != "array of object" {
+			t.Errorf("%s has no meaning", e.Field)
+		}
+	}
+	for f, unit := range map[string]string{"trials[].arrays[].sampling_rate_hz": "Hz", "subject.height_cm": "cm",
+		"trials[].target_pct_mvc": "%", "trials[].arrays[].decompositions[].units[].pnr_db": "dB"} {
+		if have[f].Unit != unit {
+			t.Errorf("%s unit %q, want %q (UCUM)", f, have[f].Unit, unit)
+		}
+	}
+	py := "/usr/bin/python3"
+	if _, err := os.Stat(py); err != nil {
+		t.Skip("no /usr/bin/python3")
+	}
+	script := `
+import json, sys
+s = json.load(sys.stdin)
+defs = s.get("definitions", {})
+def res(x):
+    while "$ref" in x:
+        x = dict(defs[x["$ref"].split("/")[-1]], **{k: v for k, v in x.items() if k != "$ref"})
+    return x
+def walk(prefix, x):
+    for k, v in x.get("properties", {}).items():
+        v = res(v)
+        name = prefix + k
+        print(name)
+        if v.get("type") == "object":
+            walk(name + ".", v)
+        elif v.get("type") == "array" and res(v.get("items", {})).get("type") == "object":
+            walk(name + "[].", res(v["items"]))
+walk("", s)
+`
+	cmd := exec.Command(py, "-c", script)
+	cmd.Stdin = strings.NewReader(schemaText())
+	b, err := cmd.CombinedOutput()
+	if err != nil {
+		t.Fatalf("%v\n%s", err, b)
+	}
+	n := 0
+	for _, f := range strings.Fields(string(b)) {
+		n++
+		if _, ok := have[f]; !ok {
+			t.Errorf("schema field %s missing from the dictionary", f)
+		}
+	}
+	if n < 50 {
+		t.Fatalf("only %d schema fields seen", n)
+	}
+}

@@ -1,0 +1,79 @@
+package archive
+
+import (
+	"fmt"
+	"os"
+
+	"muarc/deid"
+	"muarc/recfile"
+	"muarc/record"
+	"muarc/validate"
+)
+
+// maxListed is how many validation errors a refusal message quotes.
+const maxListed = 3
+
+// lowConfidenceRules are the quality gates the index counts units against:
+// the validator's defaults.
+var lowConfidenceRules = validate.DefaultOptions().Rules
+
+// summarize opens a recording (attributes and small tables only; samples
+// stay on disk) and builds its summary.
+func summarize(path, rel string) (*RecordingSummary, error) {
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, err
+	}
+	f, err := recfile.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	rec := f.Recording()
+	return summaryOf(rec, rel, st.Size(), func(u record.Unit) bool { return validate.LowConfidence(u, lowConfidenceRules) }), nil
+}
+
+// checkRecording validates a recording (with the checksum scan) and lists
+// its identifying fields still set.
+func checkRecording(path string) (nerr int, first []string, identifying []string, err error) {
+	nerr, first, err = validateWith(path, validate.DefaultOptions())
+	if err != nil {
+		return 0, nil, nil, err
+	}
+	f, err := recfile.Open(path)
+	if err != nil {
+		if nerr > 0 {
+			// Validation already said why; the refusal carries it.
+			return nerr, first, nil, nil
+		}
+		return 0, nil, nil, err
+	}
+	defer f.Close()
+	return nerr, first, deid.IdentifyingFields(f.Recording()), nil
+}
+
+// validateFile validates a recording without the checksum scan (the
+// deposit check scans chunks itself to report each bad one).
+func validateFile(path string) (int, []string, error) {
+	opt := validate.DefaultOptions()
+	opt.ChecksumScan = false
+	return validateWith(path, opt)
+}
+
+func validateWith(path string, opt validate.Options) (int, []string, error) {
+	rep := validate.File(path, opt)
+	if rep.ReadError != "" {
+		return 1, []string{rep.ReadError}, nil
+	}
+	var first []string
+	for _, f := range rep.Findings {
+		if f.Severity == validate.Error && len(first) < maxListed {
+			first = append(first, f.String())
+		}
+	}
+	n := rep.Count(validate.Error)
+	if n > maxListed {
+		first = append(first, fmt.Sprintf("and %d more (run muarc validate on the file)", n-maxListed))
+	}
+	return n, first, nil
+}
