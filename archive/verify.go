@@ -13,8 +13,8 @@ import (
 
 // Finding kinds of a deposit check beyond the bag's own (bagit.Kind*).
 const (
-	KindInvalid    = "invalid"     // a recording fails validation
-	KindChunk      = "chunk"       // an HDF5 chunk fails its Fletcher-32 checksum
+	KindInvalid    = "invalid" // a recording fails validation
+	KindChunk      = "chunk"   // an HDF5 chunk fails its Fletcher-32 checksum
 	KindRecordRead = "unreadable-recording"
 )
 
