@@ -38,7 +38,7 @@ const (
 	// threshold is at least this far below the plateau excitation (units
 	// recruited just under the plateau discharge too few times at a stable
 	// rate to be found).
-	decompMarginPct = 6
+	decompMarginPct = 7
 	minDischarges   = 10
 	forceNoiseRel   = 0.0005 // force sensor noise SD, fraction of MVC
 	badChannelNoise = 5

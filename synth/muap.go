@@ -58,7 +58,7 @@ func randomMUAP(rng *rand.Rand, g grid, ampUV float64) muapModel {
 		ampUV:    ampUV,
 		velocity: 3.5 + 1.5*rng.Float64(),
 		sigmaMs:  0.9 + 0.5*rng.Float64(),
-		lambdaMm: 7 + 5*rng.Float64(),
+		lambdaMm: 10 + 8*rng.Float64(),
 	}
 }
 
@@ -72,7 +72,7 @@ func (m muapModel) template(g grid, sh templateShape) []float32 {
 		x, y := g.xy(c)
 		dx := x - m.x0
 		dy := math.Abs(y - m.y0)
-		spatial := math.Exp(-dx*dx/(2*m.lambdaMm*m.lambdaMm)) / (1 + (dy/80)*(dy/80))
+		spatial := math.Exp(-dx*dx/(2*m.lambdaMm*m.lambdaMm)) / (1 + (dy/40)*(dy/40))
 		disp := 1 + dy/120
 		sigma := m.sigmaMs * disp
 		amp := m.ampUV * spatial / math.Sqrt(disp)
