@@ -967,7 +967,7 @@ func walkStrings(r *record.Recording, fn func(path, s string)) {
 				}
 				for _, c := range d.ExtraColumns {
 					for u, s := range c.Text {
-						fn(fmt.Sprintf("%s.units[%d].%s", dp, u, c.Name), s)
+						fn(fmt.Sprintf("%s.units[%d].extra.%s", dp, u, c.Name), s)
 					}
 				}
 				if d.MUAPs != nil {

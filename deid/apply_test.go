@@ -1,0 +1,282 @@
+package deid
+
+import (
+	"bytes"
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"muarc/record"
+)
+
+func testKey(t testing.TB) *Pseudonymizer {
+	k, err := KeyFromBytes(bytes.Repeat([]byte{0x5a}, 32))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return NewPseudonymizer(k)
+}
+
+// identifiable builds an invented recording carrying one value of every
+// identifying kind (test fixture; not a check value).
+func identifiable() *record.Recording {
+	u := record.NewUnit(1)
+	u.Discharges = []int64{10, 60, 115}
+	u.PNRdB = 31.5
+	n := math.NaN()
+	return &record.Recording{
+		Study: record.Study{ID: "stiffknee", Title: "Knee extensor units", License: "CC-BY-4.0", Extra: record.Extra{"grant": "GR-55"}},
+		Subject: record.Subject{ID: "QX-0417", Name: "Ottilie Quarnstrom", BirthDate: "1961-07-02", AgeYears: n,
+			Sex: "female", HeightCm: 171.5, MassKg: 64, DominantSide: "right", Phone: "+44 20 7946 0958",
+			Email: "ottilie.q@mail.example.org", Notes: "Ottilie prefers mornings", Extra: record.Extra{"hospital_no": int64(4471902), "tremor": "mild"}},
+		Session: record.Session{ID: "QX-0417_v2", Date: "2026-03-14T09:30:00Z", Site: "Brindlemoor clinic, room 4",
+			Operator: "Pell Anwick", Notes: "called 555-013-4477 to confirm", Extra: record.Extra{"room_temp_c": 21.5}},
+		Trials: []record.Trial{{
+			Name: "ramp_30", Task: "isometric knee extension", TargetPctMVC: 30, MVC: 412, MVCUnit: "N.m",
+			Profile: record.ForceProfile{Shape: "trapezoid", RestS: 3, RampUpS: 5, PlateauS: 20, RampDownS: 5},
+			Force:   record.Signal{SamplingRateHz: 2048, Unit: "N.m", Values: []float64{0, 1.5, 3}},
+			Notes:   "Ottilie Quarnstrom asked for a break on 14.03.2026",
+			Arrays: []record.Array{{
+				Name: "vl_grid", Muscle: "vastus lateralis", Side: "right", Rows: 2, Columns: 1, IEDMm: 8,
+				Gain: n, FilterLowHz: 10, FilterHighHz: 500, SamplingRateHz: 2048, Unit: "uV",
+				Channels: []record.Channel{{Label: "c1", Row: 0, Column: 0, XMm: 0, YMm: 0, Usable: true}, {Label: "c2", Row: 1, Column: 0, XMm: 0, YMm: 8, Usable: true}},
+				Samples:  &record.MemSamples{Samples: 3, Channels: 2, F32: []float32{1, 2, 3, 4, 5, 6}},
+				Extra:    record.Extra{"amplifier_serial": "SN-AX44719"},
+				Decompositions: []record.Decomposition{{Name: "auto", Method: "blind source separation", Parameters: `{"iterations":50}`,
+					Units: []record.Unit{u}, Notes: "checked by Pell Anwick",
+					ExtraColumns: []record.Column{{Name: "rater", Text: []string{"blinded"}}, {Name: "cov_force", Values: []float64{0.04}}}}},
+			}},
+		}},
+		Provenance: record.Provenance{
+			Sources: []record.SourceFile{{Name: "Quarnstrom_Ottilie/2026-03-14/force.csv", Role: "force", SHA256: strings.Repeat("ab", 32), Bytes: 1200}},
+			History: []record.Operation{{Action: "import", Software: "muarc 0.1.0", Time: time.Date(2026, 3, 15, 8, 0, 0, 0, time.UTC),
+				Details: `{"source":"/home/lab/Quarnstrom_Ottilie"}`}},
+		},
+	}
+}
+
+func TestApplyDefault(t *testing.T) {
+	in := identifiable()
+	ps := testKey(t)
+	res, err := Apply(in, Options{Pseudonymizer: ps, Now: time.Date(2026, 12, 1, 10, 0, 0, 0, time.UTC)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := res.Recording
+	s := out.Subject
+	if s.ID != ps.Subject("QX-0417") || !IsPseudonym(SubjectPrefix, s.ID) {
+		t.Errorf("subject id %q", s.ID)
+	}
+	if s.Name != "" || s.Phone != "" || s.Email != "" || s.Notes != "" {
+		t.Errorf("identifying subject fields kept: %+v", s)
+	}
+	if s.BirthDate != "1961" {
+		t.Errorf("birth date %q, want the year (45 CFR 164.514(b)(2)(i)(C))", s.BirthDate)
+	}
+	// 1961-07-02 to 2026-03-14: 64 whole years, band 60-69.
+	if s.AgeBand != "60-69" || !math.IsNaN(s.AgeYears) {
+		t.Errorf("age %v band %q", s.AgeYears, s.AgeBand)
+	}
+	if !math.IsNaN(s.HeightCm) || s.Extra["height_band_cm"] != "170-180" || s.Extra["mass_band_kg"] != "60-70" {
+		t.Errorf("height/mass %v %v", s.HeightCm, s.Extra)
+	}
+	if _, ok := s.Extra["tremor"]; ok {
+		t.Error("unlisted subject extra kept")
+	}
+	days := ps.ShiftDays("QX-0417", 365)
+	want, _ := ShiftDate("2026-03-14T09:30:00Z", days)
+	if out.Session.Date != want || out.Session.Date == in.Session.Date {
+		t.Errorf("session date %q, want %q", out.Session.Date, want)
+	}
+	if out.Session.Site != "" || out.Session.Operator != "" || out.Session.Notes != "" {
+		t.Error("session free text kept")
+	}
+	tr := out.Trials[0]
+	if tr.Notes != "" || tr.Arrays[0].Extra != nil || tr.Arrays[0].Decompositions[0].Notes != "" {
+		t.Error("free text or serial kept")
+	}
+	// Data carried by reference, untouched.
+	if tr.Arrays[0].Samples != in.Trials[0].Arrays[0].Samples || &tr.Force.Values[0] != &in.Trials[0].Force.Values[0] {
+		t.Error("data not carried")
+	}
+	if d := tr.Arrays[0].Decompositions[0]; len(d.Units) != 1 || &d.Units[0].Discharges[0] != &in.Trials[0].Arrays[0].Decompositions[0].Units[0].Discharges[0] || d.Units[0].PNRdB != 31.5 {
+		t.Error("units not carried")
+	}
+	if cols := tr.Arrays[0].Decompositions[0].ExtraColumns; len(cols) != 2 {
+		t.Errorf("unit columns %v", cols)
+	}
+	src := out.Provenance.Sources[0]
+	if !strings.HasSuffix(src.Name, ".csv") || strings.Contains(src.Name, "Quarn") || src.SHA256 != "" || src.Bytes != 1200 {
+		t.Errorf("source %+v", src)
+	}
+	h := out.Provenance.History
+	if len(h) != 2 || h[0].Details != "{}" || !h[0].Time.Equal(in.Provenance.History[0].Time.AddDate(0, 0, days)) {
+		t.Errorf("history %+v", h)
+	}
+	if h[1].Action != "deidentify" || !strings.Contains(h[1].Details, Default().SHA256()) || !strings.Contains(h[1].Details, ps.Fingerprint()) {
+		t.Errorf("deidentify step %+v", h[1])
+	}
+	// The input is untouched.
+	if in.Subject.Name != "Ottilie Quarnstrom" || in.Session.Date != "2026-03-14T09:30:00Z" || in.Trials[0].Notes == "" {
+		t.Error("input modified")
+	}
+	// Unlisted fields are reported: none here, the default names every field
+	// and drops unknown extras through its "extra.*" lines.
+	if len(res.Unlisted) != 0 {
+		t.Errorf("unlisted %v", res.Unlisted)
+	}
+	needles := strings.Join(res.Needles(), "|")
+	for _, n := range []string{"Ottilie Quarnstrom", "Quarnstrom", "QX-0417", "2026-03-14", "14.03.2026", "1961-07-02", "ottilie.q@mail.example.org", "442079460958", "SN-AX44719", "Pell Anwick"} {
+		if !strings.Contains(needles, n) {
+			t.Errorf("needle %q missing", n)
+		}
+	}
+	if !strings.Contains(needles, "4471902") {
+		t.Error("numeric extra not a needle")
+	}
+	if got := IdentifyingFields(out); len(got) != 0 {
+		t.Errorf("output still identifying: %v", got)
+	}
+	got := strings.Join(IdentifyingFields(in), " ")
+	for _, p := range []string{"subject.id", "subject.name", "subject.birth_date", "subject.phone", "subject.email", "subject.notes",
+		"subject.extra.hospital_no", "session.id", "session.date", "session.site", "session.operator", "trials[0].notes",
+		"trials[0].arrays[0].extra.amplifier_serial", "trials[0].arrays[0].decompositions[0].notes",
+		"provenance.sources[0].name", "provenance.sources[0].sha256", "provenance.history[0].time", "provenance.history[0].details"} {
+		if !strings.Contains(got+" ", p+" ") {
+			t.Errorf("IdentifyingFields misses %s (got %s)", p, got)
+		}
+	}
+	if strings.Contains(got, "study.") && !strings.Contains(got, "study.extra.grant") {
+		t.Errorf("study fields flagged: %s", got)
+	}
+}
+
+func TestApplyUnlistedReported(t *testing.T) {
+	pol, err := ParsePolicy([]byte(`{"name":"tiny","fields":{"subject.id":"pseudonymize","trials[].name":"keep","trials[].arrays[].name":"keep","trials[].arrays[].decompositions[].name":"keep"}}`), "tiny")
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Apply(identifiable(), Options{Policy: pol, Pseudonymizer: testKey(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	un := strings.Join(res.Unlisted, " ")
+	for _, p := range []string{"subject.name", "subject.sex", "session.date", "trials[0].task", "trials[0].force", "trials[0].arrays[0].muscle", "provenance.sources[0].name"} {
+		if !strings.Contains(un, p) {
+			t.Errorf("unlisted %s not reported: %s", p, un)
+		}
+	}
+	if res.Recording.Subject.Sex != "" || res.Recording.Trials[0].Force.Present() || len(res.Recording.Provenance.Sources) != 0 {
+		t.Error("unlisted field kept")
+	}
+}
+
+func TestApplyRefusesLeakyKeptField(t *testing.T) {
+	in := identifiable()
+	in.Trials[0].Name = "quarnstrom_ramp"
+	_, err := Apply(in, Options{Pseudonymizer: testKey(t)})
+	if err == nil || !strings.Contains(err.Error(), "trials[0].name") || strings.Contains(err.Error(), "Quarnstrom") {
+		t.Fatalf("kept trial name with the subject's name: %v", err)
+	}
+	pol, _ := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].name":"pseudonymize"}}`), "p")
+	res, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(res.Recording.Trials[0].Name, NamePrefix) {
+		t.Fatal(res.Recording.Trials[0].Name)
+	}
+	in = identifiable()
+	in.Trials[0].Arrays[0].Decompositions[0].ExtraColumns[0].Text[0] = "Pell Anwick" // the operator, whose field is dropped
+	if _, err := Apply(in, Options{Pseudonymizer: testKey(t)}); err == nil || !strings.Contains(err.Error(), "units[0].extra.rater") {
+		t.Fatalf("kept unit column with the operator's name: %v", err)
+	}
+	in = identifiable()
+	pol, _ = ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"provenance.history[].details":"keep"}}`), "p")
+	if _, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)}); err == nil || !strings.Contains(err.Error(), "provenance.history[0].details") {
+		t.Fatalf("absolute path kept: %v", err)
+	}
+}
+
+// TestApplyOver89: a subject of 92 gets "90 or older" and loses the birth
+// year, which would show the age (45 CFR 164.514(b)(2)(i)(C): "all elements
+// of dates (including year) indicative of such age").
+func TestApplyOver89(t *testing.T) {
+	in := identifiable()
+	in.Subject.BirthDate = "1933-05-01"
+	res, err := Apply(in, Options{Pseudonymizer: testKey(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s := res.Recording.Subject; s.AgeBand != OldestBand || s.BirthDate != "" {
+		t.Fatalf("band %q birth %q", s.AgeBand, s.BirthDate)
+	}
+	in.Subject.AgeYears = 91
+	in.Subject.BirthDate = ""
+	if got := IdentifyingFields(in); !strings.Contains(strings.Join(got, " "), "subject.age_years") {
+		t.Errorf("age 91 not flagged: %v", got)
+	}
+}
+
+func TestApplyScrubAndYear(t *testing.T) {
+	pol, err := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].notes":"scrub","session.date":"year","trials[].arrays[].decompositions[].units[].extra.rater":"drop"}}`), "p")
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Apply(identifiable(), Options{Policy: pol, Pseudonymizer: testKey(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := res.Recording
+	if n := out.Trials[0].Notes; n != "[name] asked for a break on [date]" {
+		t.Errorf("scrubbed notes %q", n)
+	}
+	if out.Session.Date != "" || out.Session.Extra["date_year"] != int64(2026) {
+		t.Errorf("session %+v", out.Session)
+	}
+	if len(res.Scrubbed) == 0 {
+		t.Error("no removals reported")
+	}
+}
+
+func TestKAnonymity(t *testing.T) {
+	var subs []SubjectQuasi
+	add := func(id, sex, age, h, m, side string) {
+		subs = append(subs, SubjectQuasi{id, QuasiIDs{sex, age, h, m, side}})
+	}
+	for i, a := range []string{"a", "b", "c", "d", "e"} {
+		add(a, "female", "30-39", "160-170", "60-70", []string{"right", "right", "left", "right", "right"}[i])
+	}
+	add("f", "male", "40-49", "180-190", "80-90", "right")
+	add("g", "male", "50-59", "170-180", "80-90", "right")
+	r := KAnonymity(subs, 2)
+	// By hand: groups {a,b,d,e}=4, {c}=1, {f}=1, {g}=1.
+	if r.Groups != 4 || r.Smallest != 1 || strings.Join(r.BelowK, ",") != "c,f,g" {
+		t.Fatalf("%+v", r)
+	}
+	if !r.Lifted || len(r.Steps) == 0 || r.Steps[len(r.Steps)-1].BelowK != 0 {
+		t.Fatalf("steps %+v", r.Steps)
+	}
+	// Applying the steps by hand must give what they claim.
+	cur := subs
+	level := map[string]int{}
+	for _, st := range r.Steps {
+		for _, q := range QuasiNames {
+			if level[q]+1 < len(ladders[q]) && ladders[q][level[q]+1].change == st.Change {
+				level[q]++
+				cur = generalise(cur, q, ladders[q][level[q]])
+			}
+		}
+		if countBelow(cur, 2) != st.BelowK {
+			t.Fatalf("step %q claims %d below k", st.Change, st.BelowK)
+		}
+	}
+	if widenAge("30-39", 20) != "20-39" || widenAge("80-89", 20) != "80 or older" || widenMeasure("172.5", 20) != "160-180" {
+		t.Error("widen")
+	}
+	// k = 5 over a,b,c,d,e: groups of 4 and 1, both below 5.
+	if r := KAnonymity(subs[:5], 5); r.Smallest != 1 || len(r.BelowK) != 5 || !r.Lifted || r.Steps[0].Change != "drop dominant_side" {
+		t.Fatalf("%+v", r)
+	}
+}
