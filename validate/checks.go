@@ -41,6 +41,7 @@ var checks = []CheckInfo{
 	{"checksum.chunk", Error, "a stored chunk fails its Fletcher-32 checksum"},
 	{"checksum.scan", Error, "the chunk checksum scan could not run"},
 	{"content.read", Error, "the recording's content could not be read"},
+	{"content.skipped", Note, "later checks did not run because of the structural errors found"},
 	{"discharge.sorted", Error, "a unit's discharges are not in ascending order"},
 	{"discharge.duplicate", Error, "a unit has the same discharge twice"},
 	{"discharge.range", Error, "a discharge lies outside the array's samples"},

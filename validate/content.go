@@ -87,20 +87,20 @@ func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 func checkTrial(t *record.Trial, th, tj string, r Rules, add addFunc) {
 	if !math.IsNaN(t.MVC) && !(t.MVC > 0 && finite(t.MVC)) {
-		add("trial.mvc", th, tj+"/mvc", "store the MVC measured for this subject, or leave it out when not known",
+		add("trial.mvc", th+"@mvc", tj+"/mvc", "store the MVC measured for this subject, or leave it out when not known",
 			"MVC %v is not a positive number", t.MVC)
 	}
 	if t.MVCUnit != "" && !r.forceUnitKnown(t.MVCUnit) {
-		add("force.unit", th, tj+"/mvc_unit", "use a UCUM code such as \"N\" or \"N.m\", or add the unit to force_units in a rules file",
+		add("force.unit", th+"@mvc_unit", tj+"/mvc_unit", "use a UCUM code such as \"N\" or \"N.m\", or add the unit to force_units in a rules file",
 			"MVC unit %q is not a known force unit", t.MVCUnit)
 	}
 	if !math.IsNaN(t.TargetPctMVC) {
 		switch {
 		case t.TargetPctMVC < 0 || math.IsInf(t.TargetPctMVC, 0):
-			add("trial.target_negative", th, tj+"/target_pct_mvc", "give the target level in % MVC, 0 to 100",
+			add("trial.target_negative", th+"@target_pct_mvc", tj+"/target_pct_mvc", "give the target level in % MVC, 0 to 100",
 				"target level %v %% MVC is not within 0-100", t.TargetPctMVC)
 		case t.TargetPctMVC > r.TargetMaxPctMVC:
-			add("trial.target_high", th, tj+"/target_pct_mvc", "check the MVC and the target; a target above the maximal contraction is unusual",
+			add("trial.target_high", th+"@target_pct_mvc", tj+"/target_pct_mvc", "check the MVC and the target; a target above the maximal contraction is unusual",
 				"target level %v %% MVC is above %v %% MVC", t.TargetPctMVC, r.TargetMaxPctMVC)
 		}
 	}
@@ -113,13 +113,13 @@ func checkTrial(t *record.Trial, th, tj string, r Rules, add addFunc) {
 		}
 		h, j := th+"/"+s.name, tj+"/"+s.name
 		if !(s.sig.SamplingRateHz > 0 && finite(s.sig.SamplingRateHz)) {
-			add("rate.positive", h, j+"/sampling_rate_hz", "store the sampling rate in Hz", "%s sampling rate %v Hz is not positive", s.name, s.sig.SamplingRateHz)
+			add("rate.positive", h+"@sampling_rate_hz", j+"/sampling_rate_hz", "store the sampling rate in Hz", "%s sampling rate %v Hz is not positive", s.name, s.sig.SamplingRateHz)
 		}
 		switch {
 		case s.sig.Unit == "":
 			add("force.unit_missing", h, j+"/unit", "store the UCUM unit of the trace (\"N\", \"N.m\", \"%\")", "%s has no unit", s.name)
 		case !r.forceUnitKnown(s.sig.Unit):
-			add("force.unit", h, j+"/unit", "use a UCUM code such as \"N\" or \"N.m\", or add the unit to force_units in a rules file",
+			add("force.unit", h+"@unit", j+"/unit", "use a UCUM code such as \"N\" or \"N.m\", or add the unit to force_units in a rules file",
 				"%s unit %q is not a known force unit", s.name, s.sig.Unit)
 		}
 	}
@@ -134,9 +134,9 @@ func checkTrial(t *record.Trial, th, tj string, r Rules, add addFunc) {
 func checkArray(a *record.Array, ah, aj string, r Rules, add addFunc) {
 	switch {
 	case !(a.SamplingRateHz > 0 && finite(a.SamplingRateHz)):
-		add("rate.positive", ah, aj+"/sampling_rate_hz", "store the EMG sampling rate in Hz", "sampling rate %v Hz is not positive", a.SamplingRateHz)
+		add("rate.positive", ah+"@sampling_rate_hz", aj+"/sampling_rate_hz", "store the EMG sampling rate in Hz", "sampling rate %v Hz is not positive", a.SamplingRateHz)
 	case a.SamplingRateHz < r.EMGMinRateHz:
-		add("emg.rate_low", ah, aj+"/sampling_rate_hz", "surface EMG is usually sampled at 1 kHz or more; check the rate stored",
+		add("emg.rate_low", ah+"@sampling_rate_hz", aj+"/sampling_rate_hz", "surface EMG is usually sampled at 1 kHz or more; check the rate stored",
 			"surface EMG sampled at %v Hz, below %v Hz", a.SamplingRateHz, r.EMGMinRateHz)
 	}
 	type pos struct{ r, c int }
@@ -147,13 +147,13 @@ func checkArray(a *record.Array, ah, aj string, r Rules, add addFunc) {
 			continue
 		}
 		if ch.Row < 0 || ch.Column < 0 || ch.Row >= a.Rows || ch.Column >= a.Columns {
-			add("channels.grid_outside", ah+"/channels", j, "grid positions are 0-based, row < rows and column < columns; -1, -1 marks a channel off the grid",
+			add("channels.grid_outside", fmt.Sprintf("%s/channels/row[%d]", ah, ci), j, "grid positions are 0-based, row < rows and column < columns; -1, -1 marks a channel off the grid",
 				"channel %d (%q) at row %d, column %d lies outside the %d x %d grid", ci, ch.Label, ch.Row, ch.Column, a.Rows, a.Columns)
 			continue
 		}
 		k := pos{ch.Row, ch.Column}
 		if prev, ok := seen[k]; ok {
-			add("channels.grid_duplicate", ah+"/channels", j, "each electrode of the grid has its own row and column",
+			add("channels.grid_duplicate", fmt.Sprintf("%s/channels/row[%d]", ah, ci), j, "each electrode of the grid has its own row and column",
 				"channels %d and %d both sit at row %d, column %d", prev, ci, ch.Row, ch.Column)
 			continue
 		}
@@ -168,17 +168,17 @@ func checkDecomposition(d *record.Decomposition, a *record.Array, rows int, dh, 
 		u := &d.Units[ui]
 		uj := fmt.Sprintf("%s/units/%d", dj, ui)
 		if prev, ok := ids[u.ID]; ok {
-			add("units.id_unique", dh+"/units/id", uj+"/id", "give each unit of a decomposition its own id",
+			add("units.id_unique", fmt.Sprintf("%s/units/id[%d]", dh, ui), uj+"/id", "give each unit of a decomposition its own id",
 				"units %d and %d share id %d", prev, ui, u.ID)
 		}
 		ids[u.ID] = ui
-		checkDischarges(u, fs, rows, dh+"/discharges", uj, r, add)
+		checkDischarges(u, fs, rows, dh+"/discharges", fmt.Sprintf("%s/units/discharge_count[%d]", dh, ui), uj, r, add)
 		if finite(u.Silhouette) && u.Silhouette < r.SilhouetteMin {
-			add("quality.silhouette", dh+"/units/silhouette", uj+"/silhouette", "a low-confidence unit: inspect it or leave it out of analyses",
+			add("quality.silhouette", fmt.Sprintf("%s/units/silhouette[%d]", dh, ui), uj+"/silhouette", "a low-confidence unit: inspect it or leave it out of analyses",
 				"unit %d silhouette %.3g is below %.3g", u.ID, u.Silhouette, r.SilhouetteMin)
 		}
 		if finite(u.PNRdB) && u.PNRdB < r.PNRMinDB {
-			add("quality.pnr", dh+"/units/pnr_db", uj+"/pnr_db", "a low-confidence unit: inspect it or leave it out of analyses",
+			add("quality.pnr", fmt.Sprintf("%s/units/pnr_db[%d]", dh, ui), uj+"/pnr_db", "a low-confidence unit: inspect it or leave it out of analyses",
 				"unit %d PNR %.3g dB is below %.3g dB", u.ID, u.PNRdB, r.PNRMinDB)
 		}
 	}
@@ -200,11 +200,11 @@ func checkDecomposition(d *record.Decomposition, a *record.Array, rows int, dh, 
 
 // checkDischarges checks one unit's discharges (sample indices at fs Hz;
 // rows < 0 when the number of samples is not known).
-func checkDischarges(u *record.Unit, fs float64, rows int, h, uj string, r Rules, add addFunc) {
+func checkDischarges(u *record.Unit, fs float64, rows int, h, countCell, uj string, r Rules, add addFunc) {
 	ds := u.Discharges
 	j := uj + "/discharges"
 	if len(ds) < r.MinDischarges {
-		add("discharge.few", h, uj+"/discharge_count", "too few discharges for a rate or a CoV; check the decomposition",
+		add("discharge.few", countCell, uj+"/discharge_count", "too few discharges for a rate or a CoV; check the decomposition",
 			"unit %d has %d discharges, fewer than %d", u.ID, len(ds), r.MinDischarges)
 	}
 	var unsorted, dups, outside, doublets int

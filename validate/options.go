@@ -1,6 +1,9 @@
 package validate
 
-import "sort"
+import (
+	"sort"
+	"strings"
+)
 
 // Options control a validation run.
 type Options struct {
@@ -20,8 +23,9 @@ func DefaultOptions() Options {
 	return Options{Rules: DefaultRules(), ChecksumScan: true}
 }
 
-// finish applies the options to raw findings: drops switched-off checks and
-// repeats (the same check at the same place), re-ranks by the rules and makes
+// finish applies the options to raw findings: drops switched-off checks,
+// repeats (the same check at the same place) and schema findings that a
+// named check reports at the same JSON path, re-ranks by the rules and makes
 // warnings errors under Strict. The order is kept.
 func finish(fs []Finding, opt Options) []Finding {
 	r := opt.Rules
@@ -30,9 +34,25 @@ func finish(fs []Finding, opt Options) []Finding {
 	}
 	type key struct{ check, h, j string }
 	seen := map[key]bool{}
+	// A schema finding at a place a named check also reports says the same
+	// thing less well: keep the named check's.
+	// So does a schema finding on a cell of a column (".../x_mm[3]") whose
+	// dataset a named check reports (".../x_mm").
+	named := map[string]bool{}
+	namedObj := map[string]bool{}
+	for _, f := range fs {
+		if !strings.HasPrefix(f.Check, "metadata.") && !r.disabled(f.Check) {
+			if f.JSONPath != "" {
+				named[f.JSONPath] = true
+			}
+			if f.HDF5Path != "" && f.Severity == Error {
+				namedObj[f.HDF5Path] = true
+			}
+		}
+	}
 	out := fs[:0:0]
 	for _, f := range fs {
-		if r.disabled(f.Check) {
+		if r.disabled(f.Check) || strings.HasPrefix(f.Check, "metadata.") && (named[f.JSONPath] || namedObj[cellObject(f.HDF5Path)]) {
 			continue
 		}
 		k := key{f.Check, f.HDF5Path, f.JSONPath}
@@ -73,4 +93,13 @@ func sortFindings(fs []Finding) {
 		}
 		return a.Check < b.Check
 	})
+}
+
+// cellObject strips a table cell's "[row]" from an HDF5 path as
+// recfile.HDF5Path writes it.
+func cellObject(p string) string {
+	if i := strings.LastIndexByte(p, '['); i > 0 && strings.HasSuffix(p, "]") {
+		return p[:i]
+	}
+	return p
 }

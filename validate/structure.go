@@ -76,24 +76,24 @@ func (s *structure) root() (refuse string) {
 	}
 	la, ok := attr(ro, "layout")
 	if !ok {
-		s.add("layout.name", "/", "/layout", "this does not look like a muarc file; write it with muarc (`muarc import`)",
+		s.add("layout.name", "/@layout", "/layout", "this does not look like a muarc file; write it with muarc (`muarc import`)",
 			"root attribute layout is missing")
 		return "not a muarc recording: the root attribute layout is missing"
 	}
 	if v, _ := la.Value.(string); v != schema.LayoutName {
-		s.add("layout.name", "/", "/layout", "this is not a muarc recording", "root attribute layout is %q, not %q", la.Value, schema.LayoutName)
+		s.add("layout.name", "/@layout", "/layout", "this is not a muarc recording", "root attribute layout is %q, not %q", la.Value, schema.LayoutName)
 		return fmt.Sprintf("not a muarc recording: layout is %q", la.Value)
 	}
 	va, ok := attr(ro, "layout_version")
 	v, _ := va.Value.(string)
 	if !ok || v == "" {
-		s.add("layout.version", "/", "/layout_version", "files written by muarc carry layout_version; rewrite the file with muarc",
+		s.add("layout.version", "/@layout_version", "/layout_version", "files written by muarc carry layout_version; rewrite the file with muarc",
 			"root attribute layout_version is missing")
 		return ""
 	}
 	s.version = v
 	if err := schema.CheckReadable(v); err != nil {
-		s.add("layout.version", "/", "/layout_version", "upgrade muarc, or ask the file's author for a file in layout "+schema.LayoutVersion, "%v", err)
+		s.add("layout.version", "/@layout_version", "/layout_version", "upgrade muarc, or ask the file's author for a file in layout "+schema.LayoutVersion, "%v", err)
 		if maj, _, perr := schema.ParseVersion(v); perr == nil {
 			mine, _, _ := schema.ParseVersion(schema.LayoutVersion)
 			if maj > mine {
@@ -181,7 +181,7 @@ func (s *structure) check() {
 				s.add("structure.shape", sp, sj, "force traces are 1-D", "%s has shape %v, the layout wants 1-D", sp, o.Shape)
 			}
 			if _, ok := attr(o, "sampling_rate_hz"); !ok {
-				s.add("structure.missing", sp, sj+"/sampling_rate_hz", "store the trace's sampling rate in Hz", "%s has no sampling_rate_hz attribute", sp)
+				s.add("structure.missing", sp+"@sampling_rate_hz", sj+"/sampling_rate_hz", "store the trace's sampling rate in Hz", "%s has no sampling_rate_hz attribute", sp)
 			}
 		}
 		ap := tp + "/arrays"
@@ -203,7 +203,7 @@ func (s *structure) array(p, jp string) {
 		return
 	}
 	if _, ok := attr(ao, "sampling_rate_hz"); !ok {
-		s.add("structure.missing", p, jp+"/sampling_rate_hz", "store the EMG sampling rate in Hz", "array %s has no sampling_rate_hz attribute", p)
+		s.add("structure.missing", p+"@sampling_rate_hz", jp+"/sampling_rate_hz", "store the EMG sampling rate in Hz", "array %s has no sampling_rate_hz attribute", p)
 	}
 	sp := p + "/samples"
 	nch := -1
@@ -272,7 +272,7 @@ func (s *structure) decomposition(p, jp string, nch int) {
 		fixed := map[string]bool{"id": true, "discharge_count": true}
 		for _, f := range figureColumns {
 			fixed[f] = true
-			s.column(up+"/"+f, jp+"/units", isFloat64, "float64", nunits, false, "units.column_length")
+			s.column(up+"/"+f, jp+"/units", isFloat64, "float64", nunits, true, "units.column_length")
 		}
 		for _, k := range s.t.kids[up] {
 			if !fixed[k] {
@@ -306,20 +306,26 @@ func (s *structure) decomposition(p, jp string, nch int) {
 			offs = nil
 		}
 	}
-	if len(offs) > 0 {
-		if offs[0] != 0 {
-			s.add("offsets.start", p+"/discharge_offsets", jp+"/units", "unit 0 owns discharges[off[0]:off[1]]; off[0] is 0", "discharge_offsets starts at %d, not 0", offs[0])
-		}
+	offsetsOK := len(offs) > 0 && (nunits < 0 || len(offs) == nunits+1)
+	if offsetsOK && offs[0] != 0 {
+		s.add("offsets.start", p+"/discharge_offsets", jp+"/units", "unit 0 owns discharges[off[0]:off[1]]; off[0] is 0", "discharge_offsets starts at %d, not 0", offs[0])
+		offsetsOK = false
+	}
+	if offsetsOK {
 		for k := 1; k < len(offs); k++ {
 			if offs[k] < offs[k-1] {
 				s.add("offsets.order", p+"/discharge_offsets", fmt.Sprintf("%s/units/%d", jp, k-1), "offsets never decrease: unit k owns discharges[off[k]:off[k+1]]",
 					"discharge_offsets decreases at entry %d (%d after %d)", k, offs[k], offs[k-1])
+				offsetsOK = false
 				break
 			}
 		}
+	}
+	if offsetsOK {
 		if last := offs[len(offs)-1]; last != int64(nd) {
 			s.add("offsets.end", p+"/discharge_offsets", jp+"/units", "the last offset is the length of discharges",
 				"discharge_offsets ends at %d, discharges has %d values", last, nd)
+			offsetsOK = false
 		}
 	}
 	if nunits > 0 {
@@ -328,17 +334,18 @@ func (s *structure) decomposition(p, jp string, nch int) {
 			seen := map[int64]int{}
 			for k, id := range ids {
 				if prev, ok := seen[id]; ok {
-					s.add("units.id_unique", up+"/id", fmt.Sprintf("%s/units/%d/id", jp, k), "give each unit of a decomposition its own id",
+					s.add("units.id_unique", fmt.Sprintf("%s/id[%d]", up, k), fmt.Sprintf("%s/units/%d/id", jp, k), "give each unit of a decomposition its own id",
 						"units %d and %d share id %d", prev, k, id)
 				}
 				seen[id] = k
 			}
 		}
 		counts, err := s.readInt(up + "/discharge_count")
-		if err == nil && len(offs) == len(counts)+1 {
+		// Counts are checked against offsets only when the offsets hold.
+		if err == nil && offsetsOK && len(offs) == len(counts)+1 {
 			for k, c := range counts {
-				if offs[k+1]-offs[k] != c && offs[k+1] >= offs[k] {
-					s.add("units.discharge_count", up+"/discharge_count", fmt.Sprintf("%s/units/%d/discharge_count", jp, k),
+				if offs[k+1]-offs[k] != c {
+					s.add("units.discharge_count", fmt.Sprintf("%s/discharge_count[%d]", up, k), fmt.Sprintf("%s/units/%d/discharge_count", jp, k),
 						"discharge_count is the unit's number of discharges (off[k+1]-off[k])",
 						"unit row %d has discharge_count %d but owns %d discharges", k, c, offs[k+1]-offs[k])
 				}

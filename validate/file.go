@@ -1,0 +1,199 @@
+package validate
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"runtime/debug"
+	"strings"
+
+	"muarc/h5"
+	"muarc/internal/batch"
+	"muarc/recfile"
+)
+
+// maxChunkFaults is how many damaged chunks of one dataset are reported one
+// by one; the rest are counted in one more finding.
+const maxChunkFaults = 20
+
+// File validates one muarc file: structure (h5.Describe and the small
+// integer datasets), the metadata view against the JSON Schema
+// (recfile.MetadataView), the content checks on the recording
+// (recfile.Open) and, when opt.ChecksumScan, every stored chunk's
+// Fletcher-32 checksum (h5.VerifyChunks). Samples are read once, chunk by
+// chunk, by the checksum scan only; memory does not grow with the
+// recording's length. A file that cannot be read at all (missing, not HDF5,
+// not a muarc recording, a newer major layout version) gives ReadError.
+// File never panics on bad input.
+func File(path string, opt Options) (rep *Report) {
+	rep = &Report{File: path}
+	if opt.Rules.isZero() {
+		opt.Rules = DefaultRules()
+	}
+	var raw []Finding
+	add := func(id, h, j, hint, format string, a ...any) {
+		raw = append(raw, Finding{Severity: opt.Rules.severity(id), Check: id, Message: fmt.Sprintf(format, a...), HDF5Path: h, JSONPath: j, Hint: hint})
+	}
+	defer func() {
+		if p := recover(); p != nil {
+			rep.ReadError = fmt.Sprintf("internal error while validating (a muarc bug; please report it with the file): %v\n%s", p, debug.Stack())
+		}
+		rep.Findings = finish(raw, opt)
+		sortFindings(rep.Findings)
+		if rep.Findings == nil {
+			rep.Findings = []Finding{}
+		}
+	}()
+
+	if fi, err := os.Stat(path); err != nil {
+		rep.ReadError = err.Error()
+		return rep
+	} else if fi.IsDir() {
+		rep.ReadError = path + " is a folder, not a file"
+		return rep
+	}
+	objs, err := h5.Describe(path)
+	if err != nil {
+		rep.ReadError = "cannot read as HDF5: " + err.Error()
+		return rep
+	}
+	st := &structure{t: newTree(objs), add: add}
+	if refuse := st.root(); refuse != "" {
+		rep.ReadError = refuse
+		return rep
+	}
+	hf, err := h5.Open(path)
+	if err != nil {
+		rep.ReadError = "cannot open as HDF5: " + err.Error()
+		return rep
+	}
+	st.readInt = intReaderFor(hf)
+	st.check()
+	st.unexpected()
+	hf.Close()
+	// Metadata view against the schema.
+	if view, err := recfile.MetadataView(path); err != nil {
+		readFailure(add, err, errorCount(raw), "metadata view")
+	} else {
+		for _, f := range CheckMetadata(view) {
+			f.Severity = opt.Rules.severity(f.Check)
+			f.HDF5Path = recfile.HDF5Path(view, f.JSONPath)
+			raw = append(raw, f)
+		}
+	}
+
+	// Content checks on the model.
+	if rf, err := recfile.Open(path); err != nil {
+		readFailure(add, err, errorCount(raw), "content")
+	} else {
+		raw = append(raw, CheckRecording(rf.Recording(), opt.Rules)...)
+		if err := rf.Close(); err != nil {
+			add("content.read", "/", "", "the file may be damaged", "closing the file: %v", err)
+		}
+	}
+
+	if opt.ChecksumScan {
+		faults := map[string]int{}
+		_, err := h5.VerifyChunks(path, func(c h5.ChunkFault) {
+			faults[c.Dataset]++
+			if faults[c.Dataset] > maxChunkFaults {
+				return
+			}
+			where := "chunk at " + offsetText(c.Offset)
+			if c.Offset == nil {
+				where = "dataset"
+			}
+			add("checksum.chunk", c.Dataset, "", "the stored bytes changed since writing (disk fault or tampering): restore the file from a copy and check its SHA-256",
+				"%s: %v", where, c.Err)
+		})
+		for ds, n := range faults {
+			if n > maxChunkFaults {
+				add("checksum.chunk", ds, "", "restore the file from a copy", "%d more damaged chunks not listed", n-maxChunkFaults)
+			}
+		}
+		if err != nil {
+			add("checksum.scan", "/", "", "the file may be damaged", "the chunk checksum scan failed: %v", err)
+		}
+	}
+	return rep
+}
+
+func errorCount(fs []Finding) int {
+	n := 0
+	for _, f := range fs {
+		if f.Severity == Error {
+			n++
+		}
+	}
+	return n
+}
+
+// readFailure turns a recfile error into a finding. When structural errors
+// (or schema errors) already explain it, it is a note that the later checks
+// did not run.
+func readFailure(add addFunc, err error, structErrors int, what string) {
+	obj, hint := "/", "the file may be damaged; the findings above say where"
+	var fe *recfile.FormatError
+	if errors.As(err, &fe) {
+		obj = fe.Object
+		if fe.Hint != "" {
+			hint = fe.Hint
+		}
+	}
+	var he *h5.Error
+	if obj == "/" && errors.As(err, &he) && he.Object != "" {
+		obj = he.Object
+	}
+	switch {
+	case errors.Is(err, recfile.ErrChecksum):
+		add("checksum.chunk", obj, "", "the stored bytes changed since writing: restore the file from a copy", "%s checks could not read the file: %v", what, err)
+	case structErrors > 0:
+		add("content.skipped", obj, "", hint, "%s checks did not run: %v", what, err)
+	default:
+		add("content.read", obj, "", hint, "%s checks could not read the file: %v", what, err)
+	}
+}
+
+func offsetText(off []int) string {
+	s := make([]string, len(off))
+	for i, v := range off {
+		s[i] = fmt.Sprint(v)
+	}
+	return "[" + strings.Join(s, ", ") + "]"
+}
+
+// intReaderFor reads whole integer datasets of an open file through h5.
+func intReaderFor(f *h5.File) intReader {
+	return func(p string) ([]int64, error) {
+		root, err := f.Root()
+		if err != nil {
+			return nil, err
+		}
+		defer root.Close()
+		d, err := root.OpenDataset(strings.TrimPrefix(p, "/"), 0)
+		if err != nil {
+			return nil, err
+		}
+		defer d.Close()
+		return d.Int64s()
+	}
+}
+
+// Files validates many files on workers goroutines (0: one per CPU),
+// carrying on past bad files, and returns the reports in paths order. done,
+// when not nil, is called after each file (serialised).
+func Files(paths []string, opt Options, workers int, done func(i int, r *Report)) []*Report {
+	reps := make([]*Report, len(paths))
+	batch.Run(len(paths), workers, func(i int) error {
+		reps[i] = File(paths[i], opt)
+		if reps[i].Failed() {
+			return errors.New("failed")
+		}
+		return nil
+	}, func(i int, _ error) {
+		if done != nil {
+			done(i, reps[i])
+		}
+	})
+	return reps
+}
