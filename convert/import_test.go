@@ -1,0 +1,131 @@
+package convert
+
+import (
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+
+	"muarc/recfile"
+	"muarc/record"
+	"muarc/synth"
+)
+
+// synthStudy writes the generator's plain-text exports of its small test
+// study into a temporary folder.
+func synthStudy(t *testing.T) (string, []*synth.Generated) {
+	t.Helper()
+	gens, err := synth.Generate(synth.TestConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	for _, g := range gens {
+		if err := g.WriteExports(dir); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return dir, gens
+}
+
+func TestImportSynthStudy(t *testing.T) {
+	dir, gens := synthStudy(t)
+	recs, err := FindRecordings(dir, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(recs) != len(gens) {
+		t.Fatalf("%d recordings found, %d generated", len(recs), len(gens))
+	}
+	out := filepath.Join(t.TempDir(), "r.h5")
+	rep, err := ImportRecording(recs[0].Inputs, out, recfile.WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := gens[0].Recording
+	if got.Subject.ID != want.Subject.ID || len(got.Trials) != len(want.Trials) {
+		t.Fatalf("subject %q trials %d", got.Subject.ID, len(got.Trials))
+	}
+	for ti, wt := range want.Trials {
+		gt := got.Trials[ti]
+		if gt.Name != wt.Name || len(gt.Arrays) != len(wt.Arrays) || gt.Force.SamplingRateHz != wt.Force.SamplingRateHz {
+			t.Fatalf("trial %d: %q arrays %d rate %v", ti, gt.Name, len(gt.Arrays), gt.Force.SamplingRateHz)
+		}
+		// Force was exported with 4 decimals: compare with strconv's reading
+		// of the same digits.
+		for k, v := range wt.Force.Values {
+			w, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'f', 4, 64), 64)
+			if gt.Force.Values[k] != w {
+				t.Fatalf("force[%d] %v want %v", k, gt.Force.Values[k], w)
+			}
+		}
+		for ai, wa := range wt.Arrays {
+			ga := gt.Arrays[ai]
+			if ga.Name != wa.Name || ga.SamplingRateHz != wa.SamplingRateHz || ga.SampleType != record.Float32 || len(ga.Channels) != len(wa.Channels) {
+				t.Fatalf("array %q rate %v type %s", ga.Name, ga.SamplingRateHz, ga.SampleType)
+			}
+			for c := range wa.Channels {
+				if ga.Channels[c] != wa.Channels[c] && !(ga.Channels[c].Label == wa.Channels[c].Label && math.IsNaN(ga.Channels[c].XMm)) {
+					t.Fatalf("channel %d: %+v want %+v", c, ga.Channels[c], wa.Channels[c])
+				}
+			}
+			rows, ch := wa.Samples.Shape()
+			gr, gc := ga.Samples.Shape()
+			if rows != gr || ch != gc {
+				t.Fatalf("shape %dx%d want %dx%d", gr, gc, rows, ch)
+			}
+			wv := make([]float64, rows*ch)
+			gv := make([]float32, rows*ch)
+			if err := wa.Samples.ReadFloat64(0, wv); err != nil {
+				t.Fatal(err)
+			}
+			if err := ga.Samples.ReadFloat32(0, gv); err != nil {
+				t.Fatal(err)
+			}
+			for i := range wv {
+				w, _ := strconv.ParseFloat(strconv.FormatFloat(wv[i], 'f', 2, 64), 32)
+				if gv[i] != float32(w) {
+					t.Fatalf("sample %d: %v want %v", i, gv[i], float32(w))
+				}
+			}
+			if len(ga.Decompositions) != len(wa.Decompositions) {
+				t.Fatalf("decompositions %d want %d", len(ga.Decompositions), len(wa.Decompositions))
+			}
+			for di, wd := range wa.Decompositions {
+				gd := ga.Decompositions[di]
+				if gd.Name != wd.Name || len(gd.Units) != len(wd.Units) || len(gd.ExtraColumns) != len(wd.ExtraColumns) {
+					t.Fatalf("decomposition %q units %d extra %d", gd.Name, len(gd.Units), len(gd.ExtraColumns))
+				}
+				for ui, wu := range wd.Units {
+					gu := gd.Units[ui]
+					if gu.ID != wu.ID || len(gu.Discharges) != len(wu.Discharges) {
+						t.Fatalf("unit %d: id %d, %d discharges want %d", ui, gu.ID, len(gu.Discharges), len(wu.Discharges))
+					}
+					for k := range wu.Discharges {
+						if gu.Discharges[k] != wu.Discharges[k] {
+							t.Fatalf("unit %d discharge %d: %d want %d", wu.ID, k, gu.Discharges[k], wu.Discharges[k])
+						}
+					}
+					w, _ := strconv.ParseFloat(strconv.FormatFloat(wu.Silhouette, 'f', 4, 64), 64)
+					if gu.Silhouette != w {
+						t.Fatalf("unit %d SIL %v want %v", wu.ID, gu.Silhouette, w)
+					}
+				}
+			}
+		}
+	}
+	if len(got.Provenance.Sources) == 0 || got.Provenance.History[len(got.Provenance.History)-1].Action != "import" {
+		t.Errorf("provenance %+v", got.Provenance)
+	}
+	if len(rep.Files) == 0 {
+		t.Error("empty report")
+	}
+	if _, err := os.Stat(out); err != nil {
+		t.Fatal(err)
+	}
+}

@@ -1,0 +1,517 @@
+package convert
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+
+	"gopkg.in/yaml.v3"
+
+	"muarc/record"
+	"muarc/validate"
+)
+
+// Sidecar is a metadata sidecar (a partial metadata view written by hand or
+// by an export) read from JSON or YAML.
+type Sidecar struct {
+	File string
+	// View is the decoded document.
+	View map[string]any
+	// lines maps JSON Pointers (RFC 6901) to their line and column in the
+	// source.
+	lines map[string][2]int
+}
+
+// SidecarError lists every problem of a sidecar, each with its JSON path
+// and its place in the file.
+type SidecarError struct {
+	File     string
+	Problems []*ParseError
+}
+
+func (e *SidecarError) Error() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "%s: %d problems in the metadata", e.File, len(e.Problems))
+	for _, p := range e.Problems {
+		b.WriteString("\n  " + p.Error())
+	}
+	return b.String()
+}
+
+// Unwrap gives the problems as errors (errors.As finds the first
+// ParseError).
+func (e *SidecarError) Unwrap() []error {
+	out := make([]error, len(e.Problems))
+	for i, p := range e.Problems {
+		out[i] = p
+	}
+	return out
+}
+
+// ReadSidecar reads and validates a metadata sidecar against the recording
+// JSON Schema (schema/recording.schema.json). Its format is JSON when the
+// file name ends in .json, else YAML.
+func ReadSidecar(path string) (*Sidecar, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
+	sc := &Sidecar{File: path, lines: map[string][2]int{}}
+	var v any
+	if strings.EqualFold(filepath.Ext(path), ".json") {
+		v, err = decodeJSONLines(data, sc.lines)
+		if err != nil {
+			line, col := offsetLine(data, jsonErrOffset(err, len(data)))
+			return nil, &ParseError{File: path, Line: line, Column: col, Msg: "not valid JSON: " + err.Error(), Hint: "check brackets, commas and quotes near this place"}
+		}
+	} else {
+		var root yaml.Node
+		if err := yaml.Unmarshal(data, &root); err != nil {
+			return nil, &ParseError{File: path, Line: yamlErrLine(err), Msg: "not valid YAML: " + err.Error(), Hint: "check the indentation near this line"}
+		}
+		if len(root.Content) == 0 {
+			return nil, perr(path, 1, 0, "write study, subject, session and trials", "empty metadata file")
+		}
+		v, err = yamlValue(root.Content[0], "", sc.lines)
+		if err != nil {
+			return nil, &ParseError{File: path, Msg: err.Error(), Hint: "write plain values: text, numbers, true/false, lists and maps"}
+		}
+	}
+	m, ok := v.(map[string]any)
+	if !ok {
+		return nil, perr(path, 1, 1, "the metadata is one object with study, subject, session and trials", "top level is not an object")
+	}
+	sc.View = m
+	se := &SidecarError{File: path}
+	for _, f := range validate.CheckMetadata(m) {
+		// A sidecar is a partial view: the sampling rates come from the
+		// signal files, so a missing one is not a problem of the sidecar.
+		if f.Check == "metadata.required" && strings.HasSuffix(f.JSONPath, "/sampling_rate_hz") {
+			continue
+		}
+		line, col := sc.Where(f.JSONPath)
+		msg := f.Message
+		if !strings.HasPrefix(msg, pointerOrTop(f.JSONPath)) {
+			msg = pointerOrTop(f.JSONPath) + ": " + msg
+		}
+		se.Problems = append(se.Problems, &ParseError{File: path, Line: line, Column: col, Msg: msg, Hint: f.Hint})
+	}
+	if len(se.Problems) > 0 {
+		return nil, se
+	}
+	return sc, nil
+}
+
+func pointerOrTop(p string) string {
+	if p == "" {
+		return "/"
+	}
+	return p
+}
+
+// Where gives the line and column of a JSON Pointer in the source; a path
+// that is not there (a missing member) gives the place of its nearest
+// ancestor.
+func (sc *Sidecar) Where(ptr string) (int, int) {
+	for {
+		if lc, ok := sc.lines[ptr]; ok {
+			return lc[0], lc[1]
+		}
+		i := strings.LastIndexByte(ptr, '/')
+		if i < 0 {
+			return 1, 1
+		}
+		ptr = ptr[:i]
+	}
+}
+
+func escapePtr(s string) string {
+	return strings.ReplaceAll(strings.ReplaceAll(s, "~", "~0"), "/", "~1")
+}
+
+// yamlValue turns a YAML node into plain values (strings, int64, float64,
+// bool, nil, []any, map[string]any), recording each node's line.
+func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int) (any, error) {
+	lines[ptr] = [2]int{n.Line, n.Column}
+	switch n.Kind {
+	case yaml.DocumentNode:
+		if len(n.Content) == 0 {
+			return nil, nil
+		}
+		return yamlValue(n.Content[0], ptr, lines)
+	case yaml.AliasNode:
+		return yamlValue(n.Alias, ptr, lines)
+	case yaml.MappingNode:
+		m := map[string]any{}
+		for i := 0; i+1 < len(n.Content); i += 2 {
+			k := n.Content[i].Value
+			if _, dup := m[k]; dup {
+				return nil, fmt.Errorf("line %d: key %q given twice", n.Content[i].Line, k)
+			}
+			v, err := yamlValue(n.Content[i+1], ptr+"/"+escapePtr(k), lines)
+			if err != nil {
+				return nil, err
+			}
+			m[k] = v
+		}
+		return m, nil
+	case yaml.SequenceNode:
+		out := make([]any, 0, len(n.Content))
+		for i, c := range n.Content {
+			v, err := yamlValue(c, ptr+"/"+strconv.Itoa(i), lines)
+			if err != nil {
+				return nil, err
+			}
+			out = append(out, v)
+		}
+		return out, nil
+	case yaml.ScalarNode:
+		switch n.ShortTag() {
+		case "!!int":
+			if i, err := strconv.ParseInt(strings.ReplaceAll(n.Value, "_", ""), 0, 64); err == nil {
+				return i, nil
+			}
+			var f float64
+			if err := n.Decode(&f); err == nil {
+				return f, nil
+			}
+		case "!!float":
+			var f float64
+			if err := n.Decode(&f); err != nil {
+				return nil, fmt.Errorf("line %d: %v", n.Line, err)
+			}
+			if math.IsNaN(f) || math.IsInf(f, 0) {
+				return nil, fmt.Errorf("line %d: %s is not a finite number; leave unknown values out", n.Line, n.Value)
+			}
+			return f, nil
+		case "!!bool":
+			var b bool
+			if err := n.Decode(&b); err == nil {
+				return b, nil
+			}
+		case "!!null":
+			return nil, nil
+		}
+		// Strings, and timestamps kept as the text written.
+		return n.Value, nil
+	}
+	return nil, fmt.Errorf("line %d: unsupported YAML node", n.Line)
+}
+
+// decodeJSONLines decodes JSON with integers kept as int64, recording the
+// line of every value.
+func decodeJSONLines(data []byte, lines map[string][2]int) (any, error) {
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.UseNumber()
+	v, err := jsonValue(dec, data, "", lines)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := dec.Token(); err != io.EOF {
+		return nil, fmt.Errorf("text after the end of the JSON value")
+	}
+	return v, nil
+}
+
+func jsonValue(dec *json.Decoder, data []byte, ptr string, lines map[string][2]int) (any, error) {
+	off := skipJSONSpace(data, int(dec.InputOffset()))
+	line, col := offsetLine(data, off)
+	lines[ptr] = [2]int{line, col}
+	tok, err := dec.Token()
+	if err != nil {
+		return nil, err
+	}
+	switch t := tok.(type) {
+	case json.Delim:
+		switch t {
+		case '{':
+			m := map[string]any{}
+			for dec.More() {
+				kt, err := dec.Token()
+				if err != nil {
+					return nil, err
+				}
+				k, _ := kt.(string)
+				if _, dup := m[k]; dup {
+					return nil, fmt.Errorf("key %q given twice", k)
+				}
+				v, err := jsonValue(dec, data, ptr+"/"+escapePtr(k), lines)
+				if err != nil {
+					return nil, err
+				}
+				m[k] = v
+			}
+			if _, err := dec.Token(); err != nil {
+				return nil, err
+			}
+			return m, nil
+		case '[':
+			out := []any{}
+			for i := 0; dec.More(); i++ {
+				v, err := jsonValue(dec, data, ptr+"/"+strconv.Itoa(i), lines)
+				if err != nil {
+					return nil, err
+				}
+				out = append(out, v)
+			}
+			if _, err := dec.Token(); err != nil {
+				return nil, err
+			}
+			return out, nil
+		}
+	case json.Number:
+		if i, err := t.Int64(); err == nil {
+			return i, nil
+		}
+		f, err := t.Float64()
+		if err != nil {
+			return nil, err
+		}
+		return f, nil
+	}
+	return tok, nil
+}
+
+// skipJSONSpace moves past blanks, ':' and ',' to the start of a value.
+func skipJSONSpace(data []byte, off int) int {
+	for off < len(data) {
+		switch data[off] {
+		case ' ', '\t', '\r', '\n', ':', ',':
+			off++
+		default:
+			return off
+		}
+	}
+	return off
+}
+
+// offsetLine gives the 1-based line and column of a byte offset.
+func offsetLine(data []byte, off int) (int, int) {
+	off = min(max(off, 0), len(data))
+	line := 1 + bytes.Count(data[:off], []byte{'\n'})
+	col := off - bytes.LastIndexByte(data[:off], '\n')
+	return line, col
+}
+
+func jsonErrOffset(err error, n int) int {
+	if se, ok := err.(*json.SyntaxError); ok {
+		return int(se.Offset)
+	}
+	if ue, ok := err.(*json.UnmarshalTypeError); ok {
+		return int(ue.Offset)
+	}
+	return n
+}
+
+func yamlErrLine(err error) int {
+	s := err.Error()
+	if i := strings.Index(s, "line "); i >= 0 {
+		j := i + 5
+		for j < len(s) && s[j] >= '0' && s[j] <= '9' {
+			j++
+		}
+		if n, err := strconv.Atoi(s[i+5 : j]); err == nil {
+			return n
+		}
+	}
+	return 0
+}
+
+// Apply copies the sidecar's metadata into rec: study, subject, session,
+// and per trial and array (matched by name, created when missing) their
+// attributes, channels and decomposition attributes. Members outside the
+// layout's names go to Extra.
+func (sc *Sidecar) Apply(rec *record.Recording) {
+	v := sc.View
+	if m, ok := v["study"].(map[string]any); ok {
+		s := &rec.Study
+		s.ID, s.Title, s.Description, s.Contact, s.License = str(m, "id"), str(m, "title"), str(m, "description"), str(m, "contact"), str(m, "license")
+		s.Extra = extras(m, "id", "title", "description", "contact", "license")
+	}
+	if m, ok := v["subject"].(map[string]any); ok {
+		s := &rec.Subject
+		s.ID, s.Name, s.BirthDate, s.AgeBand, s.Sex = str(m, "id"), str(m, "name"), str(m, "birth_date"), str(m, "age_band"), str(m, "sex")
+		s.AgeYears, s.HeightCm, s.MassKg = num(m, "age_years"), num(m, "height_cm"), num(m, "mass_kg")
+		s.DominantSide, s.Phone, s.Email, s.Notes = str(m, "dominant_side"), str(m, "phone"), str(m, "email"), str(m, "notes")
+		s.Extra = extras(m, "id", "name", "birth_date", "age_years", "age_band", "sex", "height_cm", "mass_kg", "dominant_side", "phone", "email", "notes")
+	}
+	if m, ok := v["session"].(map[string]any); ok {
+		s := &rec.Session
+		s.ID, s.Date, s.Site, s.Operator, s.Notes = str(m, "id"), str(m, "date"), str(m, "site"), str(m, "operator"), str(m, "notes")
+		s.Extra = extras(m, "id", "date", "site", "operator", "notes")
+	}
+	trials, _ := v["trials"].([]any)
+	for _, tv := range trials {
+		m, ok := tv.(map[string]any)
+		if !ok {
+			continue
+		}
+		t := trialNamed(rec, str(m, "name"))
+		t.Task, t.TargetPctMVC, t.MVC, t.MVCUnit = str(m, "task"), num(m, "target_pct_mvc"), num(m, "mvc"), str(m, "mvc_unit")
+		t.Profile = record.ForceProfile{Shape: str(m, "profile_shape"), RestS: num(m, "rest_s"), RampUpS: num(m, "ramp_up_s"),
+			PlateauS: num(m, "plateau_s"), RampDownS: num(m, "ramp_down_s")}
+		t.Notes = str(m, "notes")
+		t.Extra = extras(m, "name", "task", "target_pct_mvc", "mvc", "mvc_unit", "profile_shape", "rest_s", "ramp_up_s", "plateau_s", "ramp_down_s", "notes", "force", "force_target", "arrays")
+		arrays, _ := m["arrays"].([]any)
+		for _, av := range arrays {
+			am, ok := av.(map[string]any)
+			if !ok {
+				continue
+			}
+			a := arrayNamed(t, str(am, "name"))
+			a.Muscle, a.Side = str(am, "muscle"), str(am, "side")
+			a.Rows, a.Columns, a.ADCBits = int(num0(am, "rows")), int(num0(am, "columns")), int(num0(am, "adc_bits"))
+			a.IEDMm, a.Gain, a.FilterLowHz, a.FilterHighHz = num(am, "ied_mm"), num(am, "gain"), num(am, "filter_low_hz"), num(am, "filter_high_hz")
+			a.Montage, a.Reference = str(am, "montage"), str(am, "reference")
+			if r := num0(am, "sampling_rate_hz"); r > 0 {
+				a.SamplingRateHz = r
+			}
+			if _, ok := am["start_s"]; ok {
+				a.StartS = num0(am, "start_s")
+			}
+			if u := str(am, "unit"); u != "" {
+				a.Unit = u
+			}
+			a.Extra = extras(am, "name", "muscle", "side", "rows", "columns", "ied_mm", "gain", "adc_bits", "filter_low_hz", "filter_high_hz",
+				"montage", "reference", "sampling_rate_hz", "start_s", "unit", "sample_type", "samples", "channel_count", "channels", "decompositions")
+			if chs, ok := am["channels"].([]any); ok {
+				a.Channels = a.Channels[:0]
+				for _, cv := range chs {
+					cm, _ := cv.(map[string]any)
+					c := record.Channel{Label: str(cm, "label"), Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: num(cm, "x_mm"), YMm: num(cm, "y_mm"), Usable: true}
+					if _, ok := cm["row"]; ok {
+						c.Row = int(num0(cm, "row"))
+					}
+					if _, ok := cm["column"]; ok {
+						c.Column = int(num0(cm, "column"))
+					}
+					if u, ok := cm["usable"].(bool); ok {
+						c.Usable = u
+					}
+					a.Channels = append(a.Channels, c)
+				}
+			}
+			decs, _ := am["decompositions"].([]any)
+			for _, dv := range decs {
+				dm, ok := dv.(map[string]any)
+				if !ok {
+					continue
+				}
+				d := decompNamed(a, str(dm, "name"))
+				d.Method, d.MethodVersion, d.Notes = str(dm, "method"), str(dm, "method_version"), str(dm, "notes")
+				d.EditedByHand, _ = dm["edited_by_hand"].(bool)
+				d.Parameters = "{}"
+				if p, ok := dm["parameters"]; ok && p != nil {
+					if b, err := json.Marshal(p); err == nil {
+						d.Parameters = string(b)
+					}
+				}
+			}
+		}
+	}
+}
+
+func str(m map[string]any, k string) string {
+	s, _ := m[k].(string)
+	return s
+}
+
+func num0(m map[string]any, k string) float64 {
+	switch x := m[k].(type) {
+	case int64:
+		return float64(x)
+	case float64:
+		return x
+	case int:
+		return float64(x)
+	}
+	return 0
+}
+
+func num(m map[string]any, k string) float64 {
+	if _, ok := m[k]; !ok {
+		return math.NaN()
+	}
+	switch m[k].(type) {
+	case int64, float64, int:
+		return num0(m, k)
+	}
+	return math.NaN()
+}
+
+// extras collects members not named in known, as record.Extra values.
+func extras(m map[string]any, known ...string) record.Extra {
+	skip := map[string]bool{}
+	for _, k := range known {
+		skip[k] = true
+	}
+	var keys []string
+	for k := range m {
+		if !skip[k] {
+			keys = append(keys, k)
+		}
+	}
+	if len(keys) == 0 {
+		return nil
+	}
+	sort.Strings(keys)
+	ex := record.Extra{}
+	for _, k := range keys {
+		switch x := m[k].(type) {
+		case string, float64, int64, bool:
+			ex[k] = x
+		case []any:
+			fs := make([]float64, 0, len(x))
+			for _, e := range x {
+				switch y := e.(type) {
+				case float64:
+					fs = append(fs, y)
+				case int64:
+					fs = append(fs, float64(y))
+				}
+			}
+			ex[k] = fs
+		}
+	}
+	return ex
+}
+
+func trialNamed(rec *record.Recording, name string) *record.Trial {
+	for i := range rec.Trials {
+		if rec.Trials[i].Name == name {
+			return &rec.Trials[i]
+		}
+	}
+	rec.Trials = append(rec.Trials, record.Trial{Name: name, TargetPctMVC: math.NaN(), MVC: math.NaN(),
+		Profile: record.ForceProfile{RestS: math.NaN(), RampUpS: math.NaN(), PlateauS: math.NaN(), RampDownS: math.NaN()}})
+	return &rec.Trials[len(rec.Trials)-1]
+}
+
+func arrayNamed(t *record.Trial, name string) *record.Array {
+	for i := range t.Arrays {
+		if t.Arrays[i].Name == name {
+			return &t.Arrays[i]
+		}
+	}
+	n := math.NaN()
+	t.Arrays = append(t.Arrays, record.Array{Name: name, IEDMm: n, Gain: n, FilterLowHz: n, FilterHighHz: n})
+	return &t.Arrays[len(t.Arrays)-1]
+}
+
+func decompNamed(a *record.Array, name string) *record.Decomposition {
+	for i := range a.Decompositions {
+		if a.Decompositions[i].Name == name {
+			return &a.Decompositions[i]
+		}
+	}
+	a.Decompositions = append(a.Decompositions, record.Decomposition{Name: name, Parameters: "{}"})
+	return &a.Decompositions[len(a.Decompositions)-1]
+}
