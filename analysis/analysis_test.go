@@ -150,10 +150,13 @@ func TestSmoothedRateSteadyTrain(t *testing.T) {
 		times = append(times, 1+float64(k)/20)
 	}
 	r := SmoothedRatePPS(times, 0, 12, 0.01, SmoothedRateWindowS)
-	// A unit-area window over a steady 20 pps train gives 20 pps away from
-	// the ends (the Hann window's sum over 8 impulses 50 ms apart).
-	for _, ts := range []float64{3, 5.02, 8.5} {
-		near(t, "smoothed rate", r[int(math.Round(ts/0.01))], 20, 0.2)
+	// A unit-area Hann window 0.4 s long over a steady 20 pps train (8
+	// impulses per window) gives 20 pps away from the ends: the sum of
+	// (1 + cos(2π(u+k/20)/0.4))/0.4 over the 8 impulses is 8/0.4 = 20, the
+	// cosines cancelling over a whole period (common practice for smoothed
+	// rates; the identity is the sum of the 8th roots of unity).
+	for _, ts := range []float64{3, 5.02, 8.503} {
+		near(t, "smoothed rate", r[int(math.Round(ts/0.01))], 20, 1e-9)
 	}
 	near(t, "before the train", r[50], 0, 1e-12)
 }

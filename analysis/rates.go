@@ -70,37 +70,24 @@ const SmoothedRateWindowS = 0.4
 
 // SmoothedRatePPS returns a discharge rate curve in pulses per second on the
 // time grid t0, t0+stepS, ... < t1: the discharge train (one unit impulse per
-// discharge, placed on the nearest grid point) convolved with a Hann window
-// windowS long normalised to unit area. A train of steady rate r gives r
-// away from its ends.
+// discharge time) convolved with a Hann window windowS long normalised to
+// unit area, h(u) = (1 + cos(2πu/windowS)) / windowS for |u| <= windowS/2,
+// evaluated at the grid times exactly (the grid step does not move the
+// discharges). A steady train of rate r gives r away from its ends (exactly
+// so when windowS*r is a whole number of two or more).
 func SmoothedRatePPS(timesS []float64, t0, t1, stepS, windowS float64) []float64 {
-	if stepS <= 0 || t1 <= t0 {
+	if stepS <= 0 || t1 <= t0 || windowS <= 0 {
 		return nil
 	}
 	n := int(math.Ceil((t1 - t0) / stepS))
 	out := make([]float64, n)
-	half := int(math.Round(windowS / stepS / 2))
-	if half < 1 {
-		half = 1
-	}
-	// Hann window of 2*half+1 points, zero at both ends, scaled so that its
-	// sum times stepS is one (unit area in seconds).
-	w := make([]float64, 2*half+1)
-	var sum float64
-	for k := range w {
-		w[k] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(k)/float64(2*half))
-		sum += w[k]
-	}
-	for k := range w {
-		w[k] /= sum * stepS
-	}
+	half := windowS / 2
 	for _, t := range timesS {
-		c := int(math.Round((t - t0) / stepS))
-		for k, wk := range w {
-			j := c + k - half
-			if j >= 0 && j < n {
-				out[j] += wk
-			}
+		a := int(math.Ceil((t - half - t0) / stepS))
+		b := int(math.Floor((t + half - t0) / stepS))
+		for j := max(a, 0); j <= b && j < n; j++ {
+			u := t0 + float64(j)*stepS - t
+			out[j] += (1 + math.Cos(2*math.Pi*u/windowS)) / windowS
 		}
 	}
 	return out

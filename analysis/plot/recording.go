@@ -16,8 +16,11 @@ type Named struct {
 	Name    string
 	Caption string
 	// Kind is "overview", "rates" or "muaps".
-	Kind   string
-	Figure *Figure
+	Kind string
+	// Templates says where a MUAP grid's templates came from (the
+	// Options.Templates answer, "stored" by default).
+	Templates string
+	Figure    *Figure
 }
 
 // Options choose what RecordingFigures draws.
@@ -25,9 +28,10 @@ type Options struct {
 	// Decomposition picks, per array, which decomposition to draw; nil
 	// draws every decomposition.
 	Decomposition func(arr *record.Array) []int
-	// Templates gives the MUAP templates of a decomposition; nil uses the
-	// stored ones (Decomposition.MUAPs) and draws no grid without them.
-	Templates func(ti, ai, di int) *analysis.Templates
+	// Templates gives the MUAP templates of a decomposition and says where
+	// they came from; nil uses the stored ones (Decomposition.MUAPs) and
+	// draws no grid without them.
+	Templates func(ti, ai, di int) (*analysis.Templates, string)
 }
 
 // Notes say what a figure set left out.
@@ -89,8 +93,9 @@ func RecordingFigures(rec *record.Recording, st []analysis.DecompositionStats, o
 					levels[arr.Name] = append(levels[arr.Name], Level{Stats: ds, Label: label})
 				}
 				var tp *analysis.Templates
+				src := "stored"
 				if opt.Templates != nil {
-					tp = opt.Templates(ti, ai, di)
+					tp, src = opt.Templates(ti, ai, di)
 				} else if dec.MUAPs != nil {
 					tp = StoredTemplates(dec)
 				}
@@ -98,7 +103,7 @@ func RecordingFigures(rec *record.Recording, st []analysis.DecompositionStats, o
 					notes = append(notes, fmt.Sprintf("trial %s array %s decomposition %s: no MUAP templates to draw", tr.Name, arr.Name, dec.Name))
 					continue
 				}
-				out = append(out, Named{Name: stem(tr.Name, arr.Name, dec.Name, "muaps"), Kind: "muaps",
+				out = append(out, Named{Name: stem(tr.Name, arr.Name, dec.Name, "muaps"), Kind: "muaps", Templates: src,
 					Caption: fmt.Sprintf("MUAP templates of trial %s, array %s, decomposition %s, on the electrode grid (rows and columns as in the file); cell shade: peak-to-peak amplitude relative to the unit's largest.", tr.Name, arr.Name, dec.Name),
 					Figure:  MUAPGrid(fmt.Sprintf("%s / %s / %s", tr.Name, arr.Name, dec.Name), arr, tp)})
 			}

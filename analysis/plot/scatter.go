@@ -27,6 +27,11 @@ type Level struct {
 // their points.
 func RateThreshold(levels []Level) *Figure {
 	p := gplot.New()
+	// The legend goes in a strip below the plot, where it hides no point.
+	leg := gplot.NewLegend()
+	leg.Left = true
+	leg.Top = true
+	leg.Padding = vg.Points(2)
 	p.Title.Text = "Discharge rate against recruitment threshold"
 	p.X.Label.Text = "recruitment threshold (% MVC)"
 	p.Y.Label.Text = "discharge rate (pps)"
@@ -71,20 +76,23 @@ func RateThreshold(levels []Level) *Figure {
 					label += fmt.Sprintf(", slope %.2f pps/%%MVC, R² %.2f", fit.Slope, fit.R2)
 				}
 			}
-			p.Legend.Add(label, s)
+			leg.Add(label, s)
 		}
 		series(plat, draw.CircleGlyph{}, lv.Stats.PlateauRateFit, false, "plateau")
 		series(init, draw.TriangleGlyph{}, lv.Stats.InitialRateFit, true, "initial")
 	}
-	// Bottom left: low thresholds have the high rates, so that corner is
-	// usually empty.
-	p.Legend.Left = true
-	p.Legend.XOffs = vg.Points(8)
-	p.Legend.YOffs = vg.Points(4)
-	// Room between entries for a browser's substitute face in SVG.
-	p.Legend.Padding = vg.Points(2)
 	p.Y.Min = 0
-	return &Figure{Width: 8 * vg.Inch, Height: 6 * vg.Inch, draw: func(dc draw.Canvas) {
-		p.Draw(draw.Crop(dc, vg.Points(4), -vg.Points(10), vg.Points(4), -vg.Points(4)))
+	entries := 0
+	for _, lv := range levels {
+		entries += 2
+		_ = lv
+	}
+	legH := vg.Points(14)*vg.Length(entries) + vg.Points(10)
+	plotH := 5 * vg.Inch
+	return &Figure{Width: 8 * vg.Inch, Height: plotH + legH, draw: func(dc draw.Canvas) {
+		top := draw.Crop(dc, vg.Points(4), -vg.Points(10), legH, -vg.Points(4))
+		p.Draw(top)
+		bottom := draw.Crop(dc, vg.Points(60), 0, 0, -(plotH + vg.Points(4)))
+		leg.Draw(bottom)
 	}}
 }
