@@ -119,24 +119,33 @@ func (s *emgSource) fill(start, rows int, dst []float64) {
 	}
 	// Noise: value k (linear index row*channels+channel) takes 16 bits of
 	// the counter-based hash of k/4.
-	base := uint64(start) * uint64(ch)
-	var h uint64
-	for i := range dst {
-		k := base + uint64(i)
-		if i == 0 || k&3 == 0 {
-			h = mix64(s.key + (k>>2)*golden)
-		}
-		g := normTable[(h>>(16*(k&3)))&0xffff]
-		v := dst[i] + s.noiseSD[i%ch]*float64(g)
-		if s.quant > 0 {
-			v = math.Round(v*s.quant) / s.quant
-			if v == 0 {
-				v = 0 // no negative zero
+	k := uint64(start) * uint64(ch)
+	h := mix64(s.key + (k>>2)*golden)
+	q := s.quant
+	sd := s.noiseSD[:ch]
+	for r := range rows {
+		row := dst[r*ch : (r+1)*ch]
+		for c := range row {
+			if k&3 == 0 {
+				h = mix64(s.key + (k>>2)*golden)
 			}
+			v := row[c] + sd[c]*float64(normTable[(h>>(16*(k&3)))&0xffff])
+			if q > 0 {
+				// Round to a multiple of 1/q (half to even; magic-number
+				// rounding, exact for |v q| < 2^51). The division makes
+				// the value the double nearest to n/q, so its decimal text
+				// reads back as the same double.
+				v = ((v*q + roundMagic) - roundMagic) / q
+			}
+			row[c] = v
+			k++
 		}
-		dst[i] = v
 	}
 }
+
+// roundMagic is 1.5 x 2^52: adding and subtracting it rounds a float64 to
+// an integer (half to even).
+const roundMagic = 6755399441055744.0
 
 // golden is 2^64 / phi, the splitmix64 increment.
 const golden = 0x9e3779b97f4a7c15
