@@ -213,6 +213,12 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 		}
 	}
 	dur := float64(g.Samples) / g.RateHz
+	if base := headerIndexBase(lay.header); base >= 0 && opt.TimeBase == "" {
+		headerUnit = "samples"
+		if opt.FirstIndex < 0 {
+			opt.FirstIndex = base
+		}
+	}
 	switch {
 	case dc.Shape == ShapeMatrix:
 		dc.TimeBase, dc.TimeBaseWhy = "samples", "a pulse-train matrix: row k is sample k"
@@ -398,4 +404,19 @@ func allNumbers(cells []string) bool {
 		}
 	}
 	return true
+}
+
+// headerIndexBase finds a "(0-based)" or "(1-based)" mark in a header: 0 or
+// 1, -1 when there is none.
+func headerIndexBase(h []string) int {
+	for _, c := range h {
+		_, u, _ := splitLabelUnit(c)
+		switch strings.ToLower(u) {
+		case "0-based":
+			return 0
+		case "1-based":
+			return 1
+		}
+	}
+	return -1
 }

@@ -1,0 +1,417 @@
+package convert
+
+import (
+	"bufio"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"muarc/internal/atomicfile"
+	"muarc/recfile"
+	"muarc/record"
+)
+
+// ExportOptions control Export.
+type ExportOptions struct {
+	// Dir is the output folder; files go to Dir/<trial>/ as the built-in
+	// profile names them, so that `muarc import` reads them back.
+	Dir string
+	// Format is "csv" (default), "tsv" or "json" (discharges, units and
+	// metadata only).
+	Format string
+	// Shape is the discharge shape: ShapeLong (default), ShapeColumns,
+	// ShapeLines or ShapeMatrix.
+	Shape     string
+	Overwrite bool
+}
+
+// What can be exported.
+var ExportKinds = []string{"signals", "discharges", "units", "metadata"}
+
+// Export writes the chosen parts of a muarc file as text and returns the
+// files written. Every number is written with the shortest digits that read
+// back to the same binary value, so an import of the export gives the same
+// recording. Each file is written atomically.
+func Export(path string, what []string, opt ExportOptions) ([]string, error) {
+	switch opt.Format {
+	case "":
+		opt.Format = "csv"
+	case "csv", "tsv", "json":
+	default:
+		return nil, fmt.Errorf("--format %q: want csv, tsv or json", opt.Format)
+	}
+	switch opt.Shape {
+	case "":
+		opt.Shape = ShapeLong
+	case ShapeLong, ShapeColumns, ShapeLines, ShapeMatrix:
+	default:
+		return nil, fmt.Errorf("--shape %q: want long, columns, lines or matrix", opt.Shape)
+	}
+	f, err := recfile.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	rec := f.Recording()
+	var out []string
+	ext := "." + opt.Format
+	delim := byte(',')
+	if opt.Format == "tsv" {
+		delim = '\t'
+	}
+	emit := func(rel string, fill func(w *bufio.Writer) error) error {
+		p := filepath.Join(opt.Dir, filepath.FromSlash(rel))
+		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+			return err
+		}
+		err := atomicfile.Write(p, opt.Overwrite, func(fh *os.File) error {
+			w := bufio.NewWriterSize(fh, 1<<20)
+			if err := fill(w); err != nil {
+				return err
+			}
+			return w.Flush()
+		})
+		if err == nil {
+			out = append(out, p)
+		}
+		return err
+	}
+	for _, k := range what {
+		switch k {
+		case "metadata":
+			view, err := recfile.MetadataView(path)
+			if err != nil {
+				return out, err
+			}
+			b, err := json.MarshalIndent(view, "", "  ")
+			if err != nil {
+				return out, err
+			}
+			if err := emit("metadata.json", func(w *bufio.Writer) error { _, err := w.Write(append(b, '\n')); return err }); err != nil {
+				return out, err
+			}
+		case "signals":
+			if opt.Format == "json" {
+				return out, fmt.Errorf("signals are exported as csv or tsv, not json")
+			}
+			for ti := range rec.Trials {
+				t := &rec.Trials[ti]
+				if t.Force.Present() {
+					if err := emit(t.Name+"/force"+ext, func(w *bufio.Writer) error { return writeForce(w, t, delim) }); err != nil {
+						return out, err
+					}
+				}
+				for ai := range t.Arrays {
+					a := &t.Arrays[ai]
+					if err := emit(t.Name+"/emg_"+a.Name+ext, func(w *bufio.Writer) error { return writeEMG(w, a, delim) }); err != nil {
+						return out, err
+					}
+				}
+			}
+		case "discharges", "units":
+			for ti := range rec.Trials {
+				t := &rec.Trials[ti]
+				for ai := range t.Arrays {
+					a := &t.Arrays[ai]
+					for di := range a.Decompositions {
+						d := &a.Decompositions[di]
+						rel := t.Name + "/" + k + "_" + a.Name + "_" + d.Name + ext
+						var fill func(w *bufio.Writer) error
+						switch {
+						case k == "units" && opt.Format == "json":
+							fill = func(w *bufio.Writer) error { return unitsJSON(w, d) }
+						case k == "units":
+							fill = func(w *bufio.Writer) error { return writeUnits(w, d, delim) }
+						case opt.Format == "json":
+							fill = func(w *bufio.Writer) error { return dischargesJSON(w, d, a) }
+						default:
+							n, _ := a.Samples.Shape()
+							fill = func(w *bufio.Writer) error { return writeDischarges(w, d, opt.Shape, n, delim) }
+						}
+						if err := emit(rel, fill); err != nil {
+							return out, err
+						}
+					}
+				}
+			}
+		default:
+			return out, fmt.Errorf("--what %q: want signals, discharges, units or metadata", k)
+		}
+	}
+	return out, nil
+}
+
+func fmt64(b []byte, v float64) []byte {
+	if math.IsNaN(v) {
+		return append(b, "NaN"...)
+	}
+	return strconv.AppendFloat(b, v, 'g', -1, 64)
+}
+
+func header(w *bufio.Writer, kv ...string) {
+	for i := 0; i+1 < len(kv); i += 2 {
+		w.WriteString(kv[i] + ": " + kv[i+1] + "\n")
+	}
+	w.WriteString("\n")
+}
+
+func bracket(label, unit string) string {
+	if unit == "" {
+		return label
+	}
+	return label + " [" + unit + "]"
+}
+
+func writeForce(w *bufio.Writer, t *record.Trial, d byte) error {
+	f, tg := t.Force, t.ForceTarget
+	header(w, "sampling rate", strconv.FormatFloat(f.SamplingRateHz, 'g', -1, 64)+" Hz", "start", strconv.FormatFloat(f.StartS, 'g', -1, 64)+" s")
+	w.WriteString("time [s]" + string(d) + bracket("force", f.Unit))
+	hasT := tg.Present() && len(tg.Values) == len(f.Values)
+	if hasT {
+		w.WriteString(string(d) + bracket("target", tg.Unit))
+	}
+	w.WriteByte('\n')
+	var b []byte
+	for k, v := range f.Values {
+		b = strconv.AppendFloat(b[:0], f.StartS+float64(k)/f.SamplingRateHz, 'f', -1, 64)
+		b = append(b, d)
+		b = fmt64(b, v)
+		if hasT {
+			b = append(b, d)
+			b = fmt64(b, tg.Values[k])
+		}
+		b = append(b, '\n')
+		w.Write(b)
+	}
+	return nil
+}
+
+func writeEMG(w *bufio.Writer, a *record.Array, d byte) error {
+	rows, ch := a.Samples.Shape()
+	header(w, "sampling rate", strconv.FormatFloat(a.SamplingRateHz, 'g', -1, 64)+" Hz", "start", strconv.FormatFloat(a.StartS, 'g', -1, 64)+" s",
+		"channels", strconv.Itoa(ch), "samples", strconv.Itoa(rows))
+	w.WriteString("time [s]")
+	for _, c := range a.Channels {
+		if strings.ContainsAny(c.Label, ",;\t[]()\"") {
+			return fmt.Errorf("channel label %q cannot be written in a header", c.Label)
+		}
+		w.WriteString(string(d) + bracket(c.Label, a.Unit))
+	}
+	w.WriteByte('\n')
+	const band = 4096
+	f64 := a.SampleType == record.Float64
+	var b32 []float32
+	var b64 []float64
+	if f64 {
+		b64 = make([]float64, band*ch)
+	} else {
+		b32 = make([]float32, band*ch)
+	}
+	var b []byte
+	for r0 := 0; r0 < rows; r0 += band {
+		n := min(band, rows-r0)
+		var err error
+		if f64 {
+			err = a.Samples.ReadFloat64(r0, b64[:n*ch])
+		} else {
+			err = a.Samples.ReadFloat32(r0, b32[:n*ch])
+		}
+		if err != nil {
+			return err
+		}
+		for r := 0; r < n; r++ {
+			b = strconv.AppendFloat(b[:0], a.StartS+float64(r0+r)/a.SamplingRateHz, 'f', -1, 64)
+			for c := 0; c < ch; c++ {
+				b = append(b, d)
+				if f64 {
+					b = fmt64(b, b64[r*ch+c])
+				} else if v := b32[r*ch+c]; v != v {
+					b = append(b, "NaN"...)
+				} else {
+					b = strconv.AppendFloat(b, float64(v), 'g', -1, 32)
+				}
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	}
+	return nil
+}
+
+func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, samples int, d byte) error {
+	ds := string(d)
+	var b []byte
+	switch shape {
+	case ShapeLong:
+		w.WriteString("unit" + ds + "sample (0-based)\n")
+		for _, u := range dc.Units {
+			for _, k := range u.Discharges {
+				b = strconv.AppendInt(b[:0], u.ID, 10)
+				b = append(b, d)
+				b = strconv.AppendInt(b, k, 10)
+				b = append(b, '\n')
+				w.Write(b)
+			}
+		}
+	case ShapeLines:
+		for _, u := range dc.Units {
+			b = strconv.AppendInt(b[:0], u.ID, 10)
+			for _, k := range u.Discharges {
+				b = append(b, d)
+				b = strconv.AppendInt(b, k, 10)
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	case ShapeColumns:
+		longest := 0
+		for i, u := range dc.Units {
+			if i > 0 {
+				w.WriteString(ds)
+			}
+			w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " (0-based)")
+			longest = max(longest, len(u.Discharges))
+		}
+		w.WriteByte('\n')
+		for r := 0; r < longest; r++ {
+			b = b[:0]
+			for i, u := range dc.Units {
+				if i > 0 {
+					b = append(b, d)
+				}
+				if r < len(u.Discharges) {
+					b = strconv.AppendInt(b, u.Discharges[r], 10)
+				}
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	case ShapeMatrix:
+		for i, u := range dc.Units {
+			if i > 0 {
+				w.WriteString(ds)
+			}
+			w.WriteString("unit " + strconv.FormatInt(u.ID, 10))
+		}
+		w.WriteByte('\n')
+		pos := make([]int, len(dc.Units))
+		for r := 0; r < samples; r++ {
+			b = b[:0]
+			for i, u := range dc.Units {
+				if i > 0 {
+					b = append(b, d)
+				}
+				c := byte('0')
+				for pos[i] < len(u.Discharges) && u.Discharges[pos[i]] == int64(r) {
+					c = '1'
+					pos[i]++
+				}
+				b = append(b, c)
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	}
+	return nil
+}
+
+var fieldHeads = map[string]string{
+	FieldSilhouette: "silhouette", FieldPNR: "pnr_db [dB]", FieldAccuracy: "accuracy_pct [%]", FieldISICoV: "isi_cov",
+	FieldRecruit: "recruit_pct_mvc [%]", FieldDerecruit: "derecruit_pct_mvc [%]", FieldInitialRate: "initial_rate_pps [/s]", FieldMeanRate: "mean_rate_pps [/s]",
+}
+
+func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
+	ds := string(d)
+	w.WriteString("unit")
+	for _, f := range unitFields {
+		w.WriteString(ds + fieldHeads[f])
+	}
+	for _, c := range dc.ExtraColumns {
+		w.WriteString(ds + bracket(c.Name, c.Unit))
+	}
+	w.WriteByte('\n')
+	var b []byte
+	for i := range dc.Units {
+		u := &dc.Units[i]
+		b = strconv.AppendInt(b[:0], u.ID, 10)
+		for _, f := range unitFields {
+			b = append(b, d)
+			if v := getField(u, f); !math.IsNaN(v) {
+				b = strconv.AppendFloat(b, v, 'g', -1, 64)
+			}
+		}
+		for _, c := range dc.ExtraColumns {
+			b = append(b, d)
+			switch {
+			case c.Values != nil:
+				if v := c.Values[i]; !math.IsNaN(v) {
+					b = strconv.AppendFloat(b, v, 'g', -1, 64)
+				}
+			case c.Text != nil:
+				s := c.Text[i]
+				if strings.ContainsAny(s, ds+"\"\n") {
+					if strings.ContainsAny(s, "\"\n") {
+						return fmt.Errorf("unit %d column %s: text %q cannot be written in a delimited file; use --format json", u.ID, c.Name, s)
+					}
+					s = `"` + s + `"`
+				}
+				b = append(b, s...)
+			}
+		}
+		b = append(b, '\n')
+		w.Write(b)
+	}
+	return nil
+}
+
+func unitsJSON(w *bufio.Writer, dc *record.Decomposition) error {
+	rows := make([]map[string]any, len(dc.Units))
+	for i := range dc.Units {
+		u := &dc.Units[i]
+		m := map[string]any{"id": u.ID, "discharge_count": len(u.Discharges)}
+		for _, f := range unitFields {
+			if v := getField(u, f); !math.IsNaN(v) {
+				m[f] = v
+			}
+		}
+		for _, c := range dc.ExtraColumns {
+			if c.Values != nil && !math.IsNaN(c.Values[i]) {
+				m[c.Name] = c.Values[i]
+			} else if c.Text != nil {
+				m[c.Name] = c.Text[i]
+			}
+		}
+		rows[i] = m
+	}
+	return writeJSON(w, rows)
+}
+
+func dischargesJSON(w *bufio.Writer, dc *record.Decomposition, a *record.Array) error {
+	type unit struct {
+		ID      int64   `json:"id"`
+		Samples []int64 `json:"samples"`
+	}
+	out := struct {
+		RateHz float64 `json:"sampling_rate_hz"`
+		StartS float64 `json:"start_s"`
+		Units  []unit  `json:"units"`
+	}{a.SamplingRateHz, a.StartS, nil}
+	for _, u := range dc.Units {
+		s := u.Discharges
+		if s == nil {
+			s = []int64{}
+		}
+		out.Units = append(out.Units, unit{u.ID, s})
+	}
+	return writeJSON(w, out)
+}
+
+func writeJSON(w *bufio.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
