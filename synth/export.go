@@ -369,6 +369,9 @@ func sidecar(r *record.Recording) obj {
 			ao.add("filter_high_hz", a.FilterHighHz)
 			ao.add("montage", a.Montage)
 			ao.add("reference", a.Reference)
+			ao.add("sampling_rate_hz", a.SamplingRateHz)
+			ao.add("start_s", a.StartS)
+			ao.add("unit", a.Unit)
 			ao.extra(a.Extra)
 			chans := []obj{}
 			for _, c := range a.Channels {

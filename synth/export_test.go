@@ -11,6 +11,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"muarc/schema"
 )
 
 // readTable reads an export: the "key: value" block up to the blank line
@@ -237,5 +239,44 @@ print(e.shape[0], e.shape[1], repr(float(e[:, 1:].sum())), repr(float(e[:, 0].ma
 	}
 	if rows != n || cols != ch+1 || math.Abs(esum-want) > 1e-6*float64(len(vals)) || tmax != float64(n-1)/1024 || math.Abs(fsum-wantF) > 1e-6*float64(n) {
 		t.Fatalf("numpy read %d x %d, sum %v (want %v), last time %v, force sum %v (want %v)", rows, cols, esum, want, tmax, fsum, wantF)
+	}
+}
+
+// TestSidecarValidatesAgainstSchema checks metadata.json against the
+// layout's JSON Schema with python3-jsonschema (Debian; Draft7Validator, a
+// second, general-purpose implementation of JSON Schema draft-07).
+func TestSidecarValidatesAgainstSchema(t *testing.T) {
+	py := "/usr/bin/python3"
+	if err := exec.Command(py, "-c", "import jsonschema").Run(); err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatalf("CI: %s with jsonschema is needed (apt-get install python3-jsonschema): %v", py, err)
+		}
+		t.Skipf("%s with jsonschema not available: %v", py, err)
+	}
+	g := generate(t, TestConfig())[0]
+	dir := t.TempDir()
+	if err := g.WriteExports(dir); err != nil {
+		t.Fatal(err)
+	}
+	sch := filepath.Join(dir, "schema.json")
+	if err := os.WriteFile(sch, []byte(schema.RecordingSchema), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	meta := filepath.Join(g.ExportDir(dir), "metadata.json")
+	script := `import sys, json, jsonschema
+v = jsonschema.Draft7Validator(json.load(open(sys.argv[1])))
+doc = json.load(open(sys.argv[2]))
+errs = [list(e.absolute_path) + [e.message] for e in v.iter_errors(doc)]
+print(len(errs), errs[:5])
+# A control: the sidecar without its trials must fail.
+del doc["trials"]
+print(len(list(v.iter_errors(doc))))`
+	out, err := exec.Command(py, "-c", script, sch, meta).CombinedOutput()
+	if err != nil {
+		t.Fatalf("jsonschema: %v\n%s", err, out)
+	}
+	lines := strings.Split(strings.TrimSpace(string(out)), "\n")
+	if len(lines) != 2 || !strings.HasPrefix(lines[0], "0 ") || lines[1] == "0" {
+		t.Fatalf("sidecar against the schema:\n%s", out)
 	}
 }
