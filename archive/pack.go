@@ -285,7 +285,11 @@ func (p *packer) run() (*PackResult, error) {
 	}
 	if n := len(p.res.Refused()); n > 0 {
 		hint := ""
-		if folder {
+		if folder && p.res.Hashed+p.res.Reused == 0 {
+			// Nothing was copied: leave no staging folder behind.
+			p.cache.close()
+			os.RemoveAll(p.staging)
+		} else if folder {
 			hint = fmt.Sprintf("; what was done is kept in %s, so the next run continues from there", p.staging)
 		}
 		return p.res, fmt.Errorf("%d of %d recordings: %w; no deposit written%s", n, len(recs), ErrRefused, hint)
@@ -295,14 +299,21 @@ func (p *packer) run() (*PackResult, error) {
 	for _, s := range sums {
 		good = append(good, *s)
 	}
+	lic, err := p.licence(good)
+	if err != nil {
+		return p.res, err
+	}
+	p.res.Licence = lic
+	if !folder {
+		// The tar's generated files follow the recordings, so the
+		// recordings table can carry the hashes made while streaming.
+		return p.res, p.writeTar(files, func() ([]doc, error) { return p.documents(good, files) })
+	}
 	docs, err := p.documents(good, files)
 	if err != nil {
 		return p.res, err
 	}
-	if folder {
-		return p.res, p.finishFolder(recs, files, docs)
-	}
-	return p.res, p.writeTar(recs, files, docs)
+	return p.res, p.finishFolder(files, docs)
 }
 
 func (p *packer) abs(rel string) string { return filepath.Join(p.src, filepath.FromSlash(rel)) }
@@ -565,11 +576,6 @@ func (p *packer) documents(sums []RecordingSummary, files []FileRecord) ([]doc, 
 	for _, f := range files {
 		sha[f.Path] = f.SHA256
 	}
-	if p.opt.Tar {
-		// Hashes are known only after streaming; the table leaves them out
-		// (the manifest has them).
-		sha = nil
-	}
 	tables := StudyTables(sums, sha)
 	p.res.Notes = append(p.res.Notes, tables.Notes...)
 	dict, err := DataDictionary()
@@ -582,11 +588,7 @@ func (p *packer) documents(sums []RecordingSummary, files []FileRecord) ([]doc, 
 
 	study, notes := studyOf(sums)
 	p.res.Notes = append(p.res.Notes, notes...)
-	lic, err := p.licence(sums)
-	if err != nil {
-		return nil, err
-	}
-	p.res.Licence = lic
+	lic := p.res.Licence
 	p.study = study
 	for _, f := range files {
 		if len(f.Identifying) > 0 {
@@ -699,7 +701,13 @@ func contactFields(c string) []bagit.Field {
 		return nil
 	}
 	email := emailRe.FindString(c)
-	name := strings.TrimSpace(strings.Trim(strings.TrimSpace(strings.Replace(c, email, "", 1)), "<>(),;"))
+	name := c
+	if email != "" {
+		name = strings.Replace(name, "<"+email+">", "", 1)
+		name = strings.Replace(name, email, "", 1)
+	}
+	name = strings.TrimSpace(strings.TrimRight(strings.TrimSpace(name), ",;:"))
+	name = strings.TrimSpace(strings.TrimSuffix(name, "()"))
 	var out []bagit.Field
 	if name != "" {
 		out = append(out, bagit.Field{Label: "Contact-Name", Value: name})
@@ -761,7 +769,7 @@ func humanBytes(n int64) string {
 
 // finishFolder writes the generated files and manifests into the staging
 // folder, drops leftovers of earlier runs, and renames it into place.
-func (p *packer) finishFolder(recs []string, files []FileRecord, docs []doc) error {
+func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 	keep := map[string]bool{}
 	var entries []bagit.Entry
 	var octets, count int64
@@ -898,7 +906,7 @@ func publishDir(staging, out string, overwrite bool) error {
 // writeTar streams the bag as one tar: bagit.txt, the payload (recordings
 // hashed as they are written), then the generated files, the manifest,
 // bag-info.txt and the tag manifest.
-func (p *packer) writeTar(recs []string, files []FileRecord, docs []doc) error {
+func (p *packer) writeTar(files []FileRecord, makeDocs func() ([]doc, error)) error {
 	write := func(w io.Writer) error {
 		bw := bufio.NewWriterSize(w, bagit.BufferSize)
 		tw := tar.NewWriter(bw)
@@ -972,6 +980,10 @@ func (p *packer) writeTar(recs []string, files []FileRecord, docs []doc) error {
 			octets += n
 			count++
 		}
+		docs, err := makeDocs()
+		if err != nil {
+			return err
+		}
 		for _, d := range docs {
 			if err := put(d.path, d.data); err != nil {
 				return err
@@ -1011,4 +1023,14 @@ func (p *packer) writeTar(recs []string, files []FileRecord, docs []doc) error {
 	}
 	p.res.Output = p.out
 	return nil
+}
+
+// ReportShard is the shard the run covered (batch.All unless sharded).
+func (r *PackResult) ReportShard() batch.Shard {
+	if r.Report != nil {
+		if s, err := batch.ParseShard(r.Report.Shard); err == nil {
+			return s
+		}
+	}
+	return batch.All
 }

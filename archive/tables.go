@@ -75,12 +75,16 @@ func StudyTables(sums []RecordingSummary, sha map[string]string) Tables {
 			discharges += r.Discharges
 			trialLen[r.Trial] = math.Max(trialLen[r.Trial], r.DurationS)
 		}
+		trials := s.Trials
+		if len(s.Rows) > 0 {
+			trials = len(trialLen)
+		}
 		var dur float64
 		for _, k := range sortedKeys(trialLen) {
 			dur += trialLen[k]
 		}
 		cellsR := []string{s.File, strconv.FormatInt(s.Bytes, 10), sha[s.File], s.Study.ID, sr.ID, s.Session,
-			strconv.Itoa(s.Trials), strconv.Itoa(len(s.Rows)), strconv.Itoa(units), strconv.FormatInt(discharges, 10), num(dur)}
+			strconv.Itoa(trials), strconv.Itoa(len(s.Rows)), strconv.Itoa(units), strconv.FormatInt(discharges, 10), num(dur)}
 		for i := range cellsR {
 			cellsR[i] = tsvCell(cellsR[i])
 		}
