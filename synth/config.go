@@ -128,10 +128,15 @@ func (c Config) check() error {
 	if len(c.LevelsPctMVC) == 0 {
 		bad("no LevelsPctMVC; give at least one level")
 	}
+	seen := map[float64]bool{}
 	for _, l := range c.LevelsPctMVC {
 		if !(l > 0 && l <= 90) {
 			bad("level %g %% MVC outside (0, 90]", l)
 		}
+		if seen[l] {
+			bad("level %g %% MVC given twice (one trial per level)", l)
+		}
+		seen[l] = true
 	}
 	if !(c.SamplingRateHz >= 500 && c.SamplingRateHz <= 100000) {
 		bad("SamplingRateHz %g outside 500..100000", c.SamplingRateHz)

@@ -237,8 +237,7 @@ func TestNoiseIsGaussian(t *testing.T) {
 	}
 }
 
-// unitsOnPlateau yields, per trial and array, the units the auto
-// decomposition found (AutoID > 0) with their true discharges.
+// eachArray calls fn for every trial and array with its truth.
 func eachArray(t *testing.T, g *Generated, fn func(tt TrialTruth, at ArrayTruth, trial record.Trial)) {
 	for ti, tt := range g.Truth.Trials {
 		for _, at := range tt.Arrays {
@@ -381,14 +380,19 @@ func TestRecruitmentOrderAndDerecruitment(t *testing.T) {
 	g := generate(t, TestConfig())[0]
 	eachArray(t, g, func(tt TrialTruth, at ArrayTruth, trial record.Trial) {
 		prev := -1.0
-		for _, u := range at.Units {
-			// Pool order is threshold order; units with a higher threshold
-			// start no earlier than half a second before lower ones (the
-			// drive fluctuation may swap close neighbours).
+		var prevFirst int64
+		for i, u := range at.Units {
+			// Pool order is threshold order; a unit with a higher threshold
+			// starts no earlier than 0.2 s before a lower one (the drive
+			// fluctuation and the start jitter may swap close neighbours).
 			if u.ExcitationThresholdPct < prev {
 				t.Fatalf("pool not in threshold order")
 			}
 			prev = u.ExcitationThresholdPct
+			if i > 0 && u.Discharges[0] < prevFirst-int64(0.2*trial.Force.SamplingRateHz) {
+				t.Errorf("%s/%s unit %d recruited at %d, before the lower-threshold unit (%d)", tt.Trial, at.Array, u.Pool, u.Discharges[0], prevFirst)
+			}
+			prevFirst = u.Discharges[0]
 			last := u.Discharges[len(u.Discharges)-1]
 			if last < tt.PlateauEnd || last >= int64(len(trial.Force.Values)) {
 				t.Errorf("%s/%s unit %d: last discharge at %d, not on the ramp down", tt.Trial, at.Array, u.Pool, last)
@@ -616,6 +620,7 @@ func TestConfigChecks(t *testing.T) {
 		"no site":        func(c *Config) { c.Arrays[0].Sites = nil },
 		"same names":     func(c *Config) { c.Arrays[1].Sites = c.Arrays[0].Sites },
 		"site no muscle": func(c *Config) { c.Arrays[0].Sites = []Site{{"x", ""}} },
+		"same level":     func(c *Config) { c.LevelsPctMVC = []float64{20, 20} },
 	} {
 		cfg := TestConfig()
 		mod(&cfg)
@@ -681,4 +686,44 @@ func gearyC(a []float64, chans []record.Channel, pos map[[2]int]int) float64 {
 	ss := sd * sd * float64(len(a)-1)
 	// Each pair appears twice in the double sum and in W.
 	return float64(len(a)-1) * 2 * num / (2 * 2 * float64(pairs) * ss)
+}
+
+// TestEdgeConfigs runs small and extreme configurations: they generate
+// without error and keep the basic invariants.
+func TestEdgeConfigs(t *testing.T) {
+	for name, mod := range map[string]func(*Config){
+		"two units": func(c *Config) { c.UnitsPerMuscle = 2 },
+		"level 90":  func(c *Config) { c.LevelsPctMVC = []float64{90} },
+		"one array": func(c *Config) { c.Arrays = c.Arrays[:1] },
+		"no errors": func(c *Config) { c.DetectionErrors, c.EditedDecomposition, c.MUAPs = false, false, false },
+		"500 Hz, 1x1": func(c *Config) {
+			c.SamplingRateHz = 500
+			c.Arrays[0].Rows, c.Arrays[0].Columns = 1, 1
+			c.Arrays[0].BadChannel = -1
+		},
+		"fraction level": func(c *Config) { c.LevelsPctMVC = []float64{12.5} },
+	} {
+		cfg := TestConfig()
+		mod(&cfg)
+		gs, err := Generate(cfg)
+		if err != nil {
+			t.Errorf("%s: %v", name, err)
+			continue
+		}
+		for _, tr := range gs[0].Recording.Trials {
+			for _, a := range tr.Arrays {
+				n, ch := a.Samples.Shape()
+				if n != len(tr.Force.Values) || ch != len(a.Channels) {
+					t.Errorf("%s: samples %d x %d, force %d, channels %d", name, n, ch, len(tr.Force.Values), len(a.Channels))
+				}
+				for _, d := range a.Decompositions {
+					for _, u := range d.Units {
+						if len(u.Discharges) < minDischarges || math.IsNaN(u.MeanRatePPS) {
+							t.Errorf("%s: unit %d with %d discharges, mean rate %v", name, u.ID, len(u.Discharges), u.MeanRatePPS)
+						}
+					}
+				}
+			}
+		}
+	}
 }
