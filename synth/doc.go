@@ -25,9 +25,9 @@
 // ones in Truth, and derecruitment above, by the force lag on fast ramps.
 //
 // MUAPs are triphasic waves starting at a unit-specific innervation point
-// and propagating along the fibres (grid rows) at 3.5-5 m/s, falling off
+// and propagating along the fibres (grid rows) at 3.8-5 m/s, falling off
 // across them (Gaussian, 10-18 mm) and along them, widening with distance;
-// the template window is 25 ms (5 ms before to 20 ms after the discharge).
+// the template window is 29 ms (6 ms before to 23 ms after the discharge).
 // EMG is the sum of the MUAP trains plus Gaussian noise at the configured
 // plateau SNR, in uV, quantised to 0.01 uV. A configured bad channel has
 // five times the noise and is marked not usable.

@@ -196,8 +196,8 @@ func TestExportsCarryTheRecordingExactly(t *testing.T) {
 }
 
 // TestExportsReadByNumpy reads an EMG and a force export with numpy's
-// loadtxt (Debian python3-numpy, a general-purpose reader) and compares
-// the column sums with the recording.
+// loadtxt (Debian python3-numpy, a general-purpose reader), compares the
+// column sums with the recording and takes the EMG spectrum with numpy.
 func TestExportsReadByNumpy(t *testing.T) {
 	py := "/usr/bin/python3"
 	if err := exec.Command(py, "-c", "import numpy").Run(); err != nil {
@@ -217,14 +217,20 @@ func TestExportsReadByNumpy(t *testing.T) {
 	script := `import sys, numpy as np
 e = np.loadtxt(sys.argv[1], delimiter=",", skiprows=9)
 f = np.loadtxt(sys.argv[2], delimiter=",", skiprows=8)
-print(e.shape[0], e.shape[1], repr(float(e[:, 1:].sum())), repr(float(e[:, 0].max())), repr(float(f[:, 1].sum())))`
-	out, err := exec.Command(py, "-c", script, filepath.Join(td, "emg_"+a.Name+".csv"), filepath.Join(td, "force.csv")).CombinedOutput()
+p0, p1 = int(sys.argv[3]), int(sys.argv[4])
+sp = (np.abs(np.fft.rfft(e[p0:p1, 1:], axis=0)) ** 2).sum(axis=1)
+fr = np.fft.rfftfreq(p1 - p0, 1 / 1024)
+mdf = fr[np.searchsorted(np.cumsum(sp), sp.sum() / 2)]
+print(e.shape[0], e.shape[1], repr(float(e[:, 1:].sum())), repr(float(e[:, 0].max())), repr(float(f[:, 1].sum())), repr(float(mdf)))`
+	tt := g.Truth.Trials[0]
+	out, err := exec.Command(py, "-c", script, filepath.Join(td, "emg_"+a.Name+".csv"), filepath.Join(td, "force.csv"),
+		strconv.FormatInt(tt.PlateauStart, 10), strconv.FormatInt(tt.PlateauEnd, 10)).CombinedOutput()
 	if err != nil {
 		t.Fatalf("numpy: %v\n%s", err, out)
 	}
 	var rows, cols int
-	var esum, tmax, fsum float64
-	if _, err := fmt.Sscan(string(out), &rows, &cols, &esum, &tmax, &fsum); err != nil {
+	var esum, tmax, fsum, mdf float64
+	if _, err := fmt.Sscan(string(out), &rows, &cols, &esum, &tmax, &fsum, &mdf); err != nil {
 		t.Fatalf("numpy output %q: %v", out, err)
 	}
 	n, ch := a.Samples.Shape()
@@ -239,6 +245,13 @@ print(e.shape[0], e.shape[1], repr(float(e[:, 1:].sum())), repr(float(e[:, 0].ma
 	}
 	if rows != n || cols != ch+1 || math.Abs(esum-want) > 1e-6*float64(len(vals)) || tmax != float64(n-1)/1024 || math.Abs(fsum-wantF) > 1e-6*float64(n) {
 		t.Fatalf("numpy read %d x %d, sum %v (want %v), last time %v, force sum %v (want %v)", rows, cols, esum, want, tmax, fsum, wantF)
+	}
+	// Median frequency of the plateau EMG (numpy rfft): surface EMG has
+	// its median frequency at about 50-150 Hz (common practice, from
+	// memory); asserted as a property of our model.
+	t.Logf("median frequency %.1f Hz", mdf)
+	if mdf < 50 || mdf > 150 {
+		t.Errorf("plateau EMG median frequency %.1f Hz, want 50-150", mdf)
 	}
 }
 

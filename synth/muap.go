@@ -24,10 +24,10 @@ type templateShape struct {
 	firstLag, lags int
 }
 
-// MUAP window: 5 ms before the discharge to 20 ms after it (25 ms).
+// MUAP window: 6 ms before the discharge to 23 ms after it (29 ms).
 const (
-	muapPreS  = 0.005
-	muapPostS = 0.020
+	muapPreS  = 0.006
+	muapPostS = 0.023
 )
 
 func newTemplateShape(rateHz float64) templateShape {
@@ -54,10 +54,10 @@ func randomMUAP(rng *rand.Rand, g grid, ampUV float64) muapModel {
 	w := float64(g.cols-1) * g.ied
 	return muapModel{
 		x0:       -0.5*g.ied + rng.Float64()*(w+g.ied),
-		y0:       h*0.3 + rng.Float64()*h*0.4,
+		y0:       h*0.35 + rng.Float64()*h*0.3,
 		ampUV:    ampUV,
-		velocity: 3.5 + 1.5*rng.Float64(),
-		sigmaMs:  0.9 + 0.5*rng.Float64(),
+		velocity: 3.8 + 1.2*rng.Float64(),
+		sigmaMs:  1.6 + 0.6*rng.Float64(),
 		lambdaMm: 10 + 8*rng.Float64(),
 	}
 }
@@ -73,7 +73,7 @@ func (m muapModel) template(g grid, sh templateShape) []float32 {
 		dx := x - m.x0
 		dy := math.Abs(y - m.y0)
 		spatial := math.Exp(-dx*dx/(2*m.lambdaMm*m.lambdaMm)) / (1 + (dy/40)*(dy/40))
-		disp := 1 + dy/120
+		disp := 1 + dy/150
 		sigma := m.sigmaMs * disp
 		amp := m.ampUV * spatial / math.Sqrt(disp)
 		lat := dy / m.velocity // ms
