@@ -45,6 +45,11 @@ func maskValue(s string) string {
 // 4-byte string 0.02 times); shorter needles are reported by Unscannable.
 const MinNeedleBytes = 4
 
+// MinNeedleRunes is the shortest original value searched for at all: one
+// or two characters ("7", "B") occur everywhere and say nothing; such values
+// are listed as not searched.
+const MinNeedleRunes = 3
+
 type needleForm struct {
 	needle   string
 	encoding string
@@ -240,7 +245,7 @@ func scanText(text string, needles []string) []string {
 	var hits []string
 	seen := map[string]bool{}
 	for _, n := range needles {
-		if n == "" || seen[n] {
+		if len([]rune(n)) < MinNeedleRunes || seen[n] {
 			continue
 		}
 		seen[n] = true

@@ -1,0 +1,672 @@
+package deid
+
+import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash"
+	"io/fs"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"sync"
+	"time"
+
+	"muarc/internal/atomicfile"
+	"muarc/internal/batch"
+	"muarc/recfile"
+	"muarc/record"
+)
+
+// StudyOptions control DeidentifyStudy and DeidentifyFile.
+type StudyOptions struct {
+	// Policy is the policy; nil means Default().
+	Policy *Policy
+	// Key is the study key (required).
+	Key *Key
+	// Workers is the number of files done at once (0: one per CPU).
+	Workers int
+	// Shard selects a part of the study's files (batch.All for all).
+	Shard batch.Shard
+	// DryRun builds the plan and writes nothing.
+	DryRun bool
+	// Overwrite replaces existing output files.
+	Overwrite bool
+	// Linkage, when set, is where the private linkage file (original id ->
+	// pseudonym) goes: mode 0600, never inside the output folder.
+	Linkage string
+	// K is the group size of the k-anonymity report (0: the policy's k).
+	K int
+	// Progress, when set, is called after each file.
+	Progress func(done, total int)
+	// Now is the time of the history entry (zero: the current time).
+	Now time.Time
+}
+
+// FileOutcome is the report of one input file.
+type FileOutcome struct {
+	// Input is the input's name relative to the source folder. It may itself
+	// identify: the report is for the person holding the originals.
+	Input string `json:"input"`
+	// Output is the output's name relative to the output folder.
+	Output  string `json:"output,omitempty"`
+	Subject string `json:"subject,omitempty"`
+	Session string `json:"session,omitempty"`
+	// Fields, Unlisted, Scrubbed and Notes as in Result.
+	Fields   []FieldOutcome `json:"fields,omitempty"`
+	Unlisted []string       `json:"unlisted_dropped,omitempty"`
+	Scrubbed []Removal      `json:"scrubbed,omitempty"`
+	Notes    []string       `json:"notes,omitempty"`
+	// Scan is the leak scan of the written output.
+	Scan *ScanSummary `json:"scan,omitempty"`
+	// DataChecked is the number of datasets whose values were compared with
+	// the input's by SHA-256 and found identical.
+	DataChecked int `json:"datasets_bit_exact,omitempty"`
+	// Error says why the file was not written ("" when it was).
+	Error string `json:"error,omitempty"`
+
+	rec   *Result
+	quasi QuasiIDs
+}
+
+// ScanSummary is what the leak scan of one output found.
+type ScanSummary struct {
+	// Bytes is the file size scanned.
+	Bytes int64 `json:"bytes_scanned"`
+	// Values is the number of original identifying values searched for,
+	// each as UTF-8, UTF-16LE and UTF-16BE (dates in every spelling).
+	Values int `json:"values_searched"`
+	// Unscannable are values too short to search for in the raw bytes
+	// (masked); they were still searched for in the decoded metadata.
+	Unscannable []string `json:"too_short_for_byte_scan,omitempty"`
+	// Leaks are the values found (masked), in the raw bytes or in the
+	// decoded metadata view.
+	Leaks []string `json:"leaks"`
+	// StillIdentifying are paths IdentifyingFields reports in the output.
+	StillIdentifying []string `json:"still_identifying,omitempty"`
+}
+
+// PlanLine is one line of the policy plan: a field and its action.
+type PlanLine struct {
+	Path   string `json:"path"`
+	Action string `json:"action"`
+}
+
+// StudyReport is the report of a de-identification run.
+type StudyReport struct {
+	Policy         string        `json:"policy"`
+	PolicySHA256   string        `json:"policy_sha256"`
+	KeyFingerprint string        `json:"key_fingerprint"`
+	DryRun         bool          `json:"dry_run"`
+	Shard          string        `json:"shard,omitempty"`
+	Files          []FileOutcome `json:"files"`
+	Written        int           `json:"written"`
+	Failed         int           `json:"failed"`
+	// Plan lists every field of the layout and what the policy does to it
+	// (dry runs).
+	Plan []PlanLine `json:"plan,omitempty"`
+	// Collisions are pseudonyms that two different ids map to.
+	Collisions []string `json:"collisions,omitempty"`
+	// KAnonymity is the report over the subjects written (or planned).
+	KAnonymity *KReport `json:"k_anonymity,omitempty"`
+	// Linkage is the linkage file written, if asked.
+	Linkage string   `json:"linkage_file,omitempty"`
+	Notes   []string `json:"notes,omitempty"`
+	// Caution is the reminder every report carries.
+	Caution string `json:"caution"`
+}
+
+// Caution is printed with every report.
+const Caution = "muarc helps de-identify; it does not certify. The ethics board, the consent given and local data-protection law decide what may be shared. A face photograph, a voice recording or a rare diagnosis in any attachment can identify a person too."
+
+// Plan returns every field of the layout, in a stable order, with what the
+// policy does to it, then the data carried unchanged.
+func (p *Policy) Plan() []PlanLine {
+	paths := make([]string, 0, len(catalogue))
+	for k := range catalogue {
+		paths = append(paths, k)
+	}
+	for _, g := range extraGroups {
+		paths = append(paths, g+".extra.*")
+	}
+	for k := range p.Fields {
+		if _, ok := catalogue[k]; !ok && !strings.HasSuffix(k, ".extra.*") {
+			paths = append(paths, k)
+		}
+	}
+	sort.Strings(paths)
+	var out []PlanLine
+	for _, k := range paths {
+		act, named := p.ActionFor(k)
+		s := string(act)
+		if !named {
+			s = "drop (not named in the policy)"
+		}
+		out = append(out, PlanLine{k, s})
+	}
+	for _, c := range carried {
+		out = append(out, PlanLine{c, "keep (the recorded data, always carried bit-exact)"})
+	}
+	return out
+}
+
+// job is one input file of a run.
+type job struct {
+	in, rel  string
+	subj     string // original subject id
+	sess     string
+	out      string // output name
+	preError error
+}
+
+// DeidentifyStudy de-identifies every muarc file (*.h5) under srcDir into
+// outDir (created if needed), one fresh file per input, named by the
+// subject's and session's pseudonyms. Inputs are never modified. Every
+// output is scanned for leaks before it is published; a file that fails is
+// not written and the run carries on. The returned error is for problems
+// with the run itself (bad folders, key, linkage path); per-file failures
+// are in the report.
+func DeidentifyStudy(srcDir, outDir string, opt StudyOptions) (*StudyReport, error) {
+	if opt.Key == nil {
+		return nil, fmt.Errorf("no key: make one with `muarc key new FILE` and give --key")
+	}
+	inputs, err := findInputs(srcDir, outDir)
+	if err != nil {
+		return nil, err
+	}
+	if len(inputs) == 0 {
+		return nil, fmt.Errorf("%s: no muarc files (*.h5) found", srcDir)
+	}
+	sel := opt.Shard.Select(inputs)
+	jobs := make([]*job, len(sel))
+	for i, rel := range sel {
+		jobs[i] = &job{in: filepath.Join(srcDir, rel), rel: rel}
+	}
+	return run(jobs, outDir, false, opt)
+}
+
+// DeidentifyFile de-identifies one file into outPath.
+func DeidentifyFile(inPath, outPath string, opt StudyOptions) (*StudyReport, error) {
+	if opt.Key == nil {
+		return nil, fmt.Errorf("no key: make one with `muarc key new FILE` and give --key")
+	}
+	if same, _ := samePath(inPath, outPath); same {
+		return nil, fmt.Errorf("%s: the output would replace the input; de-identification writes a fresh file", outPath)
+	}
+	j := &job{in: inPath, rel: filepath.Base(inPath), out: filepath.Base(outPath)}
+	return run([]*job{j}, filepath.Dir(outPath), true, opt)
+}
+
+func samePath(a, b string) (bool, error) {
+	fa, err := os.Stat(a)
+	if err != nil {
+		return false, err
+	}
+	fb, err := os.Stat(b)
+	if err != nil {
+		return false, err
+	}
+	return os.SameFile(fa, fb), nil
+}
+
+// findInputs lists *.h5 files under dir (relative, sorted), skipping hidden
+// entries and the output folder when it lies inside.
+func findInputs(dir, outDir string) ([]string, error) {
+	fi, err := os.Stat(dir)
+	if err != nil {
+		return nil, err
+	}
+	if !fi.IsDir() {
+		return nil, fmt.Errorf("%s: not a folder", dir)
+	}
+	absOut, _ := filepath.Abs(outDir)
+	absSrc, _ := filepath.Abs(dir)
+	if absOut == absSrc {
+		return nil, fmt.Errorf("%s: the output folder must differ from the source folder", outDir)
+	}
+	var out []string
+	err = filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if p != dir && strings.HasPrefix(d.Name(), ".") {
+			if d.IsDir() {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if d.IsDir() {
+			if a, _ := filepath.Abs(p); a == absOut {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if d.Type().IsRegular() && strings.EqualFold(filepath.Ext(p), ".h5") {
+			rel, _ := filepath.Rel(dir, p)
+			out = append(out, rel)
+		}
+		return nil
+	})
+	sort.Strings(out)
+	return out, err
+}
+
+// insideDir reports whether path lies in dir (after resolving symbolic
+// links of the existing parts).
+func insideDir(path, dir string) bool {
+	resolve := func(p string) string {
+		a, err := filepath.Abs(p)
+		if err != nil {
+			return p
+		}
+		// resolve the longest existing prefix
+		rest := ""
+		for {
+			if r, err := filepath.EvalSymlinks(a); err == nil {
+				return filepath.Join(r, rest)
+			}
+			parent := filepath.Dir(a)
+			if parent == a {
+				return filepath.Join(a, rest)
+			}
+			rest = filepath.Join(filepath.Base(a), rest)
+			a = parent
+		}
+	}
+	p, d := resolve(path), resolve(dir)
+	rel, err := filepath.Rel(d, p)
+	return err == nil && rel != ".." && !strings.HasPrefix(rel, ".."+string(filepath.Separator))
+}
+
+func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyReport, error) {
+	pol := opt.Policy
+	if pol == nil {
+		pol = Default()
+	}
+	ps := NewPseudonymizer(opt.Key)
+	rep := &StudyReport{Policy: pol.Name, PolicySHA256: pol.SHA256(), KeyFingerprint: opt.Key.Fingerprint(),
+		DryRun: opt.DryRun, Caution: Caution, Files: make([]FileOutcome, len(jobs))}
+	if opt.Shard.N > 1 {
+		rep.Shard = opt.Shard.String()
+		rep.Notes = append(rep.Notes, "this run covers one shard: collisions and k-anonymity are judged within the shard only; run the report without --shard for the whole study")
+	}
+	if opt.Linkage != "" {
+		if insideDir(opt.Linkage, outDir) {
+			return nil, fmt.Errorf("%s: the linkage file must not lie inside the output folder %s (it links pseudonyms back to people)", opt.Linkage, outDir)
+		}
+		if _, err := os.Lstat(opt.Linkage); err == nil && !opt.DryRun {
+			return nil, fmt.Errorf("%s: %w (refusing to overwrite a linkage file)", opt.Linkage, atomicfile.ErrExists)
+		}
+	}
+	if opt.DryRun {
+		rep.Plan = pol.Plan()
+	} else if err := os.MkdirAll(outDir, 0o755); err != nil {
+		return nil, err
+	}
+	// Pre-pass: ids, pseudonyms, collisions and output names, before any write.
+	subjects, sessions := NewRegistry(), NewRegistry()
+	for _, j := range jobs {
+		view, err := recfile.MetadataView(j.in)
+		if err != nil {
+			j.preError = err
+			continue
+		}
+		j.subj = strings.TrimSpace(viewString(view, "subject", "id"))
+		j.sess = strings.TrimSpace(viewString(view, "session", "id"))
+		if j.subj == "" {
+			j.preError = fmt.Errorf("subject.id is empty: give every recording its subject code before de-identifying (the code keys the pseudonym and the date shift)")
+			continue
+		}
+		if err := subjects.Add(ps.Subject(j.subj), j.subj); err != nil {
+			j.preError = err
+		}
+		if j.sess != "" {
+			if err := sessions.Add(ps.Session(j.subj, j.sess), j.subj+"\x00"+j.sess); err != nil {
+				j.preError = err
+			}
+		}
+	}
+	rep.Collisions = append(subjects.Collisions(), sessions.Collisions()...)
+	bad := map[string]bool{}
+	for _, c := range rep.Collisions {
+		bad[c] = true
+	}
+	names := map[string]int{}
+	for _, j := range jobs {
+		if j.preError == nil && (bad[ps.Subject(j.subj)] || j.sess != "" && bad[ps.Session(j.subj, j.sess)]) {
+			j.preError = fmt.Errorf("pseudonym collision: make a new key for this study")
+		}
+		if single || j.preError != nil {
+			continue
+		}
+		base := ps.Subject(j.subj) + "_"
+		if j.sess != "" {
+			base += ps.Session(j.subj, j.sess)
+		} else {
+			base += short("R-", ps.digest("file", j.subj, j.rel))
+		}
+		names[base]++
+		if n := names[base]; n > 1 {
+			base = fmt.Sprintf("%s_%d", base, n)
+		}
+		j.out = base + ".h5"
+	}
+	done := 0
+	var mu sync.Mutex
+	errs := batch.Run(len(jobs), opt.Workers, func(i int) error {
+		fo, err := doFile(jobs[i], outDir, pol, ps, opt)
+		fo.Input = jobs[i].rel
+		if err != nil {
+			fo.Error = err.Error()
+		}
+		rep.Files[i] = fo
+		return err
+	}, func(i int, err error) {
+		mu.Lock()
+		done++
+		d := done
+		mu.Unlock()
+		if opt.Progress != nil {
+			opt.Progress(d, len(jobs))
+		}
+	})
+	seen := map[string]bool{}
+	var quasi []SubjectQuasi
+	var links []linkRow
+	for i, err := range errs {
+		fo := &rep.Files[i]
+		if err != nil {
+			rep.Failed++
+			continue
+		}
+		if !opt.DryRun {
+			rep.Written++
+		}
+		if fo.Subject != "" && !seen[fo.Subject] {
+			seen[fo.Subject] = true
+			quasi = append(quasi, SubjectQuasi{fo.Subject, fo.quasi})
+		}
+		links = append(links, linkRow{jobs[i].subj, fo.Subject, jobs[i].sess, fo.Session, fo.Output})
+	}
+	if len(quasi) > 0 {
+		k := opt.K
+		if k == 0 {
+			k = pol.K
+		}
+		rep.KAnonymity = KAnonymity(quasi, k)
+	}
+	if opt.Linkage != "" && !opt.DryRun && len(links) > 0 {
+		if err := writeLinkage(opt.Linkage, links); err != nil {
+			return rep, err
+		}
+		rep.Linkage = opt.Linkage
+	}
+	return rep, nil
+}
+
+func viewString(view map[string]any, group, key string) string {
+	g, _ := view[group].(map[string]any)
+	s, _ := g[key].(string)
+	return s
+}
+
+// doFile de-identifies one input.
+func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOptions) (FileOutcome, error) {
+	fo := FileOutcome{Output: j.out}
+	if j.preError != nil {
+		return fo, j.preError
+	}
+	f, err := recfile.Open(j.in)
+	if err != nil {
+		return fo, err
+	}
+	defer f.Close()
+	rec := f.Recording()
+	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now})
+	if err != nil {
+		return fo, err
+	}
+	fo.Subject, fo.Session = res.Subject, res.Session
+	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
+	fo.quasi, fo.rec = res.Quasi, res
+	if opt.DryRun {
+		return fo, nil
+	}
+	final := filepath.Join(outDir, j.out)
+	if err := atomicfile.CheckTarget(final, opt.Overwrite); err != nil {
+		return fo, err
+	}
+	tmp, err := atomicfile.TempPath(final)
+	if err != nil {
+		return fo, err
+	}
+	keepTmp := false
+	defer func() {
+		if !keepTmp {
+			os.Remove(tmp)
+		}
+	}()
+	if err := recfile.Write(tmp, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
+		return fo, err
+	}
+	scan, n, err := verifyOutput(tmp, rec, res, pol)
+	fo.Scan, fo.DataChecked = scan, n
+	if err != nil {
+		return fo, err
+	}
+	if err := atomicfile.Publish(tmp, final, opt.Overwrite); err != nil {
+		return fo, err
+	}
+	keepTmp = true // renamed into place
+	return fo, nil
+}
+
+// verifyOutput scans a written output for the original identifying values
+// (raw bytes and decoded metadata), asks IdentifyingFields about it under the
+// default policy, and compares every dataset's values with the input's.
+func verifyOutput(path string, orig *record.Recording, res *Result, pol *Policy) (*ScanSummary, int, error) {
+	needles := res.Needles()
+	sum := &ScanSummary{Values: len(needles), Unscannable: res.Unscannable, Leaks: []string{}}
+	if fi, err := os.Stat(path); err == nil {
+		sum.Bytes = fi.Size()
+	}
+	leaks, err := ScanBytes(path, needles)
+	if err != nil {
+		return sum, 0, err
+	}
+	for _, l := range leaks {
+		sum.Leaks = append(sum.Leaks, l.String())
+	}
+	view, err := recfile.MetadataView(path)
+	if err != nil {
+		return sum, 0, fmt.Errorf("reading the output back: %w", err)
+	}
+	vb, _ := json.Marshal(view)
+	for _, h := range scanText(string(vb), needles) {
+		sum.Leaks = append(sum.Leaks, maskValue(h)+" found in the decoded metadata")
+	}
+	f, err := recfile.Open(path)
+	if err != nil {
+		return sum, 0, fmt.Errorf("reading the output back: %w", err)
+	}
+	defer f.Close()
+	out := f.Recording()
+	sum.StillIdentifying = IdentifyingFields(out)
+	if len(sum.Leaks) > 0 {
+		return sum, 0, fmt.Errorf("leak scan: %d original identifying value(s) found in the output; it was not written (%s)", len(sum.Leaks), strings.Join(sum.Leaks, "; "))
+	}
+	if pol.SHA256() == Default().SHA256() && len(sum.StillIdentifying) > 0 {
+		return sum, 0, fmt.Errorf("the output still holds identifying fields %s; it was not written", strings.Join(sum.StillIdentifying, ", "))
+	}
+	want, err := DataDigests(res.Recording)
+	if err != nil {
+		return sum, 0, fmt.Errorf("checksums of the input's data: %w", err)
+	}
+	got, err := DataDigests(out)
+	if err != nil {
+		return sum, 0, fmt.Errorf("checksums of the output's data: %w", err)
+	}
+	var diff []string
+	for k, v := range want {
+		if got[k] != v {
+			diff = append(diff, k)
+		}
+	}
+	for k := range got {
+		if _, ok := want[k]; !ok {
+			diff = append(diff, k+" (not in the input)")
+		}
+	}
+	if len(diff) > 0 {
+		sort.Strings(diff)
+		return sum, 0, fmt.Errorf("data changed in writing: %s; the output was not written", strings.Join(diff, ", "))
+	}
+	return sum, len(want), nil
+}
+
+// DataDigests returns the SHA-256 (hex) of the values of every data block of
+// a recording, keyed by metadata-view path: force and force_target values,
+// EMG samples (in their stored width), discharges per unit, the unit
+// figures, extra unit columns and MUAP templates. Values are hashed as their
+// IEEE 754 bits, little-endian, so two recordings agree only when every
+// value is bit-identical (NaN payloads included). Samples are read in blocks.
+func DataDigests(rec *record.Recording) (map[string]string, error) {
+	out := map[string]string{}
+	put := func(k string, h hash.Hash) { out[k] = hex.EncodeToString(h.Sum(nil)) }
+	f64 := func(h hash.Hash, v ...float64) {
+		var b [8]byte
+		for _, x := range v {
+			binary.LittleEndian.PutUint64(b[:], math.Float64bits(x))
+			h.Write(b[:])
+		}
+	}
+	i64 := func(h hash.Hash, v ...int64) {
+		var b [8]byte
+		for _, x := range v {
+			binary.LittleEndian.PutUint64(b[:], uint64(x))
+			h.Write(b[:])
+		}
+	}
+	for ti, t := range rec.Trials {
+		p := fmt.Sprintf("trials[%d]", ti)
+		for name, s := range map[string]record.Signal{"force": t.Force, "force_target": t.ForceTarget} {
+			if s.Present() {
+				h := sha256.New()
+				f64(h, s.Values...)
+				put(p+"."+name, h)
+			}
+		}
+		for ai, a := range t.Arrays {
+			q := fmt.Sprintf("%s.arrays[%d]", p, ai)
+			if a.Samples != nil {
+				h := sha256.New()
+				if err := hashSamples(h, a); err != nil {
+					return nil, fmt.Errorf("%s.samples: %w", q, err)
+				}
+				put(q+".samples", h)
+			}
+			for di, d := range a.Decompositions {
+				dp := fmt.Sprintf("%s.decompositions[%d]", q, di)
+				hd, hu := sha256.New(), sha256.New()
+				for _, u := range d.Units {
+					i64(hd, u.ID, int64(len(u.Discharges)))
+					i64(hd, u.Discharges...)
+					i64(hu, u.ID)
+					f64(hu, u.Silhouette, u.PNRdB, u.AccuracyPct, u.ISICoV, u.RecruitPctMVC, u.DerecruitPctMVC, u.InitialRatePPS, u.MeanRatePPS)
+				}
+				put(dp+".discharges", hd)
+				put(dp+".units", hu)
+				for _, c := range d.ExtraColumns {
+					h := sha256.New()
+					f64(h, c.Values...)
+					for _, s := range c.Text {
+						i64(h, int64(len(s)))
+						h.Write([]byte(s))
+					}
+					put(dp+".units[].extra."+c.Name, h)
+				}
+				if d.MUAPs != nil {
+					h := sha256.New()
+					i64(h, int64(d.MUAPs.Units), int64(d.MUAPs.Channels), int64(d.MUAPs.Lags), int64(d.MUAPs.FirstLag))
+					var b [4]byte
+					for _, x := range d.MUAPs.Data {
+						binary.LittleEndian.PutUint32(b[:], math.Float32bits(x))
+						h.Write(b[:])
+					}
+					put(dp+".muaps", h)
+				}
+			}
+		}
+	}
+	return out, nil
+}
+
+// hashSamples hashes an array's samples block by block in their stored width.
+func hashSamples(h hash.Hash, a record.Array) error {
+	rows, ch := a.Samples.Shape()
+	if ch <= 0 {
+		return nil
+	}
+	block := max(1, (1<<20)/ch)
+	var b [8]byte
+	if a.SampleType == record.Float64 {
+		buf := make([]float64, block*ch)
+		for r := 0; r < rows; r += block {
+			n := min(block, rows-r)
+			if err := a.Samples.ReadFloat64(r, buf[:n*ch]); err != nil {
+				return err
+			}
+			for _, x := range buf[:n*ch] {
+				binary.LittleEndian.PutUint64(b[:], math.Float64bits(x))
+				h.Write(b[:])
+			}
+		}
+		return nil
+	}
+	buf := make([]float32, block*ch)
+	for r := 0; r < rows; r += block {
+		n := min(block, rows-r)
+		if err := a.Samples.ReadFloat32(r, buf[:n*ch]); err != nil {
+			return err
+		}
+		for _, x := range buf[:n*ch] {
+			binary.LittleEndian.PutUint32(b[:4], math.Float32bits(x))
+			h.Write(b[:4])
+		}
+	}
+	return nil
+}
+
+type linkRow struct{ subj, subjP, sess, sessP, out string }
+
+// writeLinkage writes the private linkage file (JSON: a warning and one
+// entry per output), mode 0600, never overwriting.
+func writeLinkage(path string, rows []linkRow) error {
+	type link struct {
+		SubjectID        string `json:"subject_id"`
+		SubjectPseudonym string `json:"subject_pseudonym"`
+		SessionID        string `json:"session_id,omitempty"`
+		SessionPseudonym string `json:"session_pseudonym,omitempty"`
+		Output           string `json:"output"`
+	}
+	doc := struct {
+		Warning string `json:"warning"`
+		Links   []link `json:"links"`
+	}{Warning: "PRIVATE: this file links pseudonyms back to people. Keep it apart from the shared data, under the same protection as the originals."}
+	for _, r := range rows {
+		doc.Links = append(doc.Links, link{r.subj, r.subjP, r.sess, r.sessP, r.out})
+	}
+	b, _ := json.MarshalIndent(doc, "", "  ")
+	if err := writeNew0600(path, append(b, '\n')); err != nil {
+		if errors.Is(err, atomicfile.ErrExists) {
+			return err
+		}
+		return fmt.Errorf("linkage file: %w", err)
+	}
+	return nil
+}
