@@ -296,7 +296,7 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 			if v <= 0 {
 				return perr(s.File, line, 0, "write the rate as a positive number in Hz", "sampling rate %q not usable", metaValue(s.Meta, rateKeys...))
 			}
-			rate, rateWhy = v, fmt.Sprintf("from the line %q above the table (line %d)", metaValue(s.Meta, rateKeys...), line)
+			rate, rateWhy = v, fmt.Sprintf("from the line %q above the table (line %d)", metaKeyOf(s.Meta, line)+": "+metaValue(s.Meta, rateKeys...), line)
 		}
 	}
 	tt := &timeTrack{file: s.File, col: s.tcol, allow: opt.AllowGaps}
@@ -570,4 +570,13 @@ func snakeKey(k string) string {
 		}
 	}
 	return strings.TrimSuffix(b.String(), "_")
+}
+
+func metaKeyOf(meta []MetaLine, line int) string {
+	for _, m := range meta {
+		if m.Line == line {
+			return m.Key
+		}
+	}
+	return ""
 }

@@ -1,0 +1,70 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"muarc/convert"
+)
+
+func init() {
+	var (
+		what, shape, format, out string
+		overwrite, asJSON        bool
+	)
+	cmd := &cobra.Command{
+		Use:   "export FILE",
+		Short: "Write a muarc file's signals, discharges, units or metadata as CSV, TSV or JSON",
+		Long: `Write parts of a muarc file as plain text, so that any tool can read them:
+
+  muarc export FILE --what signals,discharges,units,metadata [--shape long|columns|lines|matrix] [--format csv|tsv|json] -o DIR
+
+Files go to DIR/<trial>/force.csv, emg_<array>.csv, discharges_<array>_<decomposition>.csv,
+units_<array>_<decomposition>.csv and DIR/metadata.json: the names the built-in import
+profile reads, so "muarc import DIR" gives the same recording back. Numbers are written
+with the shortest digits that read back to the same value; discharges as 0-based sample
+indices. Each file is written atomically; existing files are kept unless --overwrite.`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			if out == "" {
+				return withExit(2, errors.New("give the output folder with -o"))
+			}
+			kinds := strings.Split(what, ",")
+			if what == "all" {
+				kinds = convert.ExportKinds
+			}
+			files, err := convert.Export(args[0], kinds, convert.ExportOptions{Dir: out, Format: format, Shape: shape, Overwrite: overwrite})
+			return exportDone(cmd.OutOrStdout(), files, err, asJSON)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&what, "what", "all", "what to write: signals, discharges, units, metadata (comma-separated) or all")
+	f.StringVar(&shape, "shape", "long", "discharge shape: long (unit, sample), columns, lines or matrix")
+	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata)")
+	f.StringVarP(&out, "output", "o", "", "output folder")
+	f.BoolVar(&overwrite, "overwrite", false, "replace existing files")
+	f.BoolVar(&asJSON, "json", false, "list the files written as JSON")
+	rootCmd.AddCommand(cmd)
+}
+
+func exportDone(w io.Writer, files []string, err error, asJSON bool) error {
+	if asJSON {
+		m := map[string]any{"files": files}
+		if err != nil {
+			m["error"] = err.Error()
+		}
+		printJSON(w, m)
+		if err != nil {
+			return silentExit(2)
+		}
+		return nil
+	}
+	for _, f := range files {
+		fmt.Fprintln(w, "wrote", f)
+	}
+	return withExit(2, err)
+}

@@ -1,0 +1,244 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"muarc/convert"
+	"muarc/internal/atomicfile"
+	"muarc/internal/batch"
+	"muarc/recfile"
+	"muarc/record"
+)
+
+type importFlags struct {
+	meta, profile, out, dtype, shard string
+	force, emg, dis, units           []string
+	overwrite, json, allowGaps       bool
+	rate                             float64
+	workers                          int
+}
+
+func init() {
+	var fl importFlags
+	cmd := &cobra.Command{
+		Use:   "import [SOURCE_DIR]",
+		Short: "Import plain-text exports (signals, discharges, unit tables, metadata) into muarc files",
+		Long: `Import one recording from its plain-text files:
+
+  muarc import --meta M --force F --emg E [--emg E2 ...] --discharges D --units U [--profile P] -o OUT.h5
+
+or a whole study, one recording per folder, in parallel:
+
+  muarc import --profile P SOURCE_DIR -o OUT_DIR
+
+Delimiters, headers, units, time columns, decimal commas, discharge shapes and
+time bases are detected; the report says what was found, what was assumed and
+why. EMG samples are stored as float32 only when every value reads back at the
+digits written, else float64 (--dtype forces one and the report gives the
+largest error that causes). Nothing is written when an input is bad; inputs
+are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which
+file is which and how to read it.`,
+		Args: cobra.MaximumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return runImport(cmd.OutOrStdout(), fl, args)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&fl.meta, "meta", "", "metadata sidecar (JSON or YAML)")
+	f.StringArrayVar(&fl.force, "force", nil, "force file (one per trial; repeat)")
+	f.StringArrayVar(&fl.emg, "emg", nil, "EMG file (one per array and trial; repeat)")
+	f.StringArrayVar(&fl.dis, "discharges", nil, "discharge file (repeat)")
+	f.StringArrayVar(&fl.units, "units", nil, "unit table (repeat)")
+	f.StringVar(&fl.profile, "profile", "", "mapping profile (YAML or JSON); default: the built-in one")
+	f.StringVarP(&fl.out, "output", "o", "", "output file (one recording) or folder (a study)")
+	f.BoolVar(&fl.overwrite, "overwrite", false, "replace existing output files")
+	f.BoolVar(&fl.json, "json", false, "print the import report as JSON")
+	f.StringVar(&fl.dtype, "dtype", "", "force the EMG sample type: float32 or float64")
+	f.Float64Var(&fl.rate, "rate", 0, "sampling rate in Hz for signal files without a time column")
+	f.BoolVar(&fl.allowGaps, "allow-gaps", false, "accept gaps in time columns (missing samples become NaN)")
+	f.StringVar(&fl.shard, "shard", "", "study form: import only part i of n (i/n)")
+	f.IntVar(&fl.workers, "workers", 0, "study form: recordings imported at once (0 = one per core)")
+	rootCmd.AddCommand(cmd)
+}
+
+func runImport(w io.Writer, fl importFlags, args []string) error {
+	if fl.out == "" {
+		return withExit(2, errors.New("give the output with -o"))
+	}
+	var dtype record.SampleType
+	switch fl.dtype {
+	case "":
+	case "float32", "float64":
+		dtype = record.SampleType(fl.dtype)
+	default:
+		return withExit(2, fmt.Errorf("--dtype %q: want float32 or float64", fl.dtype))
+	}
+	var prof *convert.Profile
+	if fl.profile != "" {
+		p, err := convert.LoadProfile(fl.profile)
+		if err != nil {
+			return withExit(2, err)
+		}
+		prof = p
+	}
+	if len(args) == 1 {
+		if fl.meta != "" || len(fl.force)+len(fl.emg)+len(fl.dis)+len(fl.units) > 0 {
+			return withExit(2, errors.New("give either SOURCE_DIR or the files (--meta, --force, --emg, ...), not both"))
+		}
+		return importStudy(w, fl, args[0], prof, dtype)
+	}
+	if len(fl.emg)+len(fl.force) == 0 {
+		return withExit(2, errors.New("give the files of a recording (--emg, --force, ...) or a SOURCE_DIR"))
+	}
+	in := convert.Inputs{Meta: fl.meta, Force: fl.force, EMG: fl.emg, Discharges: fl.dis, Units: fl.units,
+		Profile: prof, DType: dtype, RateHz: fl.rate, AllowGaps: fl.allowGaps}
+	if err := atomicfile.CheckTarget(fl.out, fl.overwrite); err != nil {
+		return withExit(2, err)
+	}
+	bar := newProgress("import", 1)
+	rep, err := convert.ImportRecording(in, fl.out, recfile.WriteOptions{Overwrite: fl.overwrite, Progress: func(done, total int64) {
+		if bar.total != total {
+			bar.total = total
+		}
+		bar.Add(done - bar.done)
+	}})
+	bar.Finish()
+	if err != nil {
+		if fl.json {
+			printJSON(w, map[string]any{"error": err.Error(), "problem": convert.AsParseError(err)})
+			return silentExit(2)
+		}
+		return withExit(2, err)
+	}
+	if fl.json {
+		return printJSON(w, rep)
+	}
+	printReport(w, rep)
+	return nil
+}
+
+func printReport(w io.Writer, rep *convert.Report) {
+	fmt.Fprintf(w, "wrote %s\n", rep.Output)
+	for _, f := range rep.Files {
+		where := strings.Trim(strings.Join([]string{f.Trial, f.Array, f.Decomposition}, "/"), "/")
+		fmt.Fprintf(w, "  %-10s %s", f.Role, f.Name)
+		if where != "" {
+			fmt.Fprintf(w, " -> %s", where)
+		}
+		switch f.Role {
+		case "emg":
+			fmt.Fprintf(w, ": %d rows x %d channels, %g Hz, %s", f.Rows, f.Channels, f.RateHz, f.DTypeWhy)
+			if f.JitterS > 0 {
+				fmt.Fprintf(w, "; time jitter %.3g s", f.JitterS)
+			}
+		case "force":
+			fmt.Fprintf(w, ": %d rows, %g Hz", f.Rows, f.RateHz)
+		case "discharges":
+			fmt.Fprintf(w, ": %d units, %d discharges", f.Units, f.Discharges)
+		case "units":
+			fmt.Fprintf(w, ": %d units", f.Units)
+		}
+		fmt.Fprintln(w)
+		for _, n := range f.Notes {
+			fmt.Fprintf(w, "      %s\n", n)
+		}
+	}
+	for _, n := range rep.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
+}
+
+// studyResult is one recording's outcome in the study form.
+type studyResult struct {
+	Recording string          `json:"recording"`
+	Output    string          `json:"output,omitempty"`
+	Report    *convert.Report `json:"report,omitempty"`
+	Error     string          `json:"error,omitempty"`
+}
+
+// importStudyDir imports every recording of a study folder into outDir and
+// returns the results in order (used by the command and the demo).
+func importStudyDir(src, outDir string, prof *convert.Profile, dtype record.SampleType, shard batch.Shard, workers int, overwrite bool, label string) ([]studyResult, error) {
+	recs, err := convert.FindRecordings(src, prof)
+	if err != nil {
+		return nil, err
+	}
+	if len(recs) == 0 {
+		return nil, fmt.Errorf("%s: no recording folders found (each needs its metadata file, see the profile)", src)
+	}
+	byName := map[string]convert.StudyRecording{}
+	var names []string
+	for _, r := range recs {
+		byName[r.Name] = r
+		names = append(names, r.Name)
+	}
+	names = shard.Select(names)
+	if err := os.MkdirAll(outDir, 0o755); err != nil {
+		return nil, err
+	}
+	res := make([]studyResult, len(names))
+	bar := newProgress(label, int64(len(names)))
+	batch.Run(len(names), workers, func(i int) error {
+		r := byName[names[i]]
+		r.Inputs.DType = dtype
+		out := filepath.Join(outDir, strings.ReplaceAll(r.Name, "/", "_")+".h5")
+		res[i] = studyResult{Recording: r.Name}
+		rep, err := convert.ImportRecording(r.Inputs, out, recfile.WriteOptions{Overwrite: overwrite})
+		res[i].Report = rep
+		if err != nil {
+			res[i].Error = err.Error()
+			return err
+		}
+		res[i].Output = out
+		return nil
+	}, func(int, error) { bar.Add(1) })
+	bar.Finish()
+	return res, nil
+}
+
+func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile, dtype record.SampleType) error {
+	shard, err := batch.ParseShard(fl.shard)
+	if err != nil {
+		return withExit(2, err)
+	}
+	if st, err := os.Stat(src); err != nil || !st.IsDir() {
+		return withExit(2, fmt.Errorf("%s: not a folder", src))
+	}
+	res, err := importStudyDir(src, fl.out, prof, dtype, shard, fl.workers, fl.overwrite, "import")
+	if err != nil {
+		return withExit(2, err)
+	}
+	var failed []string
+	for _, r := range res {
+		if r.Error != "" {
+			failed = append(failed, r.Recording)
+		}
+	}
+	if fl.json {
+		printJSON(w, map[string]any{"recordings": res, "failed": failed})
+	} else {
+		for _, r := range res {
+			if r.Error != "" {
+				fmt.Fprintf(w, "FAILED %s: %s\n", r.Recording, r.Error)
+				continue
+			}
+			printReport(w, r.Report)
+		}
+		if len(failed) > 0 {
+			fmt.Fprintf(w, "%d of %d recordings failed: %s\n", len(failed), len(res), strings.Join(failed, ", "))
+		} else {
+			fmt.Fprintf(w, "imported %d recordings into %s\n", len(res), fl.out)
+		}
+	}
+	if len(failed) > 0 {
+		return silentExit(1)
+	}
+	return nil
+}
