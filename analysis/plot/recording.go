@@ -32,6 +32,9 @@ type Options struct {
 	// they came from; nil uses the stored ones (Decomposition.MUAPs) and
 	// draws no grid without them.
 	Templates func(ti, ai, di int) (*analysis.Templates, string)
+	// MUAPGrid says whether to draw a decomposition's template grid; nil
+	// draws every one.
+	MUAPGrid func(ti, ai, di int) bool
 }
 
 // Notes say what a figure set left out.
@@ -91,6 +94,9 @@ func RecordingFigures(rec *record.Recording, st []analysis.DecompositionStats, o
 						label += " " + dec.Name
 					}
 					levels[arr.Name] = append(levels[arr.Name], Level{Stats: ds, Label: label})
+				}
+				if opt.MUAPGrid != nil && !opt.MUAPGrid(ti, ai, di) {
+					continue
 				}
 				var tp *analysis.Templates
 				src := "stored"

@@ -1,0 +1,342 @@
+package report
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"math"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"muarc/analysis"
+	"muarc/analysis/plot"
+	"muarc/archive"
+	"muarc/recfile"
+	"muarc/record"
+	"muarc/schema"
+	"muarc/validate"
+)
+
+// BuildOptions tune Build.
+type BuildOptions struct {
+	// Title heads the page; "" gives "Study report: <folder name>".
+	Title string
+	// Validate sets the validation options; the zero value means
+	// validate.DefaultOptions().
+	Validate *validate.Options
+	// Progress, when set, is called after each recording (done of total).
+	Progress func(done, total int)
+	// Now is the report's time stamp; zero means time.Now().
+	Now time.Time
+}
+
+// Build reads every recording under dir (archive.FindRecordings) and makes
+// the report page: the index (archive.Index), per recording the validation
+// summary (validate.File), the derived figures per decomposition
+// (analysis.Recording) and the figures, and the data dictionary
+// (archive.DataDictionary).
+//
+// Figures per recording, to keep the page light: for each array the
+// decomposition edited by hand (the last such), else the last one; its
+// overview in every trial; the rate-versus-threshold scatter per array
+// name; and the MUAP grid of the trial with the highest target level
+// (stored templates when the file has them, else averaged from the EMG).
+// `muarc plot` draws all of them.
+func Build(dir string, opt BuildOptions) (*Page, error) {
+	files, skipped, err := archive.FindRecordings(dir)
+	if err != nil {
+		return nil, err
+	}
+	if len(files) == 0 {
+		return nil, fmt.Errorf("%s: no recordings (*.h5, *.hdf5) in the folder", dir)
+	}
+	now := opt.Now
+	if now.IsZero() {
+		now = time.Now()
+	}
+	vopt := validate.DefaultOptions()
+	if opt.Validate != nil {
+		vopt = *opt.Validate
+	}
+	title := opt.Title
+	if title == "" {
+		abs, _ := filepath.Abs(dir)
+		title = "Study report: " + filepath.Base(abs)
+	}
+	p := &Page{Title: title, Generated: now.UTC().Format(time.RFC3339), Software: schema.Software, Folder: dir}
+	if len(skipped) > 0 {
+		p.Notes = append(p.Notes, fmt.Sprintf("%d file(s) in the folder are not recordings and are left out: %s", len(skipped), strings.Join(skipped, ", ")))
+	}
+	rows, ierr := archive.Index(dir, archive.AnyLevel())
+	p.Index = indexTable(rows)
+	if ierr != nil {
+		p.Notes = append(p.Notes, "Some recordings could not be indexed: "+ierr.Error())
+	}
+	for i, rel := range files {
+		p.Recordings = append(p.Recordings, section(filepath.Join(dir, filepath.FromSlash(rel)), rel, vopt))
+		if opt.Progress != nil {
+			opt.Progress(i+1, len(files))
+		}
+	}
+	p.Derived = derivedTable()
+	dict, derr := archive.DataDictionary()
+	if derr != nil {
+		p.Dictionary = Table{Empty: "The data dictionary could not be made: " + derr.Error()}
+	} else {
+		p.Dictionary = dictionaryTable(dict)
+	}
+	return p, nil
+}
+
+func fmtNum(v float64, prec int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "–"
+	}
+	return strconv.FormatFloat(v, 'f', prec, 64)
+}
+
+func indexTable(rows []archive.IndexRow) Table {
+	t := Table{Caption: "Index: one row per recording, trial and array",
+		Columns: []string{"file", "subject", "session", "trial", "level (% MVC)", "array", "muscle", "EMG (s)", "channels", "decomposition", "units", "discharges", "low-confidence units"},
+		Empty:   "no recording could be indexed"}
+	for _, r := range rows {
+		dec := r.Decomposition
+		if r.Decompositions > 1 {
+			dec = fmt.Sprintf("%s (of %d)", dec, r.Decompositions)
+		}
+		t.Rows = append(t.Rows, []string{r.File, r.Subject, r.Session, r.Trial, fmtNum(r.LevelPctMVC, 0), r.Array, r.Muscle,
+			fmtNum(r.DurationS, 1), strconv.Itoa(r.Channels), dec, strconv.Itoa(r.Units), strconv.FormatInt(r.Discharges, 10), strconv.Itoa(r.LowConfidenceUnits)})
+	}
+	return t
+}
+
+// section makes one recording's part of the page. Problems reading it are
+// shown in the section, never dropped.
+func section(path, rel string, vopt validate.Options) Section {
+	s := Section{File: rel}
+	rep := validate.File(path, vopt)
+	errs, warns, notes := rep.Count(validate.Error), rep.Count(validate.Warning), rep.Count(validate.Note)
+	switch {
+	case rep.ReadError != "":
+		s.Status, s.Class = "could not read", "bad"
+	case errs > 0:
+		s.Status, s.Class = "invalid", "bad"
+	case warns > 0:
+		s.Status, s.Class = "valid with warnings", "warn"
+	default:
+		s.Status, s.Class = "valid", "ok"
+	}
+	s.Validation = Table{Caption: fmt.Sprintf("Validation: %d error(s), %d warning(s), %d note(s), grouped by check", errs, warns, notes),
+		Columns: []string{"severity", "check", "findings", "first at", "first message"}, Empty: "no findings"}
+	if rep.ReadError != "" {
+		s.Validation.Empty = "the file could not be read: " + rep.ReadError
+		return s
+	}
+	s.Validation.Rows = groupFindings(rep.Findings)
+	if len(rep.Findings) > 0 {
+		s.Notes = append(s.Notes, fmt.Sprintf("`muarc validate %s` lists every finding with its hint.", rel))
+	}
+	fh, err := recfile.Open(path)
+	if err != nil {
+		s.Notes = append(s.Notes, "Derived figures and plots are missing: "+err.Error())
+		return s
+	}
+	defer fh.Close()
+	rec := fh.Recording()
+	st := analysis.Recording(rec)
+	s.Summary = summary(rec)
+	s.Stats = statsTable(st)
+	for _, d := range st {
+		for _, n := range d.Notes {
+			s.Notes = append(s.Notes, fmt.Sprintf("%s/%s/%s: %s", d.Trial, d.Array, d.Decomposition, n))
+		}
+	}
+	figs, fnotes, ferr := figures(rec, st)
+	if ferr != nil {
+		s.Notes = append(s.Notes, "Some figures are missing: "+ferr.Error())
+	}
+	s.Notes = append(s.Notes, fnotes...)
+	s.Figures = figs
+	return s
+}
+
+// groupFindings gives one row per severity and check: how many findings,
+// and where and what the first one is. Worst severity first.
+func groupFindings(fs []validate.Finding) [][]string {
+	type key struct {
+		sev   validate.Severity
+		check string
+	}
+	var order []key
+	count := map[key]int{}
+	first := map[key]validate.Finding{}
+	for _, f := range fs {
+		k := key{f.Severity, f.Check}
+		if count[k] == 0 {
+			order = append(order, k)
+			first[k] = f
+		}
+		count[k]++
+	}
+	sort.SliceStable(order, func(i, j int) bool { return order[i].sev > order[j].sev })
+	var rows [][]string
+	for _, k := range order {
+		f := first[k]
+		where := f.HDF5Path
+		if where == "" {
+			where = f.JSONPath
+		}
+		rows = append(rows, []string{k.sev.String(), k.check, strconv.Itoa(count[k]), where, f.Message})
+	}
+	return rows
+}
+
+func summary(rec *record.Recording) string {
+	arrays, units := 0, 0
+	for _, tr := range rec.Trials {
+		arrays += len(tr.Arrays)
+		for _, a := range tr.Arrays {
+			for _, d := range a.Decompositions {
+				units += len(d.Units)
+			}
+		}
+	}
+	subj := rec.Subject.ID
+	if subj == "" {
+		subj = "(not given)"
+	}
+	return fmt.Sprintf("Subject %s, session %s: %d trial(s), %d array recording(s), %d motor units over all decompositions.",
+		subj, orDash(rec.Session.ID), len(rec.Trials), arrays, units)
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "–"
+	}
+	return s
+}
+
+func statsTable(st []analysis.DecompositionStats) Table {
+	t := Table{Caption: "Derived figures per decomposition (regressions on recruitment threshold, % MVC)",
+		Columns: []string{"trial", "array", "decomposition", "units", "plateau (s)", "plateau rate: slope (pps/%MVC)", "intercept (pps)", "R²", "n",
+			"initial rate: slope (pps/%MVC)", "intercept (pps)", "R²", "n"},
+		Empty: "no decompositions"}
+	for _, d := range st {
+		pl := "–"
+		if d.Plateau != nil {
+			pl = fmt.Sprintf("%.2f–%.2f", d.Plateau.StartS, d.Plateau.EndS)
+		}
+		f, g := d.PlateauRateFit, d.InitialRateFit
+		t.Rows = append(t.Rows, []string{d.Trial, d.Array, d.Decomposition, strconv.Itoa(len(d.Units)), pl,
+			fmtNum(f.Slope, 3), fmtNum(f.Intercept, 2), fmtNum(f.R2, 2), strconv.Itoa(f.N),
+			fmtNum(g.Slope, 3), fmtNum(g.Intercept, 2), fmtNum(g.R2, 2), strconv.Itoa(g.N)})
+	}
+	return t
+}
+
+// chosenDecomposition is the one the index counts: the last edited by hand,
+// else the last.
+func chosenDecomposition(arr *record.Array) []int {
+	if len(arr.Decompositions) == 0 {
+		return nil
+	}
+	pick := len(arr.Decompositions) - 1
+	for i, d := range arr.Decompositions {
+		if d.EditedByHand {
+			pick = i
+		}
+	}
+	return []int{pick}
+}
+
+func figures(rec *record.Recording, st []analysis.DecompositionStats) ([]Figure, []string, error) {
+	// The trial with the highest target level of each array name gets the
+	// MUAP grid.
+	top := map[string]int{}
+	for ti, tr := range rec.Trials {
+		for _, a := range tr.Arrays {
+			if j, ok := top[a.Name]; !ok || tr.TargetPctMVC > rec.Trials[j].TargetPctMVC {
+				top[a.Name] = ti
+			}
+		}
+	}
+	var errs []error
+	cache := map[[2]int][]*analysis.Templates{}
+	opt := plot.Options{
+		Decomposition: chosenDecomposition,
+		MUAPGrid: func(ti, ai, di int) bool {
+			return top[rec.Trials[ti].Arrays[ai].Name] == ti
+		},
+		Templates: func(ti, ai, di int) (*analysis.Templates, string) {
+			arr := &rec.Trials[ti].Arrays[ai]
+			if t := plot.StoredTemplates(&arr.Decompositions[di]); t != nil {
+				return t, "stored"
+			}
+			k := [2]int{ti, ai}
+			ts, ok := cache[k]
+			if !ok && arr.Samples != nil {
+				var err error
+				ts, err = analysis.ArrayTemplates(arr, analysis.MUAPHalfWindowS)
+				if err != nil {
+					errs = append(errs, err)
+				}
+				cache[k] = ts
+			}
+			if ts == nil {
+				return nil, ""
+			}
+			return ts[di], "averaged"
+		},
+	}
+	named, notes := plot.RecordingFigures(rec, st, opt)
+	// Overviews first (trial order), then the scatter, then the grids.
+	rank := map[string]int{"overview": 0, "rates": 1, "muaps": 2}
+	sort.SliceStable(named, func(i, j int) bool { return rank[named[i].Kind] < rank[named[j].Kind] })
+	var out []Figure
+	for _, n := range named {
+		var b bytes.Buffer
+		if err := n.Figure.WriteSVG(&b); err != nil {
+			errs = append(errs, fmt.Errorf("%s: %w", n.Name, err))
+			continue
+		}
+		cap := n.Caption
+		if n.Kind == "muaps" {
+			cap += " Templates: " + n.Templates + "."
+		}
+		out = append(out, Figure{Caption: cap, SVG: b.Bytes()})
+	}
+	return out, notes, errors.Join(errs...)
+}
+
+func derivedTable() Table {
+	t := Table{Caption: "How the derived figures and plots are computed (package analysis)", Columns: []string{"figure", "rule"}}
+	m := analysis.Method()
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		t.Rows = append(t.Rows, []string{k, fmt.Sprint(m[k])})
+	}
+	t.Rows = append(t.Rows,
+		[]string{"smoothed rate", fmt.Sprintf("discharge train convolved with a unit-area Hann window %.0f ms long", 1000*analysis.SmoothedRateWindowS)},
+		[]string{"peak-to-peak map", "max - min of each channel's template over its lags, placed on the electrode grid"})
+	return t
+}
+
+func dictionaryTable(d []archive.DictEntry) Table {
+	t := Table{Caption: "Fields of the metadata view (schema/recording.schema.json)",
+		Columns: []string{"field", "type", "unit", "required", "meaning", "allowed"}, Empty: "empty"}
+	for _, e := range d {
+		req := ""
+		if e.Required {
+			req = "yes"
+		}
+		t.Rows = append(t.Rows, []string{e.Field, e.Type, e.Unit, req, e.Meaning, e.Allowed})
+	}
+	return t
+}

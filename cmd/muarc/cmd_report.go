@@ -1,0 +1,120 @@
+package main
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+
+	"github.com/spf13/cobra"
+
+	"muarc/analysis/report"
+	"muarc/internal/atomicfile"
+)
+
+var reportFlags struct {
+	out, title      string
+	json, overwrite bool
+}
+
+var reportCmd = &cobra.Command{
+	Use:   "report DIR -o report.html",
+	Short: "Write one self-contained HTML page about a study folder",
+	Long: `report reads every recording under DIR (*.h5, *.hdf5, recursively; names
+starting with "." are skipped) and writes one HTML page: the index (one row
+per recording, trial and array), per recording its validation summary (the
+findings of muarc validate grouped by check), its derived figures per
+decomposition (as muarc stats: plateau, rate regressions on recruitment
+threshold) and its figures inline as SVG (as muarc plot: per array the
+decomposition edited by hand, else the last one; the overview of every trial,
+the rate-versus-threshold scatter, the MUAP grid of the highest target
+level), how the figures are computed, and the data dictionary.
+
+The page has no scripts and loads nothing from anywhere: it opens in a
+browser with no network and can be mailed or archived as it is. It shows
+what the files hold: before a study is shared, the ethics board, the consent
+given and local data-protection law decide what may leave the lab.
+
+Exit status: 0 written, 2 the folder could not be read or the page not
+written (or bad usage). Recordings that fail validation or cannot be read
+are shown as such in the page.`,
+	Args: cobra.ExactArgs(1),
+	RunE: runReport,
+}
+
+func init() {
+	f := reportCmd.Flags()
+	f.StringVarP(&reportFlags.out, "output", "o", "", "the HTML file to write (required)")
+	f.StringVar(&reportFlags.title, "title", "", "page title (default: \"Study report: \" and the folder name)")
+	f.BoolVar(&reportFlags.overwrite, "overwrite", false, "replace the output file if it exists")
+	f.BoolVar(&reportFlags.json, "json", false, "print a summary of what was written as JSON")
+	reportCmd.MarkFlagRequired("output")
+	rootCmd.AddCommand(reportCmd)
+}
+
+// reportSummary says what a report holds.
+type reportSummary struct {
+	Report     string   `json:"report"`
+	Bytes      int      `json:"bytes"`
+	Recordings int      `json:"recordings"`
+	Figures    int      `json:"figures"`
+	Statuses   []string `json:"statuses"`
+	Notes      []string `json:"notes"`
+}
+
+// writeReport builds the page for dir and writes it atomically to out.
+func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error) {
+	if err := atomicfile.CheckTarget(out, overwrite); err != nil {
+		return nil, err
+	}
+	var bar *progress
+	p, err := report.Build(dir, report.BuildOptions{Title: title, Progress: func(done, total int) {
+		if bar == nil {
+			bar = newProgress("report", int64(total))
+		}
+		bar.Add(1)
+	}})
+	if bar != nil {
+		bar.Finish()
+	}
+	if err != nil {
+		return nil, err
+	}
+	var b bytes.Buffer
+	if err := report.Render(&b, p); err != nil {
+		return nil, err
+	}
+	if err := atomicfile.WriteFile(out, b.Bytes(), overwrite); err != nil {
+		return nil, err
+	}
+	s := &reportSummary{Report: out, Bytes: b.Len(), Recordings: len(p.Recordings), Notes: p.Notes}
+	if s.Notes == nil {
+		s.Notes = []string{}
+	}
+	for _, r := range p.Recordings {
+		s.Figures += len(r.Figures)
+		s.Statuses = append(s.Statuses, r.File+": "+r.Status)
+	}
+	return s, nil
+}
+
+func runReport(cmd *cobra.Command, args []string) error {
+	if st, err := os.Stat(args[0]); err != nil || !st.IsDir() {
+		return withExit(2, fmt.Errorf("%s: not a folder (give the folder holding the recordings)", args[0]))
+	}
+	s, err := writeReport(args[0], reportFlags.out, reportFlags.title, reportFlags.overwrite)
+	if err != nil {
+		return withExit(2, err)
+	}
+	w := cmd.OutOrStdout()
+	if reportFlags.json {
+		return printJSON(w, s)
+	}
+	fmt.Fprintf(w, "wrote %s (%d recordings, %d figures, %.1f MB)\n", s.Report, s.Recordings, s.Figures, float64(s.Bytes)/1e6)
+	for _, st := range s.Statuses {
+		fmt.Fprintf(w, "  %s\n", st)
+	}
+	for _, n := range s.Notes {
+		fmt.Fprintf(w, "note: %s\n", n)
+	}
+	return nil
+}

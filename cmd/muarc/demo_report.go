@@ -1,0 +1,50 @@
+package main
+
+import (
+	"fmt"
+	"path/filepath"
+)
+
+func init() {
+	registerDemoStep(60, "report", demoReport)
+}
+
+// demoReport derives the unit figures and MUAP templates of every recording
+// the demo wrote and stores them in the files (muarc stats --write), then
+// writes the study's HTML report into the demo folder and says where it is.
+func demoReport(ctx *demoContext) error {
+	if len(ctx.Recordings) == 0 {
+		return nil
+	}
+	bar := newProgress("stats", int64(len(ctx.Recordings)))
+	units := 0
+	for _, path := range ctx.Recordings {
+		res, err := statsFile(path, true, true)
+		if err != nil {
+			bar.Finish()
+			return fmt.Errorf("stats: %w", err)
+		}
+		for _, d := range res.Decompositions {
+			units += len(d.Units)
+		}
+		bar.Add(1)
+	}
+	bar.Finish()
+	dir := ctx.RecordingsDir
+	if dir == "" {
+		dir = filepath.Dir(ctx.Recordings[0])
+	}
+	out := filepath.Join(ctx.Dir, "report.html")
+	s, err := writeReport(dir, out, "Demo study report", true)
+	if err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	if ctx.JSON {
+		ctx.Summary["stats"] = map[string]any{"recordings": len(ctx.Recordings), "units": units, "stored": true}
+		ctx.Summary["report"] = s
+		return nil
+	}
+	fmt.Fprintf(ctx.Out, "\nStats (muarc stats --write): figures and MUAP templates of %d units stored in %d recordings\n", units, len(ctx.Recordings))
+	fmt.Fprintf(ctx.Out, "Report (muarc report): %s — %d recordings, %d figures; open it in any browser, no network needed\n", out, s.Recordings, s.Figures)
+	return nil
+}
