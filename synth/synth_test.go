@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"reflect"
 	"regexp"
+	"runtime"
 	"sort"
 	"strings"
 	"testing"
@@ -726,4 +727,36 @@ func TestEdgeConfigs(t *testing.T) {
 			}
 		}
 	}
+}
+
+// TestStreamingMemoryStaysFlat: a 600 s, 64-channel source holds only its
+// templates and discharge lists, and reading a block allocates nothing
+// proportional to the block after the first read.
+func TestStreamingMemoryStaysFlat(t *testing.T) {
+	var before, after runtime.MemStats
+	runtime.GC()
+	runtime.ReadMemStats(&before)
+	s := BenchSource(64, 2048, 600, 3)
+	runtime.GC()
+	runtime.ReadMemStats(&after)
+	rows, ch := s.Shape()
+	if rows != 600*2048 || ch != 64 {
+		t.Fatalf("shape %d x %d", rows, ch)
+	}
+	if grown := int64(after.HeapAlloc) - int64(before.HeapAlloc); grown > 4<<20 {
+		t.Fatalf("a 600 s source holds %d bytes; the samples would be %d", grown, rows*ch*4)
+	}
+	buf := make([]float32, 4096*ch)
+	if err := s.ReadFloat32(rows/2, buf); err != nil {
+		t.Fatal(err)
+	}
+	allocs := testing.AllocsPerRun(5, func() {
+		if err := s.ReadFloat32(rows/3, buf); err != nil {
+			t.Fatal(err)
+		}
+	})
+	if allocs > 2 {
+		t.Fatalf("%.0f allocations per 4096-row read", allocs)
+	}
+	runtime.KeepAlive(s)
 }
