@@ -258,6 +258,18 @@ func TestKAnonymity(t *testing.T) {
 	if !r.Lifted || len(r.Steps) == 0 || r.Steps[len(r.Steps)-1].BelowK != 0 {
 		t.Fatalf("steps %+v", r.Steps)
 	}
+	// By hand: c joins a,b,d,e once dominant side goes (cost 1); f and g
+	// (male, 80-90 kg) differ in age (40-49, 50-59: one 40-59 band of 20
+	// years, cost 1) and height (180-190, 170-180: 20 cm bands still split
+	// them as 180-200 and 160-180, so height goes, cost 2). Total 4; nothing
+	// cheaper reaches 0 below k.
+	var changes []string
+	for _, st := range r.Steps {
+		changes = append(changes, st.Change)
+	}
+	if got := strings.Join(changes, "; "); got != "age bands of 20 years; height bands of 20 cm; drop height; drop dominant_side" {
+		t.Errorf("steps %s", got)
+	}
 	// Applying the steps by hand must give what they claim.
 	cur := subs
 	level := map[string]int{}

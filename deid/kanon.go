@@ -58,8 +58,9 @@ type KReport struct {
 	// GroupsBelowK are those groups.
 	GroupsBelowK []KGroup `json:"groups_below_k"`
 	// Steps are generalisations, applied in order, that would lift the
-	// subjects below k (greedy: each step is the one that leaves fewest
-	// below k). Empty when none is needed.
+	// subjects below k: the least costly combination of widened bands and
+	// dropped quasi-identifiers that leaves fewest subjects below k, found by
+	// trying every combination. Empty when none is needed.
 	Steps []KStep `json:"generalisations"`
 	// Lifted is true when the steps bring every subject to a group of at
 	// least K; otherwise the remaining subjects would have to be withheld.
@@ -101,35 +102,66 @@ func KAnonymity(subjects []SubjectQuasi, k int) *KReport {
 		r.Lifted = true
 		return r
 	}
-	// Greedy search over generalisation ladders.
-	level := map[string]int{}
+	levels, below := bestLevels(subjects, k)
+	// The steps of the chosen combination, in ladder order, each with the
+	// count below k once it and the ones before it are applied.
 	cur := subjects
-	below := len(r.BelowK)
-	for below > 0 {
-		best, bestBelow := "", below
-		var bestSet []SubjectQuasi
-		for _, q := range QuasiNames {
-			if level[q]+1 >= len(ladders[q]) {
-				continue
-			}
-			next := generalise(cur, q, ladders[q][level[q]+1])
-			if b := countBelow(next, k); b < bestBelow || best == "" && b <= bestBelow {
-				best, bestBelow, bestSet = q, b, next
-			}
+	for _, q := range QuasiNames {
+		for l := 1; l <= levels[q]; l++ {
+			cur = generalise(cur, q, ladders[q][l])
+			st := ladders[q][l]
+			r.Steps = append(r.Steps, KStep{Change: st.change, PolicyHint: st.hint, BelowK: countBelow(cur, k)})
 		}
-		if best == "" {
-			break
-		}
-		level[best]++
-		step := ladders[best][level[best]]
-		r.Steps = append(r.Steps, KStep{Change: step.change, PolicyHint: step.hint, BelowK: bestBelow})
-		cur, below = bestSet, bestBelow
 	}
 	r.Lifted = below == 0
 	if !r.Lifted {
-		r.Notes = append(r.Notes, fmt.Sprintf("%d subject(s) stay below k even with every generalisation; withholding them is the remaining choice", below))
+		r.Notes = append(r.Notes, fmt.Sprintf("%d subject(s) stay below k even with these generalisations; withholding them is the remaining choice", below))
 	}
 	return r
+}
+
+// qiWeight is the information a level of generalisation of each
+// quasi-identifier costs; sex weighs most, being the coarsest and most used
+// in analyses (a choice of ours).
+var qiWeight = map[string]int{"age_band": 1, "height": 1, "mass": 1, "dominant_side": 1, "sex": 3}
+
+// bestLevels tries every combination of ladder levels (4*3*3*2*2 = 144) and
+// returns the one that leaves fewest subjects below k and, among those, costs
+// least; later rungs of a ladder include the earlier ones.
+func bestLevels(subjects []SubjectQuasi, k int) (map[string]int, int) {
+	var best map[string]int
+	bestBelow, bestCost := math.MaxInt, math.MaxInt
+	level := map[string]int{}
+	var try func(i int)
+	try = func(i int) {
+		if i == len(QuasiNames) {
+			cur := subjects
+			cost := 0
+			for _, q := range QuasiNames {
+				if l := level[q]; l > 0 {
+					cur = generalise(cur, q, ladders[q][l])
+					cost += l * qiWeight[q]
+				}
+			}
+			b := countBelow(cur, k)
+			if b < bestBelow || b == bestBelow && cost < bestCost {
+				best = map[string]int{}
+				for q, l := range level {
+					best[q] = l
+				}
+				bestBelow, bestCost = b, cost
+			}
+			return
+		}
+		q := QuasiNames[i]
+		for l := 0; l < len(ladders[q]); l++ {
+			level[q] = l
+			try(i + 1)
+		}
+		level[q] = 0
+	}
+	try(0)
+	return best, bestBelow
 }
 
 func groupBy(subjects []SubjectQuasi) []KGroup {

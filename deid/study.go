@@ -182,7 +182,19 @@ func DeidentifyStudy(srcDir, outDir string, opt StudyOptions) (*StudyReport, err
 	if len(inputs) == 0 {
 		return nil, fmt.Errorf("%s: no muarc files (*.h5) found", srcDir)
 	}
-	sel := opt.Shard.Select(inputs)
+	return DeidentifyFiles(srcDir, inputs, outDir, opt)
+}
+
+// DeidentifyFiles is DeidentifyStudy for a given list of files, named
+// relative to srcDir (opt.Shard selects among them).
+func DeidentifyFiles(srcDir string, rels []string, outDir string, opt StudyOptions) (*StudyReport, error) {
+	if opt.Key == nil {
+		return nil, fmt.Errorf("no key: make one with `muarc key new FILE` and give --key")
+	}
+	sel := opt.Shard.Select(rels)
+	if len(sel) == 0 {
+		return nil, fmt.Errorf("shard %s holds no file", opt.Shard)
+	}
 	jobs := make([]*job, len(sel))
 	for i, rel := range sel {
 		jobs[i] = &job{in: filepath.Join(srcDir, rel), rel: rel}
