@@ -10,10 +10,48 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
 
 	"muarc/schema"
 )
+
+// sharedExports writes the TestConfig exports once for the tests that only
+// read them; TestMain removes the folder.
+var sharedExports struct {
+	once sync.Once
+	dir  string
+	g    *Generated
+	err  error
+}
+
+func exportsOnce(t *testing.T) (string, *Generated) {
+	t.Helper()
+	sharedExports.once.Do(func() {
+		gs, err := Generate(TestConfig())
+		if err != nil {
+			sharedExports.err = err
+			return
+		}
+		sharedExports.g = gs[0]
+		sharedExports.dir, sharedExports.err = os.MkdirTemp("", "synth-exports-")
+		if sharedExports.err == nil {
+			sharedExports.err = gs[0].WriteExports(sharedExports.dir)
+		}
+	})
+	if sharedExports.err != nil {
+		t.Fatal(sharedExports.err)
+	}
+	return sharedExports.dir, sharedExports.g
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if sharedExports.dir != "" {
+		os.RemoveAll(sharedExports.dir)
+	}
+	os.Exit(code)
+}
 
 // readTable reads an export: the "key: value" block up to the blank line
 // (absent when the first line is a header), the header row and the rows.
@@ -71,11 +109,7 @@ func num(t *testing.T, s string) float64 {
 // plain parser and finds the recording's values exactly (the generator
 // quantises EMG to 0.01 uV and force to 0.0001 N, the export resolution).
 func TestExportsCarryTheRecordingExactly(t *testing.T) {
-	g := generate(t, TestConfig())[0]
-	dir := t.TempDir()
-	if err := g.WriteExports(dir); err != nil {
-		t.Fatal(err)
-	}
+	dir, g := exportsOnce(t)
 	root := filepath.Join(dir, "S01")
 	rec := g.Recording
 
@@ -206,11 +240,7 @@ func TestExportsReadByNumpy(t *testing.T) {
 		}
 		t.Skipf("%s with numpy not available: %v", py, err)
 	}
-	g := generate(t, TestConfig())[0]
-	dir := t.TempDir()
-	if err := g.WriteExports(dir); err != nil {
-		t.Fatal(err)
-	}
+	dir, g := exportsOnce(t)
 	tr := g.Recording.Trials[0]
 	a := tr.Arrays[1]
 	td := filepath.Join(dir, "S01", tr.Name)
@@ -266,12 +296,8 @@ func TestSidecarValidatesAgainstSchema(t *testing.T) {
 		}
 		t.Skipf("%s with jsonschema not available: %v", py, err)
 	}
-	g := generate(t, TestConfig())[0]
-	dir := t.TempDir()
-	if err := g.WriteExports(dir); err != nil {
-		t.Fatal(err)
-	}
-	sch := filepath.Join(dir, "schema.json")
+	dir, g := exportsOnce(t)
+	sch := filepath.Join(t.TempDir(), "schema.json")
 	if err := os.WriteFile(sch, []byte(schema.RecordingSchema), 0o644); err != nil {
 		t.Fatal(err)
 	}
