@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"testing"
 
+	"muarc/recfile"
 	"muarc/record"
 )
 
@@ -68,5 +69,26 @@ func BenchmarkScanAndStream64x2048x60(b *testing.B) {
 			}
 		}
 		src.Close()
+	}
+}
+
+// BenchmarkImportCSV64x2048x60 imports a generated 64-channel, 2048 Hz, 60 s
+// EMG CSV with six decimals (about 76 MB) into a muarc file: both text
+// passes and the HDF5 writer (shuffle + deflate 4 + Fletcher-32).
+func BenchmarkImportCSV64x2048x60(b *testing.B) {
+	dir := b.TempDir()
+	p := filepath.Join(dir, "emg.csv")
+	size := writeBenchCSV(b, p, 64, 2048, 60)
+	b.SetBytes(size)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		out := filepath.Join(dir, "out.h5")
+		rep, err := ImportRecording(Inputs{EMG: []string{p}}, out, recfile.WriteOptions{Overwrite: true})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if rep.Files[0].DType != "float32" {
+			b.Fatal(rep.Files[0].DTypeWhy)
+		}
 	}
 }
