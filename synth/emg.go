@@ -180,10 +180,10 @@ var normTable = func() []float32 {
 // BenchSource returns a cheap, realistic-looking streaming EMG source for
 // benchmarks: channels channels on a near-square grid with 8 mm spacing, eight
 // motor units discharging at 10-25 pps (ISI CoV 0.15) for the whole duration,
-// MUAPs of about 25 ms, Gaussian noise at 10 dB SNR, in uV quantised to
-// 0.01 uV. rateHz is the sampling rate in Hz, seconds the duration. The same
+// MUAPs of 29 ms, Gaussian noise at 10 dB SNR, in uV quantised to 0.01 uV.
+// rateHz is the sampling rate in Hz, seconds the duration. The same
 // arguments give the same values; memory is the templates and discharge lists
-// only (about 0.6 MB for 64 channels x 600 s).
+// only (under 1 MB for 64 channels x 600 s).
 func BenchSource(channels int, rateHz, seconds float64, seed uint64) record.SampleSource {
 	if channels < 1 {
 		channels = 1

@@ -342,7 +342,7 @@ func generateSubject(cfg Config, s int) (*Generated, error) {
 			Notes:       fmt.Sprintf("trial %d of %d; 2 min rest before", li+1, len(cfg.LevelsPctMVC)),
 		}
 		tt := TrialTruth{Trial: name, TargetPctMVC: level, PlateauStart: pl0, PlateauEnd: pl1,
-			PlateauExcitationPct: ePl, ForceScale: scale}
+			PlateauExcitationPct: ePl, ExcitationLeadS: float64(lead) / fs, ForceScale: scale}
 		for ai := range plans {
 			arr, at := buildArray(cfg, s, li, ai, &plans[ai], disc[ai], force, mvc, ePl, scale*newtonPerUnit, pl0, pl1, tab, p.side)
 			trial.Arrays = append(trial.Arrays, arr)

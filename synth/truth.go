@@ -26,6 +26,9 @@ type TrialTruth struct {
 	// PlateauExcitationPct is the excitation (% of maximal) that holds the
 	// target in the model's steady state.
 	PlateauExcitationPct float64 `json:"plateau_excitation_pct"`
+	// ExcitationLeadS is how far ahead of the target the excitation runs,
+	// s (the mean twitch delay plus 50 ms).
+	ExcitationLeadS float64 `json:"excitation_lead_s"`
 	// ForceScale is the per-trial factor applied to the summed twitches so
 	// that the mean plateau force equals the target (close to 1).
 	ForceScale float64      `json:"force_scale"`
