@@ -22,11 +22,12 @@ const monthRE = `(?:January|February|March|April|May|June|July|August|September|
 
 // scrubRules run in order; each replaces its matches by "[kind]". The kinds
 // follow the Safe Harbor list (45 CFR 164.514(b)(2)(i)): (A) names, (B)
-// street addresses and ZIP codes, (C) dates, (D)-(E) phone and fax numbers,
-// (F) e-mail addresses, (G)-(L) and (M)-(N) numbers and codes (social
-// security, record, plan, account, licence, vehicle and device numbers),
-// (N)-(O) URLs and IP addresses. Names of people other than the subject
-// cannot be found by pattern except after a title ("Dr. X").
+// street addresses and ZIP codes, (C) dates, (D)-(E) telephone and fax
+// numbers, (F) e-mail addresses, (G)-(M) numbers and codes (social security,
+// medical record, health plan, account, certificate and licence numbers,
+// vehicle and device identifiers and serial numbers), (N) URLs and (O) IP
+// addresses. Names of people other than the subject cannot be found by
+// pattern except after a title ("Dr. X").
 var scrubRules = []struct {
 	kind string
 	re   *regexp.Regexp
