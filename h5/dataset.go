@@ -7,6 +7,7 @@ import "C"
 
 import (
 	"fmt"
+	"sync"
 	"unsafe"
 )
 
@@ -17,13 +18,18 @@ type Dataset struct {
 	Type string
 	// Shape and MaxShape are the extent (-1 in MaxShape = unlimited).
 	Shape, MaxShape []int
+
+	planOnce sync.Once
+	rect     *rectPlan
+	cache    *chunkCache
 }
 
 // columnChunk is the chunk length of 1-D numeric columns (elements).
 const columnChunk = 1 << 16
 
-// OpenDataset opens a child dataset. cacheBytes > 0 sets the chunk cache
-// size for it (bytes), so block-wise readers do not inflate a chunk twice.
+// OpenDataset opens a child dataset. cacheBytes > 0 sets the size of its
+// chunk caches (the library's and ReadRect's, bytes each), so block-wise
+// readers do not inflate a chunk twice.
 func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
@@ -38,7 +44,7 @@ func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 	if id < 0 {
 		return nil, fail(g.file, g.child(name), "open dataset")
 	}
-	d := &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}}
+	d := &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, cache: &chunkCache{limit: cacheBytes}}
 	t := C.H5Dget_type(id)
 	d.Type = typeName(t)
 	C.H5Tclose(t)

@@ -10,7 +10,7 @@ package h5
 
 /*
 #cgo pkg-config: hdf5
-#cgo LDFLAGS: -lz
+#cgo LDFLAGS: -ldeflate
 #include "shim.h"
 */
 import "C"

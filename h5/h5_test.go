@@ -148,6 +148,27 @@ func TestRoundTrip(t *testing.T) {
 			t.Fatalf("channel read %d", i)
 		}
 	}
+	// The parallel raw-chunk path agrees with the library's pipeline on
+	// rectangles that cut chunks at every edge.
+	for _, r := range [][4]int{{0, 1000, 0, 11}, {255, 2, 3, 2}, {1, 999, 10, 1}, {700, 300, 0, 5}, {999, 1, 0, 11}} {
+		a := make([]float32, r[1]*r[3])
+		b := make([]float32, r[1]*r[3])
+		c := make([]float64, r[1]*r[3])
+		if err := d.ReadRect32(r[0], r[1], r[2], r[3], a); err != nil {
+			t.Fatal(err)
+		}
+		if err := d.ReadSlab32([]int{r[0], r[2]}, []int{r[1], r[3]}, b); err != nil {
+			t.Fatal(err)
+		}
+		if err := d.ReadRect64(r[0], r[1], r[2], r[3], c); err != nil {
+			t.Fatal(err)
+		}
+		for i := range a {
+			if math.Float32bits(a[i]) != math.Float32bits(b[i]) || math.Float64bits(c[i]) != math.Float64bits(float64(b[i])) {
+				t.Fatalf("rect %v value %d: %v vs %v vs %v", r, i, a[i], b[i], c[i])
+			}
+		}
+	}
 	chunk, filters, _ := d.Layout()
 	if !reflect.DeepEqual(chunk, []int{256, 4}) || !reflect.DeepEqual(filters, []string{"shuffle", "deflate", "fletcher32"}) {
 		t.Fatalf("layout %v %v", chunk, filters)
@@ -217,6 +238,9 @@ func TestCorruptChunkIsReported(t *testing.T) {
 	err = d.ReadSlab32([]int{0, 0}, []int{1000, 11}, all)
 	if !errors.Is(err, ErrChecksum) {
 		t.Fatalf("read of a corrupt chunk: %v", err)
+	}
+	if err := d.ReadRect32(0, 1000, 0, 11, all); !errors.Is(err, ErrChecksum) {
+		t.Fatalf("raw-chunk read of a corrupt chunk: %v", err)
 	}
 }
 

@@ -31,10 +31,14 @@ type MatrixWriter struct {
 	scratch []chunkScratch
 }
 
-type chunkScratch struct{ raw, shuf, comp []byte }
+type chunkScratch struct {
+	raw, shuf, comp []byte
+	compressor      unsafe.Pointer // libdeflate compressor of this worker
+}
 
 // CreateMatrix creates an empty matrix dataset with cols columns. f64 picks
-// float64 elements (else float32); level is the deflate level (1-9).
+// float64 elements (else float32); level is the compression level (1-9,
+// libdeflate's scale; any level gives standard zlib streams).
 func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCols, level int) (*MatrixWriter, error) {
 	if cols <= 0 || chunkRows <= 0 || chunkCols <= 0 || level < 1 || level > 9 {
 		return nil, &Error{File: g.file, Object: g.child(name), Op: "create matrix", Detail: fmt.Sprintf("bad geometry cols=%d chunk=%dx%d level=%d", cols, chunkRows, chunkCols, level)}
@@ -63,6 +67,14 @@ func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCo
 		workers: runtime.GOMAXPROCS(0),
 	}
 	w.scratch = make([]chunkScratch, w.workers)
+	for i := range w.scratch {
+		w.scratch[i].compressor = C.muarc_compressor_new(C.int(level))
+		if w.scratch[i].compressor == nil {
+			w.freeCompressors()
+			w.ds.Close()
+			return nil, &Error{File: g.file, Object: g.child(name), Op: "create matrix", Detail: "cannot allocate a compressor"}
+		}
+	}
 	return w, nil
 }
 
@@ -173,8 +185,7 @@ func (w *MatrixWriter) encode(s *chunkScratch, band []byte, n, c int) ([]byte, e
 	if cap(s.raw) < size {
 		s.raw = make([]byte, size)
 		s.shuf = make([]byte, size)
-		// zlib's worst case is a little over the input size.
-		s.comp = make([]byte, size+size/1000+64)
+		s.comp = make([]byte, int(C.muarc_deflate_bound(s.compressor, C.size_t(size)))+4)
 	}
 	raw, shuf := s.raw[:size], s.shuf[:size]
 	col0 := c * cc
@@ -191,7 +202,7 @@ func (w *MatrixWriter) encode(s *chunkScratch, band []byte, n, c int) ([]byte, e
 	}
 	shuffle(shuf, raw, w.elem)
 	dn := C.size_t(len(s.comp) - 4)
-	if C.muarc_deflate(unsafe.Pointer(&shuf[0]), C.size_t(size), unsafe.Pointer(&s.comp[0]), &dn, C.int(w.level)) < 0 {
+	if C.muarc_deflate(s.compressor, unsafe.Pointer(&shuf[0]), C.size_t(size), unsafe.Pointer(&s.comp[0]), &dn) < 0 {
 		return nil, fmt.Errorf("%s: %s: deflate failed", w.ds.file, w.ds.path)
 	}
 	comp := s.comp[:int(dn)+4]
@@ -200,4 +211,16 @@ func (w *MatrixWriter) encode(s *chunkScratch, band []byte, n, c int) ([]byte, e
 }
 
 // Close finishes the matrix and releases its handle.
-func (w *MatrixWriter) Close() error { return w.ds.Close() }
+func (w *MatrixWriter) Close() error {
+	w.freeCompressors()
+	return w.ds.Close()
+}
+
+func (w *MatrixWriter) freeCompressors() {
+	for i := range w.scratch {
+		if w.scratch[i].compressor != nil {
+			C.muarc_compressor_free(w.scratch[i].compressor)
+			w.scratch[i].compressor = nil
+		}
+	}
+}

@@ -1,5 +1,5 @@
 #include "shim.h"
-#include <zlib.h>
+#include <libdeflate.h>
 #include <stdio.h>
 
 /* The error stack is cleared by the next library call (even a close), so
@@ -295,20 +295,20 @@ int muarc_dset_layout(hid_t d, int *chunked, int *rank, hsize_t *chunk, int *nfi
     return 0;
 }
 
-/* zlib streams exactly as the HDF5 deflate filter writes them (compress2). */
-int muarc_deflate(const void *src, size_t n, void *dst, size_t *dn, int level) {
-    uLongf out = (uLongf)*dn;
-    int r = compress2((Bytef *)dst, &out, (const Bytef *)src, (uLong)n, level);
-    *dn = (size_t)out;
-    return r == Z_OK ? 0 : -1;
+/* zlib-format streams (RFC 1950 around RFC 1951), which the HDF5 deflate
+ * filter reads, made by libdeflate: about twice zlib's speed at a slightly
+ * better ratio on shuffled samples. One compressor per worker thread. */
+void *muarc_compressor_new(int level) { return libdeflate_alloc_compressor(level); }
+void muarc_compressor_free(void *c) { libdeflate_free_compressor(c); }
+
+int muarc_deflate(void *c, const void *src, size_t n, void *dst, size_t *dn) {
+    size_t out = libdeflate_zlib_compress(c, src, n, dst, *dn);
+    if (out == 0) return -1;
+    *dn = out;
+    return 0;
 }
 
-int muarc_inflate(const void *src, size_t n, void *dst, size_t *dn) {
-    uLongf out = (uLongf)*dn;
-    int r = uncompress((Bytef *)dst, &out, (const Bytef *)src, (uLong)n);
-    *dn = (size_t)out;
-    return r == Z_OK ? 0 : -1;
-}
+size_t muarc_deflate_bound(void *c, size_t n) { return libdeflate_zlib_compress_bound(c, n); }
 
 static herr_t walk_cb(unsigned n, const H5E_error2_t *e, void *data) {
     errbuf *b = data;
@@ -345,4 +345,20 @@ int muarc_is_bool_enum(hid_t t) {
     if (a) H5free_memory(a);
     if (b) H5free_memory(b);
     return ok;
+}
+
+void *muarc_decompressor_new(void) { return libdeflate_alloc_decompressor(); }
+void muarc_decompressor_free(void *d) { libdeflate_free_decompressor(d); }
+
+/* Inflates a zlib stream that must decode to exactly want bytes. */
+int muarc_inflate(void *d, const void *src, size_t n, void *dst, size_t want) {
+    size_t got = 0;
+    enum libdeflate_result r = libdeflate_zlib_decompress(d, src, n, dst, want, &got);
+    return (r == LIBDEFLATE_SUCCESS && got == want) ? 0 : -1;
+}
+
+/* Stored size of the chunk at offset; 0 when the chunk was never written. */
+int muarc_chunk_size(hid_t d, const hsize_t *offset, hsize_t *size) {
+    H5E_BEGIN_TRY { if (H5Dget_chunk_storage_size(d, offset, size) < 0) *size = 0; } H5E_END_TRY;
+    return 0;
 }

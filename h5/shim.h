@@ -32,10 +32,16 @@ int muarc_chunk_count(hid_t d, hsize_t *n);
 int muarc_chunk_info(hid_t d, hsize_t idx, hsize_t *offset, unsigned *mask, haddr_t *addr, hsize_t *size);
 int muarc_chunk_read(hid_t d, const hsize_t *offset, unsigned *mask, void *buf);
 int muarc_dset_layout(hid_t d, int *chunked, int *rank, hsize_t *chunk, int *nfilters, int *filters);
-int muarc_deflate(const void *src, size_t n, void *dst, size_t *dn, int level);
-int muarc_inflate(const void *src, size_t n, void *dst, size_t *dn);
+void *muarc_compressor_new(int level);
+void muarc_compressor_free(void *c);
+int muarc_deflate(void *c, const void *src, size_t n, void *dst, size_t *dn);
+size_t muarc_deflate_bound(void *c, size_t n);
 void muarc_error_text(char *buf, size_t cap);
 void muarc_init(void);
 #endif
 hid_t muarc_bool_type(void);
 int muarc_is_bool_enum(hid_t t);
+void *muarc_decompressor_new(void);
+void muarc_decompressor_free(void *d);
+int muarc_inflate(void *d, const void *src, size_t n, void *dst, size_t want);
+int muarc_chunk_size(hid_t d, const hsize_t *offset, hsize_t *size);

@@ -812,7 +812,7 @@ func (s *ArraySamples) ReadFloat32(start int, dst []float32) error {
 	if len(dst)%s.cols != 0 {
 		return errors.New("recfile: block is not whole rows")
 	}
-	return s.ds.ReadSlab32([]int{start, 0}, []int{len(dst) / s.cols, s.cols}, dst)
+	return s.ds.ReadRect32(start, len(dst)/s.cols, 0, s.cols, dst)
 }
 
 // ReadFloat64 implements record.SampleSource.
@@ -820,7 +820,7 @@ func (s *ArraySamples) ReadFloat64(start int, dst []float64) error {
 	if len(dst)%s.cols != 0 {
 		return errors.New("recfile: block is not whole rows")
 	}
-	return s.ds.ReadSlab64([]int{start, 0}, []int{len(dst) / s.cols, s.cols}, dst)
+	return s.ds.ReadRect64(start, len(dst)/s.cols, 0, s.cols, dst)
 }
 
 // ReadRange32 reads rows [row0, row0+rows) of channels [ch0, ch0+nch) into
@@ -829,7 +829,7 @@ func (s *ArraySamples) ReadRange32(row0, rows, ch0, nch int, dst []float32) erro
 	if row0 < 0 || rows < 0 || ch0 < 0 || nch < 0 || row0+rows > s.rows || ch0+nch > s.cols {
 		return fmt.Errorf("recfile: range rows %d+%d channels %d+%d outside %dx%d", row0, rows, ch0, nch, s.rows, s.cols)
 	}
-	return s.ds.ReadSlab32([]int{row0, ch0}, []int{rows, nch}, dst)
+	return s.ds.ReadRect32(row0, rows, ch0, nch, dst)
 }
 
 // ReadRange64 is ReadRange32 for float64.
@@ -837,5 +837,5 @@ func (s *ArraySamples) ReadRange64(row0, rows, ch0, nch int, dst []float64) erro
 	if row0 < 0 || rows < 0 || ch0 < 0 || nch < 0 || row0+rows > s.rows || ch0+nch > s.cols {
 		return fmt.Errorf("recfile: range rows %d+%d channels %d+%d outside %dx%d", row0, rows, ch0, nch, s.rows, s.cols)
 	}
-	return s.ds.ReadSlab64([]int{row0, ch0}, []int{rows, nch}, dst)
+	return s.ds.ReadRect64(row0, rows, ch0, nch, dst)
 }
