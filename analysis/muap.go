@@ -3,7 +3,9 @@ package analysis
 import (
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
+	"sync"
 
 	"muarc/record"
 )
@@ -96,10 +98,17 @@ func ArrayTemplates(arr *record.Array, halfWindowS float64) ([]*Templates, error
 // defaultBlockRows is the number of sample rows read per block.
 const defaultBlockRows = 8192
 
+// flushEvery is how many windows a unit's float32 accumulator takes before
+// it is added into the float64 sum: float32 adds are quicker, and a float32
+// sum of 64 values keeps about 6 significant digits.
+const flushEvery = 64
+
 // averageTrains sums, for each train, the sample rows [d+firstLag,
 // d+firstLag+lags) around each discharge d, reading src once from row 0
 // upwards in blocks of blockRows rows (0: default). sums[u] is [lag][channel]
-// flattened.
+// flattened. The windows of one block are shared out over up to
+// runtime.GOMAXPROCS(0) goroutines (at most 4) by unit, so no two
+// goroutines add into one unit's sum.
 func averageTrains(src record.SampleSource, trains [][]int64, firstLag, lags, blockRows int) (sums [][]float64, counts, edge []int, err error) {
 	n, nch := src.Shape()
 	if nch <= 0 {
@@ -134,51 +143,151 @@ func averageTrains(src record.SampleSource, trains [][]int64, firstLag, lags, bl
 	if blockRows < lags {
 		blockRows = lags
 	}
+	workers := min(runtime.GOMAXPROCS(0), 4, len(trains))
+	acc32 := make([][]float32, len(trains))
+	pending := make([]int, len(trains))
+	for u := range acc32 {
+		acc32[u] = make([]float32, lags*nch)
+	}
+	flush := func(u int) {
+		a, s := acc32[u], sums[u][:len(acc32[u])]
+		for i, v := range a {
+			s[i] += float64(v)
+			a[i] = 0
+		}
+		pending[u] = 0
+	}
 	capRows := blockRows + lags
 	buf := make([]float32, capRows*nch)
 	bufStart, bufRows := 0, 0
 	// Read only as far as the last window needs.
 	last := int(ev[len(ev)-1].start) + lags
 	next := 0
-	for {
-		want := capRows - bufRows
-		if bufStart+bufRows+want > last {
-			want = last - bufStart - bufRows
-		}
-		if want > 0 {
-			if err := src.ReadFloat32(bufStart+bufRows, buf[bufRows*nch:(bufRows+want)*nch]); err != nil {
-				return nil, nil, nil, fmt.Errorf("reading sample rows %d..%d: %w", bufStart+bufRows, bufStart+bufRows+want, err)
+	win := lags * nch
+	add := func(batch []event, w int) {
+		for _, e := range batch {
+			if e.unit%workers != w {
+				continue
 			}
-			bufRows += want
-		}
-		end := bufStart + bufRows
-		for next < len(ev) && int(ev[next].start)+lags <= end {
-			e := ev[next]
 			off := (int(e.start) - bufStart) * nch
-			acc := sums[e.unit]
-			win := buf[off : off+lags*nch]
-			for i, v := range win {
-				acc[i] += float64(v)
+			row := buf[off : off+win]
+			acc := acc32[e.unit][:win]
+			for i, v := range row {
+				acc[i] += v
 			}
 			counts[e.unit]++
+			if pending[e.unit]++; pending[e.unit] == flushEvery {
+				flush(e.unit)
+			}
+		}
+	}
+	// A reader goroutine reads the next block while this one averages the
+	// current: the source is still read by one goroutine, in order.
+	blocks := readAhead(src, last, blockRows, nch)
+	defer blocks.stop()
+	for bufStart+bufRows < last {
+		blk, ok := <-blocks.full
+		if !ok {
+			break
+		}
+		if blk.err != nil {
+			return nil, nil, nil, blk.err
+		}
+		copy(buf[bufRows*nch:], blk.data[:blk.rows*nch])
+		bufRows += blk.rows
+		blocks.free <- blk.data
+		end := bufStart + bufRows
+		first := next
+		for next < len(ev) && int(ev[next].start)+lags <= end {
 			next++
+		}
+		batch := ev[first:next]
+		if workers > 1 && len(batch) >= 2*workers {
+			var wg sync.WaitGroup
+			for w := 0; w < workers; w++ {
+				wg.Add(1)
+				go func(w int) {
+					defer wg.Done()
+					add(batch, w)
+				}(w)
+			}
+			wg.Wait()
+		} else {
+			for w := 0; w < workers; w++ {
+				add(batch, w)
+			}
 		}
 		if next == len(ev) {
 			break
 		}
-		// Keep the rows a pending window may still need.
-		keep := end - int(ev[next].start)
-		if keep > bufRows {
-			keep = bufRows
-		}
-		if keep < 0 {
-			keep = 0
-		}
+		// Keep the rows a pending window may still need (fewer than lags).
+		keep := min(max(end-int(ev[next].start), 0), bufRows)
 		copy(buf, buf[(bufRows-keep)*nch:bufRows*nch])
 		bufStart = end - keep
 		bufRows = keep
 	}
+	if next != len(ev) {
+		return nil, nil, nil, fmt.Errorf("samples ended before the last discharge window")
+	}
+	for u := range acc32 {
+		if pending[u] > 0 {
+			flush(u)
+		}
+	}
 	return sums, counts, edge, nil
+}
+
+// block is one run of rows read ahead.
+type block struct {
+	data []float32
+	rows int
+	err  error
+}
+
+type reader struct {
+	full chan block
+	free chan []float32
+	done chan struct{}
+}
+
+// stop ends the reader goroutine (and waits for nothing: it exits at its
+// next send or receive).
+func (r *reader) stop() { close(r.done) }
+
+// readAhead reads rows [0, last) of src in blocks of blockRows rows on its
+// own goroutine, two blocks ahead at most. Blocks are sent on full; their
+// buffers must be handed back on free.
+func readAhead(src record.SampleSource, last, blockRows, nch int) *reader {
+	r := &reader{full: make(chan block, 1), free: make(chan []float32, 2), done: make(chan struct{})}
+	for i := 0; i < 2; i++ {
+		r.free <- make([]float32, blockRows*nch)
+	}
+	go func() {
+		defer close(r.full)
+		for pos := 0; pos < last; {
+			var b []float32
+			select {
+			case b = <-r.free:
+			case <-r.done:
+				return
+			}
+			k := min(blockRows, last-pos)
+			blk := block{data: b, rows: k}
+			if err := src.ReadFloat32(pos, b[:k*nch]); err != nil {
+				blk.err = fmt.Errorf("reading sample rows %d..%d: %w", pos, pos+k, err)
+			}
+			select {
+			case r.full <- blk:
+			case <-r.done:
+				return
+			}
+			if blk.err != nil {
+				return
+			}
+			pos += k
+		}
+	}()
+	return r
 }
 
 // GridMap places per-channel values (e.g. peak-to-peak amplitudes) on the
