@@ -190,7 +190,7 @@ func TestPackMakesRFC8493Bag(t *testing.T) {
 		return nil
 	})
 	for _, want := range []string{"data/recordings/s1_a.h5", "data/recordings/visit2/s1_b.h5", "data/README.md",
-		"data/layout.md", "data/data-dictionary.md", "data/data-dictionary.tsv", "data/tables/subjects.tsv", "data/tables/recordings.tsv"} {
+		"data/layout.md", "data/LICENCE.txt", "data/data-dictionary.md", "data/data-dictionary.tsv", "data/tables/subjects.tsv", "data/tables/recordings.tsv"} {
 		if !listed[want] {
 			t.Errorf("%s missing from the deposit", want)
 		}

@@ -31,6 +31,7 @@ const (
 	LayoutFile       = "layout.md"          // data/layout.md (schema.Layout)
 	DictionaryMD     = "data-dictionary.md" // data/data-dictionary.md
 	DictionaryTSV    = "data-dictionary.tsv"
+	LicenceFile      = "LICENCE.txt" // data/LICENCE.txt: the SPDX licence and where its text is
 	cacheFile        = ".pack-cache.jsonl" // resume cache inside the staging folder
 	stagingSuffix    = ".partial"
 	identifyingLabel = "Identifying-Data"
@@ -603,6 +604,7 @@ func (p *packer) documents(sums []RecordingSummary, files []FileRecord) ([]doc, 
 	d := func(parts ...string) string { return path.Join(append([]string{bagit.PayloadDir}, parts...)...) }
 	return []doc{
 		{d(ReadmeFile), readme},
+		{d(LicenceFile), licenceText(lic, study)},
 		{d(LayoutFile), []byte(schema.Layout)},
 		{d(DictionaryMD), md.Bytes()},
 		{d(DictionaryTSV), tsv.Bytes()},

@@ -50,7 +50,7 @@ func readmeText(st studyInfo, licence string, sums []RecordingSummary, allowIden
 	fmt.Fprintf(&b, "- `%s/` - one HDF5 file per recording session in the muarc layout %s: force traces, raw EMG of each electrode array with its geometry, motor-unit discharge times (sample indices) and per-unit quality figures, and provenance.\n", RecordingsDir, schema.LayoutVersion)
 	fmt.Fprintf(&b, "- `%s/%s` - one row per subject; `%s/%s` - one row per recording.\n", TablesDir, SubjectsTable, TablesDir, RecordingsTable)
 	fmt.Fprintf(&b, "- `%s` (and `%s`) - every metadata field: meaning, type, unit.\n", DictionaryMD, DictionaryTSV)
-	fmt.Fprintf(&b, "- `%s` - the layout specification: every group, dataset and attribute.\n\n", LayoutFile)
+	fmt.Fprintf(&b, "- `%s` - the layout specification: every group, dataset and attribute; `%s` - the licence.\n\n", LayoutFile, LicenceFile)
 	b.WriteString("The folder around `data/` is a BagIt 1.0 bag (RFC 8493): `manifest-sha256.txt` lists the SHA-256 of every file here, so the deposit can be checked after any copy, e.g. `muarc verify DEPOSIT`, or `sha256sum -c manifest-sha256.txt` run in the bag's top folder.\n\n")
 
 	b.WriteString("## Reading the files\n\n")
@@ -90,5 +90,22 @@ func readmeText(st studyInfo, licence string, sums []RecordingSummary, allowIden
 		b.WriteString("Every recording passed muarc's checks for identifying fields before packing: subject identifiers are pseudonyms and the fields the layout marks as identifying are empty.\n\n")
 	}
 	b.WriteString("muarc helps de-identify; it does not certify. Whether these data may be shared, with whom and how, is decided by the ethics board, the consent the participants gave and the local data-protection law, not by this software. Do not try to re-identify participants.\n")
+	return []byte(b.String())
+}
+
+// licenceText is data/LICENCE.txt: the SPDX expression, the holder as far as
+// the study metadata names one, and where the licence texts are.
+func licenceText(lic string, st studyInfo) []byte {
+	var b strings.Builder
+	fmt.Fprintf(&b, "SPDX-License-Identifier: %s\n\n", lic)
+	if st.Contact != "" {
+		fmt.Fprintf(&b, "Data of the study %q, contact: %s.\n", firstNonEmpty(st.Title, st.ID), st.Contact)
+	}
+	for _, id := range strings.Fields(lic) {
+		if id == "AND" || id == "OR" || id == "WITH" {
+			continue
+		}
+		fmt.Fprintf(&b, "Licence text of %s: https://spdx.org/licenses/%s.html\n", id, id)
+	}
 	return []byte(b.String())
 }

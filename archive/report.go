@@ -121,6 +121,11 @@ func ReadShardReport(path string) (*ShardReport, error) {
 	if err != nil {
 		return nil, err
 	}
+	return ParseShardReport(data, path)
+}
+
+// ParseShardReport reads a shard report from data; name is used in errors.
+func ParseShardReport(data []byte, path string) (*ShardReport, error) {
 	var r ShardReport
 	dec := json.NewDecoder(bytes.NewReader(data))
 	if err := dec.Decode(&r); err != nil {
@@ -136,6 +141,17 @@ func ReadShardReport(path string) (*ShardReport, error) {
 	}
 	if r.FormatVersion > ReportFormatVersion {
 		return nil, fmt.Errorf("%s: report format version %d is newer than this muarc reads (%d); upgrade muarc", path, r.FormatVersion, ReportFormatVersion)
+	}
+	if r.FormatVersion < 1 {
+		return nil, fmt.Errorf("%s: report format version %d; want 1", path, r.FormatVersion)
+	}
+	for i, f := range r.Files {
+		if f.Path == "" || strings.HasPrefix(f.Path, "/") || f.Bytes < 0 {
+			return nil, fmt.Errorf("%s: files[%d]: path %q, bytes %d: want a relative path and a size", path, i, f.Path, f.Bytes)
+		}
+		if f.SHA256 != "" && !isHex64(f.SHA256) {
+			return nil, fmt.Errorf("%s: files[%d] (%s): sha256 %q is not 64 lower-case hex digits", path, i, f.Path, f.SHA256)
+		}
 	}
 	return &r, nil
 }
@@ -236,15 +252,7 @@ func MergeReports(reports []*ShardReport, names []string) *MergeResult {
 // Manifest renders the ok files of a report as manifest lines
 // "<sha256>  <path>" with paths relative to the source folder, so that
 // `cd SOURCE && sha256sum -c MANIFEST` checks them.
-func (r *ShardReport) Manifest() []byte {
-	var es []bagit.Entry
-	for _, f := range r.Files {
-		if f.Status == StatusOK && f.SHA256 != "" {
-			es = append(es, bagit.Entry{Path: f.Path, Sum: f.SHA256})
-		}
-	}
-	return bagit.FormatManifest(es)
-}
+func (r *ShardReport) Manifest() []byte { return bagit.FormatManifest(r.ManifestEntries()) }
 
 // cacheKey identifies a file's state: same path, size and modification
 // time means the earlier hash and checks still hold.
@@ -281,12 +289,18 @@ func (c *fixityCache) load(path string) error {
 		return err
 	}
 	defer f.Close()
-	r := bufio.NewReader(f)
+	return c.loadFrom(f)
+}
+
+// loadFrom reads cache lines from r; lines that do not parse (a torn last
+// line) are ignored, since the cache only saves work.
+func (c *fixityCache) loadFrom(rd io.Reader) error {
+	r := bufio.NewReader(rd)
 	for {
 		line, err := r.ReadBytes('\n')
 		if len(line) > 0 && line[len(line)-1] == '\n' {
 			var rec FileRecord
-			if json.Unmarshal(line, &rec) == nil && rec.Path != "" {
+			if json.Unmarshal(line, &rec) == nil && rec.Path != "" && (rec.SHA256 == "" || isHex64(rec.SHA256)) {
 				c.put(rec)
 			}
 		}
@@ -333,4 +347,54 @@ func (c *fixityCache) close() error {
 	err := c.w.Close()
 	c.w = nil
 	return err
+}
+
+func isHex64(s string) bool {
+	if len(s) != 64 {
+		return false
+	}
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if !(c >= '0' && c <= '9' || c >= 'a' && c <= 'f') {
+			return false
+		}
+	}
+	return true
+}
+
+// MergeManifests combines manifest files (lines "<sha256>  <path>", as
+// merge-reports --manifest or sha256sum write them) into one entry list,
+// sorted by path. A path listed with two different sums is a problem.
+func MergeManifests(lists [][]bagit.Entry, names []string) ([]bagit.Entry, []string) {
+	by := map[string]bagit.Entry{}
+	from := map[string]string{}
+	var problems []string
+	for k, es := range lists {
+		for _, e := range es {
+			if prev, ok := by[e.Path]; ok {
+				if prev.Sum != e.Sum {
+					problems = append(problems, fmt.Sprintf("%s: %s has sha256 %s, but %s says %s", names[k], e.Path, e.Sum, from[e.Path], prev.Sum))
+				}
+				continue
+			}
+			by[e.Path] = e
+			from[e.Path] = names[k]
+		}
+	}
+	out := make([]bagit.Entry, 0, len(by))
+	for _, k := range sortedKeys(by) {
+		out = append(out, by[k])
+	}
+	return out, problems
+}
+
+// ManifestEntries returns a report's ok files as manifest entries.
+func (r *ShardReport) ManifestEntries() []bagit.Entry {
+	var es []bagit.Entry
+	for _, f := range r.Files {
+		if f.Status == StatusOK && f.SHA256 != "" {
+			es = append(es, bagit.Entry{Path: f.Path, Sum: f.SHA256})
+		}
+	}
+	return es
 }

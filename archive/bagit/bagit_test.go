@@ -345,3 +345,17 @@ func FuzzDecodePath(f *testing.F) {
 		}
 	})
 }
+
+func FuzzParsePayloadOxum(f *testing.F) {
+	f.Add("279164409.1967")
+	f.Add("1.")
+	f.Fuzz(func(t *testing.T, s string) {
+		o, n, err := ParsePayloadOxum(s)
+		if err != nil {
+			return
+		}
+		if back, _, _ := ParsePayloadOxum(PayloadOxum(o, n)); back != o {
+			t.Fatalf("%q -> %d.%d", s, o, n)
+		}
+	})
+}

@@ -5,11 +5,13 @@ import (
 	"encoding/json"
 	"fmt"
 	"io/fs"
+	"os"
 	"path/filepath"
 
 	"github.com/spf13/cobra"
 
 	"muarc/archive"
+	"muarc/archive/bagit"
 	"muarc/internal/atomicfile"
 )
 
@@ -20,7 +22,7 @@ func init() {
 	)
 	cmd := &cobra.Command{
 		Use:   "merge-reports R1 R2 ... -o OUT",
-		Short: "Combine the shard reports of a sharded run into one report and manifest",
+		Short: "Combine the shard reports (and manifests) of a sharded run into one report and manifest",
 		Long: `merge-reports combines the JSON shard reports that a run with --shard i/n wrote on
 each machine (format "muarc-shard-report", see archive.ShardReport) into one
 report at OUT, listing every file once. It checks the reports belong together
@@ -30,7 +32,10 @@ is written and the exit code is 1, unless --allow-missing.
 
 --manifest FILE also writes the SHA-256 of every ok file as manifest lines
 "<sha256>  <path>" relative to the study folder, so that
-cd STUDY && sha256sum -c FILE checks them. The merged report feeds the final
+cd STUDY && sha256sum -c FILE checks them. Inputs that are manifests (such
+lines, e.g. from earlier merges or from sha256sum) are combined into that
+manifest too; given manifests only, OUT is the merged manifest. A path with two
+different sums is a problem. The merged report feeds the final
 muarc pack DIR -o DEPOSIT --known OUT, which then does not hash again.`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -38,15 +43,52 @@ muarc pack DIR -o DEPOSIT --known OUT, which then does not hash again.`,
 				return withExit(2, fmt.Errorf("give the output with -o OUT"))
 			}
 			var reps []*archive.ShardReport
+			var repNames, manNames []string
+			var mans [][]bagit.Entry
 			for _, a := range args {
-				r, err := archive.ReadShardReport(a)
+				data, err := os.ReadFile(a)
 				if err != nil {
 					return withExit(2, err)
 				}
-				reps = append(reps, r)
+				if t := bytes.TrimSpace(data); len(t) > 0 && t[0] == '{' {
+					r, err := archive.ParseShardReport(data, a)
+					if err != nil {
+						return withExit(2, err)
+					}
+					reps = append(reps, r)
+					repNames = append(repNames, a)
+					continue
+				}
+				es, err := bagit.ParseManifest(bytes.NewReader(data), a, 64)
+				if err != nil {
+					return withExit(2, fmt.Errorf("%w (not a shard report either: give JSON reports or sha256 manifests)", err))
+				}
+				mans = append(mans, es)
+				manNames = append(manNames, a)
 			}
-			m := archive.MergeReports(reps, args)
 			w := cmd.OutOrStdout()
+			if len(reps) == 0 {
+				// Manifests only: OUT is the merged manifest.
+				es, problems := archive.MergeManifests(mans, manNames)
+				for _, p := range problems {
+					fmt.Fprintln(w, "problem:", p)
+				}
+				if len(problems) > 0 {
+					return silentExit(1)
+				}
+				if err := atomicfile.WriteFile(out, bagit.FormatManifest(es), overwrite); err != nil {
+					return withExit(2, err)
+				}
+				if asJSON {
+					return printJSON(w, map[string]any{"complete": true, "entries": len(es), "output": out})
+				}
+				fmt.Fprintf(w, "%d manifests, %d entries: %s\n", len(mans), len(es), out)
+				return nil
+			}
+			m := archive.MergeReports(reps, repNames)
+			entries, problems := archive.MergeManifests(append([][]bagit.Entry{m.Report.ManifestEntries()}, mans...),
+				append([]string{"the merged reports"}, manNames...))
+			m.Problems = append(m.Problems, problems...)
 			complete := len(m.Problems) == 0 && (len(m.Missing) == 0 || allowParts)
 			if complete {
 				var b bytes.Buffer
@@ -60,7 +102,7 @@ muarc pack DIR -o DEPOSIT --known OUT, which then does not hash again.`,
 					return withExit(2, err)
 				}
 				if manifest != "" {
-					if err := atomicfile.WriteFile(manifest, m.Report.Manifest(), overwrite); err != nil {
+					if err := atomicfile.WriteFile(manifest, bagit.FormatManifest(entries), overwrite); err != nil {
 						return withExit(2, err)
 					}
 				}
