@@ -31,7 +31,7 @@ const (
 	LayoutFile       = "layout.md"          // data/layout.md (schema.Layout)
 	DictionaryMD     = "data-dictionary.md" // data/data-dictionary.md
 	DictionaryTSV    = "data-dictionary.tsv"
-	LicenceFile      = "LICENCE.txt" // data/LICENCE.txt: the SPDX licence and where its text is
+	LicenceFile      = "LICENCE.txt"       // data/LICENCE.txt: the SPDX licence and where its text is
 	cacheFile        = ".pack-cache.jsonl" // resume cache inside the staging folder
 	stagingSuffix    = ".partial"
 	identifyingLabel = "Identifying-Data"
