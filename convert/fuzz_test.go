@@ -2,6 +2,7 @@ package convert
 
 import (
 	"math"
+	"muarc/record"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -85,6 +86,129 @@ func FuzzScanSignals(f *testing.F) {
 		}
 		if len(cols) != len(s.Labels) || len(cols[0]) != s.Samples {
 			t.Fatalf("shape %d x %d, want %d x %d", len(cols), len(cols[0]), len(s.Labels), s.Samples)
+		}
+	})
+}
+
+func fuzzFile(dir, text string) string {
+	p := filepath.Join(dir, "f.csv")
+	os.WriteFile(p, []byte(text), 0o644)
+	return p
+}
+
+// FuzzReadDischarges: any text gives an error or units whose discharges are
+// sorted sample indices inside the grid.
+func FuzzReadDischarges(f *testing.F) {
+	for _, s := range []string{
+		"unit,time [s]\n1,0.5\n1,0.75\n2,0.1\n",
+		"MU1,MU2\n0.1,0.2\n0.3,\n",
+		"1,10,20,30\n2,15\n3,40,41\n",
+		"u1,u2\n0,1\n1,0\n0,0\n",
+		"unit,sample (1-based)\n1,1\n1,1000\n",
+		"unit,time [ms]\n3,999.9\n",
+		"",
+	} {
+		f.Add(s)
+	}
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, text string) {
+		g := Grid{RateHz: 1000, Samples: 1000}
+		dc, err := ReadDischarges(fuzzFile(dir, text), g, DischargeOptions{FirstIndex: -1})
+		if err != nil {
+			if AsParseError(err) == nil {
+				t.Fatalf("not a ParseError: %v", err)
+			}
+			return
+		}
+		seen := map[int64]bool{}
+		for _, u := range dc.Units {
+			if seen[u.ID] {
+				t.Fatalf("unit %d twice", u.ID)
+			}
+			seen[u.ID] = true
+			for i, k := range u.Discharges {
+				if k < 0 || k >= int64(g.Samples) || i > 0 && k < u.Discharges[i-1] {
+					t.Fatalf("unit %d: discharges %v", u.ID, u.Discharges)
+				}
+			}
+		}
+	})
+}
+
+// FuzzReadUnitTable: an error or one unit per row with distinct ids and
+// extra columns as long as the unit list.
+func FuzzReadUnitTable(f *testing.F) {
+	for _, s := range []string{
+		"unit,SIL,PNR [dB],accuracy [%],CoV ISI,recruitment [%MVC],mean rate [pps],notes\n1,0.9,30,95,0.1,5,12,ok\n2,0.8,,90,0.2,7,10,\n",
+		"id;sil;roa [%]\n1;0,9;80\n",
+		"unit,SIL\n1,0.9\n1,0.8\n",
+		"SIL\n0.9\n",
+	} {
+		f.Add(s)
+	}
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, text string) {
+		ut, err := ReadUnitTable(fuzzFile(dir, text), UnitTableOptions{})
+		if err != nil {
+			if AsParseError(err) == nil {
+				t.Fatalf("not a ParseError: %v", err)
+			}
+			return
+		}
+		seen := map[int64]bool{}
+		for _, u := range ut.Units {
+			if seen[u.ID] {
+				t.Fatalf("unit %d twice", u.ID)
+			}
+			seen[u.ID] = true
+		}
+		for _, c := range ut.Extra {
+			if len(c.Values)+len(c.Text) != len(ut.Units) {
+				t.Fatalf("column %s: %d values for %d units", c.Name, len(c.Values)+len(c.Text), len(ut.Units))
+			}
+		}
+	})
+}
+
+// FuzzReadSidecar: JSON and YAML sidecars give a sidecar or an error that
+// says where; never a panic.
+func FuzzReadSidecar(f *testing.F) {
+	f.Add(`{"study":{"id":"X"},"subject":{"id":"S1"},"session":{},"trials":[{"name":"t1"}]}`, true)
+	f.Add("study: {id: X}\nsubject: {id: S1, age_years: 31}\nsession: {date: 2026-03-14}\ntrials:\n  - name: t1\n", false)
+	f.Add(`{"study":{},"subject":{},"session":{},"trials":[{"name":"bad name!"}]}`, true)
+	f.Add("[1, 2", false)
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, text string, isJSON bool) {
+		name := "m.yaml"
+		if isJSON {
+			name = "m.json"
+		}
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, []byte(text), 0o644)
+		sc, err := ReadSidecar(p)
+		if err != nil {
+			if AsParseError(err) == nil {
+				t.Fatalf("no place given: %v", err)
+			}
+			return
+		}
+		rec := &record.Recording{}
+		sc.Apply(rec)
+	})
+}
+
+// FuzzLoadProfile: a profile or an error, never a panic.
+func FuzzLoadProfile(f *testing.F) {
+	f.Add("name: x\nfiles:\n  emg: \"{trial}/e_{array}.txt\"\nsignals: {delimiter: tab, rate_hz: 2048}\n")
+	f.Add("units:\n  columns: {\"my SIL\": silhouette}\n")
+	f.Add("files: {emg: \"{bogus}\"}\n")
+	f.Add("discharges: {shape: spiral}\n")
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, text string) {
+		p := filepath.Join(dir, "p.yaml")
+		os.WriteFile(p, []byte(text), 0o644)
+		if _, err := LoadProfile(p); err != nil && AsParseError(err) == nil {
+			t.Fatalf("not a ParseError: %v", err)
 		}
 	})
 }

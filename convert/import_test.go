@@ -211,3 +211,47 @@ func firstDiff(a, b string) string {
 }
 
 var time0 time.Time
+
+func TestDemoProfileAndSidecarLines(t *testing.T) {
+	dir, _ := synthStudy(t)
+	p, err := LoadProfile(td + "demo-profile.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := FindRecordings(dir, p)
+	if err != nil || len(recs) != 1 {
+		t.Fatalf("%v %d", err, len(recs))
+	}
+	pl, err := Read(recs[0].Inputs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pl.Close()
+	// Break the sidecar: a trial name that is not a group name, on a known
+	// line; the error must give the JSON path and that line.
+	meta := recs[0].Inputs.Meta
+	b, _ := os.ReadFile(meta)
+	lines := strings.Split(string(b), "\n")
+	ln := 0
+	for i, l := range lines {
+		if strings.Contains(l, `"name": "ramp_20pct"`) {
+			lines[i] = strings.Replace(l, "ramp_20pct", "ramp 20%", 1)
+			ln = i + 1
+			break
+		}
+	}
+	bad := filepath.Join(t.TempDir(), "metadata.json")
+	os.WriteFile(bad, []byte(strings.Join(lines, "\n")), 0o644)
+	_, err = ReadSidecar(bad)
+	pe := AsParseError(err)
+	if ln == 0 || pe == nil || pe.Line != ln || !strings.Contains(pe.Msg, "/trials/0/name") {
+		t.Fatalf("line %d: got %v", ln, err)
+	}
+	// The same in YAML: line of the value.
+	y := "study: {id: X}\nsubject: {id: S1}\nsession: {}\ntrials:\n  - name: ok\n  - name: \"bad name\"\n"
+	yp := writeTemp(t, "m.yaml", y)
+	_, err = ReadSidecar(yp)
+	if pe = AsParseError(err); pe == nil || pe.Line != 6 || !strings.Contains(pe.Msg, "/trials/1/name") {
+		t.Fatalf("yaml: %v", err)
+	}
+}

@@ -80,7 +80,8 @@ func ReadSidecar(path string) (*Sidecar, error) {
 		if len(root.Content) == 0 {
 			return nil, perr(path, 1, 0, "write study, subject, session and trials", "empty metadata file")
 		}
-		v, err = yamlValue(root.Content[0], "", sc.lines)
+		budget := 1 << 16
+		v, err = yamlValue(root.Content[0], "", sc.lines, &budget)
 		if err != nil {
 			return nil, &ParseError{File: path, Msg: err.Error(), Hint: "write plain values: text, numbers, true/false, lists and maps"}
 		}
@@ -139,16 +140,21 @@ func escapePtr(s string) string {
 
 // yamlValue turns a YAML node into plain values (strings, int64, float64,
 // bool, nil, []any, map[string]any), recording each node's line.
-func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int) (any, error) {
+func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int, budget *int) (any, error) {
+	// Aliases may repeat (or contain) a node; a budget of nodes keeps an
+	// alias bomb or a cycle from running away.
+	if *budget--; *budget < 0 {
+		return nil, fmt.Errorf("line %d: too many values (aliases repeat nodes too often)", n.Line)
+	}
 	lines[ptr] = [2]int{n.Line, n.Column}
 	switch n.Kind {
 	case yaml.DocumentNode:
 		if len(n.Content) == 0 {
 			return nil, nil
 		}
-		return yamlValue(n.Content[0], ptr, lines)
+		return yamlValue(n.Content[0], ptr, lines, budget)
 	case yaml.AliasNode:
-		return yamlValue(n.Alias, ptr, lines)
+		return yamlValue(n.Alias, ptr, lines, budget)
 	case yaml.MappingNode:
 		m := map[string]any{}
 		for i := 0; i+1 < len(n.Content); i += 2 {
@@ -156,7 +162,7 @@ func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int) (any, error) {
 			if _, dup := m[k]; dup {
 				return nil, fmt.Errorf("line %d: key %q given twice", n.Content[i].Line, k)
 			}
-			v, err := yamlValue(n.Content[i+1], ptr+"/"+escapePtr(k), lines)
+			v, err := yamlValue(n.Content[i+1], ptr+"/"+escapePtr(k), lines, budget)
 			if err != nil {
 				return nil, err
 			}
@@ -166,7 +172,7 @@ func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int) (any, error) {
 	case yaml.SequenceNode:
 		out := make([]any, 0, len(n.Content))
 		for i, c := range n.Content {
-			v, err := yamlValue(c, ptr+"/"+strconv.Itoa(i), lines)
+			v, err := yamlValue(c, ptr+"/"+strconv.Itoa(i), lines, budget)
 			if err != nil {
 				return nil, err
 			}
