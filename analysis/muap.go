@@ -171,10 +171,7 @@ func averageTrains(src record.SampleSource, trains [][]int64, firstLag, lags, bl
 			}
 			off := (int(e.start) - bufStart) * nch
 			row := buf[off : off+win]
-			acc := acc32[e.unit][:win]
-			for i, v := range row {
-				acc[i] += v
-			}
+			addInto(acc32[e.unit][:win], row)
 			counts[e.unit]++
 			if pending[e.unit]++; pending[e.unit] == flushEvery {
 				flush(e.unit)
@@ -235,6 +232,28 @@ func averageTrains(src record.SampleSource, trains [][]int64, firstLag, lags, bl
 		}
 	}
 	return sums, counts, edge, nil
+}
+
+// addInto adds src into dst element by element (len(dst) == len(src)),
+// eight at a time.
+func addInto(dst, src []float32) {
+	n := len(src) &^ 7
+	dst = dst[:len(src)]
+	for i := 0; i < n; i += 8 {
+		d := dst[i : i+8 : i+8]
+		s := src[i : i+8 : i+8]
+		d[0] += s[0]
+		d[1] += s[1]
+		d[2] += s[2]
+		d[3] += s[3]
+		d[4] += s[4]
+		d[5] += s[5]
+		d[6] += s[6]
+		d[7] += s[7]
+	}
+	for i := n; i < len(src); i++ {
+		dst[i] += src[i]
+	}
 }
 
 // block is one run of rows read ahead.

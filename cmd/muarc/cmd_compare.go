@@ -163,6 +163,11 @@ func runCompare(cmd *cobra.Command, args []string) error {
 	if !(compareFlags.toleranceMs > 0) || compareFlags.maxLagMs < 0 || compareFlags.min < 0 || compareFlags.min > 1 {
 		return withExit(2, fmt.Errorf("--tolerance-ms must be > 0, --max-lag-ms >= 0 and --min-roa in 0..1"))
 	}
+	for _, f := range []string{ra.File, rb.File} {
+		if err := checkInputFile(f); err != nil {
+			return withExit(2, err)
+		}
+	}
 	fa, err := recfile.Open(ra.File)
 	if err != nil {
 		return withExit(2, err)

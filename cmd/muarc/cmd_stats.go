@@ -2,8 +2,10 @@ package main
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"reflect"
@@ -187,6 +189,9 @@ func storeStats(rec *record.Recording, res []decompositionResult, tpl [][][]*ana
 // statsFile runs stats on one file; with write it rewrites the file. The
 // file stays open (samples are read) until the rewritten copy is on disk.
 func statsFile(path string, muaps, write bool) (*statsResult, error) {
+	if err := checkInputFile(path); err != nil {
+		return nil, err
+	}
 	f, err := recfile.Open(path)
 	if err != nil {
 		return nil, err
@@ -245,6 +250,22 @@ func runStats(cmd *cobra.Command, args []string) error {
 		return printStatsTSV(w, res)
 	}
 	return printStatsText(w, res)
+}
+
+// checkInputFile says clearly when path is missing or not a regular file
+// (before the HDF5 reader gives a less direct message).
+func checkInputFile(path string) error {
+	st, err := os.Stat(path)
+	if err != nil {
+		if errors.Is(err, fs.ErrNotExist) {
+			return fmt.Errorf("%s: no such file", path)
+		}
+		return err
+	}
+	if !st.Mode().IsRegular() {
+		return fmt.Errorf("%s: not a regular file (give a muarc recording, *.h5)", path)
+	}
+	return nil
 }
 
 // num formats a figure for people: "-" when unknown.
