@@ -211,6 +211,16 @@ func TestPackMakesRFC8493Bag(t *testing.T) {
 	if v, _ := bagit.Lookup(fields, "Bagging-Date"); v != "2026-05-04" {
 		t.Errorf("Bagging-Date %q", v)
 	}
+	rec, err := recfile.ReadAll(filepath.Join(src, "s1_a.h5"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v, _ := bagit.Lookup(fields, "External-Description"); rec.Study.Title == "" || !strings.HasPrefix(v, rec.Study.Title) {
+		t.Errorf("External-Description %q, study title %q", v, rec.Study.Title)
+	}
+	if v, _ := bagit.Lookup(fields, "Contact-Email"); v == "" || !strings.Contains(rec.Study.Contact, v) {
+		t.Errorf("Contact-Email %q, study contact %q", v, rec.Study.Contact)
+	}
 	if _, ok := bagit.Lookup(fields, identifyingLabel); ok {
 		t.Error("clean bag marked as identified")
 	}
@@ -620,5 +630,28 @@ walk("", s)
 	}
 	if n < 50 {
 		t.Fatalf("only %d schema fields seen", n)
+	}
+}
+
+func TestContactFields(t *testing.T) {
+	cases := []struct{ in, name, email string }{
+		{"Data desk (fictional) <desk@example.org>", "Data desk (fictional)", "desk@example.org"},
+		{"desk@example.org", "", "desk@example.org"},
+		{"Study office, room 4", "Study office, room 4", ""},
+		{"", "", ""},
+	}
+	for _, c := range cases {
+		var name, email string
+		for _, f := range contactFields(c.in) {
+			switch f.Label {
+			case "Contact-Name":
+				name = f.Value
+			case "Contact-Email":
+				email = f.Value
+			}
+		}
+		if name != c.name || email != c.email {
+			t.Errorf("%q -> %q %q, want %q %q", c.in, name, email, c.name, c.email)
+		}
 	}
 }

@@ -38,8 +38,8 @@ func readmeText(st studyInfo, licence string, sums []RecordingSummary, allowIden
 	if st.Description != "" {
 		fmt.Fprintf(&b, "%s\n\n", st.Description)
 	}
-	fmt.Fprintf(&b, "This deposit holds %d recordings of %d subjects: %d electrode-array recordings with %d motor units",
-		len(sums), len(subjects), arrays, units)
+	fmt.Fprintf(&b, "This deposit holds %s of %s: %s with %s",
+		plural(len(sums), "recording"), plural(len(subjects), "subject"), plural(arrays, "electrode-array recording"), plural(units, "motor unit"))
 	if len(muscles) > 0 {
 		ms := sortedKeys(muscles)
 		fmt.Fprintf(&b, " (muscles: %s)", strings.Join(ms, ", "))
@@ -108,4 +108,11 @@ func licenceText(lic string, st studyInfo) []byte {
 		fmt.Fprintf(&b, "Licence text of %s: https://spdx.org/licenses/%s.html\n", id, id)
 	}
 	return []byte(b.String())
+}
+
+func plural(n int, word string) string {
+	if n == 1 {
+		return "1 " + word
+	}
+	return fmt.Sprintf("%d %ss", n, word)
 }
