@@ -135,7 +135,8 @@ func checkField(path string, act Action) error {
 	return fmt.Errorf("field %q: action %q not possible here (choose %s)", path, act, strings.Join(names, ", "))
 }
 
-// suggestPath names a catalogue path close to a mistyped one.
+// suggestPath names the catalogue paths closest to a mistyped one (at most
+// two edits away, or with the same last part).
 func suggestPath(path string) string {
 	last := path
 	if i := strings.LastIndex(path, "."); i >= 0 {
@@ -143,15 +144,39 @@ func suggestPath(path string) string {
 	}
 	var hits []string
 	for p := range catalogue {
-		if strings.HasSuffix(p, "."+last) {
+		if strings.HasSuffix(p, "."+last) || editDistance(p, path) <= 2 {
 			hits = append(hits, p)
 		}
 	}
 	sort.Strings(hits)
-	if len(hits) == 0 {
+	if len(hits) == 0 || len(hits) > 6 {
 		return ""
 	}
 	return "; did you mean " + strings.Join(hits, " or ") + "?"
+}
+
+// editDistance is the Levenshtein distance of a and b (bytes).
+func editDistance(a, b string) int {
+	if len(a) > 200 || len(b) > 200 {
+		return 1 << 20
+	}
+	prev := make([]int, len(b)+1)
+	cur := make([]int, len(b)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		for j := 1; j <= len(b); j++ {
+			c := prev[j-1]
+			if a[i-1] != b[j-1] {
+				c++
+			}
+			cur[j] = min(c, prev[j]+1, cur[j-1]+1)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
 }
 
 // policyPath turns a concrete path ("trials[2].arrays[0].notes") into policy

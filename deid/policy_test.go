@@ -86,6 +86,7 @@ fields:
 func TestParsePolicyErrors(t *testing.T) {
 	cases := []struct{ text, want string }{
 		{`{"name": "x", "fields": {"subject.nmae": "drop"}}`, `"subject.nmae" is not a metadata field`},
+		{`{"name": "x", "fields": {"subject.nme": "drop"}}`, `did you mean subject.name?`},
 		{`{"name": "x", "fields": {"subject.name": "hide"}}`, `action "hide" not possible`},
 		{`{"name": "x", "fields": {"subject.name": "generalize"}}`, `choose keep, drop, scrub`},
 		{`{"name": "x", "fields": {"trials[].name": "drop"}}`, `choose keep, pseudonymize`},

@@ -2,6 +2,7 @@ package deid
 
 import (
 	"bytes"
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
@@ -75,11 +76,21 @@ func needleForms(needles []string) []needleForm {
 	return forms
 }
 
+// lowerTab maps each byte to itself, ASCII capitals to small letters (a
+// table: no branch on random data).
+var lowerTab = func() (t [256]byte) {
+	for i := range t {
+		t[i] = byte(i)
+		if i >= 'A' && i <= 'Z' {
+			t[i] = byte(i + 32)
+		}
+	}
+	return t
+}()
+
 func lowerASCII(b []byte) []byte {
 	for i, c := range b {
-		if c >= 'A' && c <= 'Z' {
-			b[i] = c + 32
-		}
+		b[i] = lowerTab[c]
 	}
 	return b
 }
@@ -123,79 +134,67 @@ func ScanBytes(path string, needles []string) ([]Leak, error) {
 
 const scanBlock = 1 << 20
 
+// scanReader searches r in one pass for every form: a 64 Ki-bit table of
+// the forms' first two bytes filters positions, a map on the first four
+// bytes picks the candidate forms, and only those are compared.
 func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 	forms := needleForms(needles)
 	if len(forms) == 0 {
 		return nil, nil
 	}
 	maxLen := 0
-	for _, f := range forms {
-		if len(f.pat) > maxLen {
-			maxLen = len(f.pat)
-		}
+	var first2 [1 << 16 / 64]uint64
+	by4 := map[uint32][]int{}
+	for i, f := range forms {
+		maxLen = max(maxLen, len(f.pat))
+		p2 := uint16(f.pat[0])<<8 | uint16(f.pat[1])
+		first2[p2/64] |= 1 << (p2 % 64)
+		p4 := binary.BigEndian.Uint32(f.pat)
+		by4[p4] = append(by4[p4], i)
 	}
-	keep := maxLen + 4 // overlap: a match and its boundary bytes may straddle blocks
 	found := make([]Leak, len(forms))
-	for i := range found {
-		found[i].Offset = -1
-	}
-	buf := make([]byte, 0, scanBlock+keep)
-	low := make([]byte, 0, scanBlock+keep)
+	margin := maxLen + 2 // a match and the two bytes after it
+	buf := make([]byte, 0, scanBlock+margin+2)
 	var base int64 // file offset of buf[0]
-	// reported marks matches already counted (they may be seen twice in the overlap).
-	lastEnd := make([]int64, len(forms))
+	next := 0      // first position of buf not yet examined
 	for {
 		n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
+		lowerASCII(buf[len(buf) : len(buf)+n])
 		buf = buf[:len(buf)+n]
 		eof := err == io.EOF || errors.Is(err, io.ErrUnexpectedEOF)
 		if err != nil && !eof {
 			return nil, err
 		}
-		low = append(low[:0], buf...)
-		lowerASCII(low)
-		for i, f := range forms {
-			hay := low
-			step := 1
-			if f.encoding != "utf-8" {
-				step = 2
+		limit := len(buf) - margin
+		if eof {
+			limit = len(buf)
+		}
+		for i := next; i < limit && i+4 <= len(buf); i++ {
+			p2 := uint16(buf[i])<<8 | uint16(buf[i+1])
+			if first2[p2/64]&(1<<(p2%64)) == 0 {
+				continue
 			}
-			for at := 0; at < len(hay); {
-				j := bytes.Index(hay[at:], f.pat)
-				if j < 0 {
-					break
-				}
-				pos := at + j
-				end := pos + len(f.pat)
-				abs := base + int64(pos)
-				// the first two bytes of a kept tail were judged with their left neighbour in the last block
-				if base > 0 && pos < 2 {
-					at = pos + 1
+			for _, fi := range by4[binary.BigEndian.Uint32(buf[i:])] {
+				f := &forms[fi]
+				end := i + len(f.pat)
+				if end > len(buf) || !bytes.Equal(buf[i:end], f.pat) || !bounded(buf, i, end, f.encoding) {
 					continue
 				}
-				// a match whose right boundary byte is not read yet waits for the next block
-				if !eof && end+step > len(hay) {
-					break
+				if found[fi].Count == 0 {
+					found[fi] = Leak{Needle: f.needle, Encoding: f.encoding, Offset: base + int64(i)}
 				}
-				if abs >= lastEnd[i] && bounded(hay, pos, end, f.encoding) {
-					if found[i].Offset < 0 {
-						found[i] = Leak{Needle: f.needle, Encoding: f.encoding, Offset: abs}
-					}
-					found[i].Count++
-					lastEnd[i] = base + int64(end)
-				}
-				at = pos + 1
+				found[fi].Count++
 			}
 		}
 		if eof {
 			break
 		}
-		// keep the tail for matches straddling the block boundary
-		if len(buf) > keep {
-			tail := len(buf) - keep
-			base += int64(tail)
-			copy(buf, buf[tail:])
-			buf = buf[:keep]
-		}
+		// Keep two bytes before the next position for the boundary test.
+		cut := max(limit-2, 0)
+		copy(buf, buf[cut:])
+		buf = buf[:len(buf)-cut]
+		base += int64(cut)
+		next = limit - cut
 	}
 	var out []Leak
 	for _, l := range found {
