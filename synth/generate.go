@@ -265,7 +265,7 @@ func generateSubject(cfg Config, s int) (*Generated, error) {
 		Subject:  p.subject(),
 		Session:  p.session(),
 	}
-	rec.Session.Extra = record.Extra{"generator": synthSoftware, "generator_seed": strconv.FormatUint(cfg.Seed, 10)}
+	rec.Session.Extra = record.Extra{"generator": synthSoftware}
 	truth := Truth{Seed: cfg.Seed, Subject: p.code, MVCN: mvc}
 
 	nRest := int(math.Round(cfg.RestS * fs))
