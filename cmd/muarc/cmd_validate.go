@@ -1,13 +1,18 @@
 package main
 
 import (
+	"bytes"
+	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"io/fs"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"sort"
 	"strings"
+	"syscall"
 	"text/tabwriter"
 
 	"github.com/spf13/cobra"
@@ -17,9 +22,9 @@ import (
 )
 
 var validateFlags struct {
-	json, strict, noChecksums, listChecks bool
-	rules, shard                          string
-	workers                               int
+	json, strict, noChecksums, listChecks, child, inProcess bool
+	rules, shard                                            string
+	workers                                                 int
 }
 
 var validateCmd = &cobra.Command{
@@ -56,6 +61,9 @@ func init() {
 	f.StringVar(&validateFlags.shard, "shard", "", "validate only shard `i/n` of the sorted file list (cluster job arrays)")
 	f.BoolVar(&validateFlags.noChecksums, "no-checksums", false, "skip the Fletcher-32 scan of every stored chunk (faster, finds less)")
 	f.BoolVar(&validateFlags.listChecks, "list-checks", false, "list every check id with its default severity and exit")
+	f.BoolVar(&validateFlags.inProcess, "in-process", false, "validate in this process instead of one child process per file (a file damaged in its HDF5 metadata can then crash the run)")
+	f.BoolVar(&validateFlags.child, "child", false, "internal: validate one file and print its report as JSON")
+	f.MarkHidden("child")
 	rootCmd.AddCommand(validateCmd)
 }
 
@@ -78,6 +86,12 @@ func runValidate(cmd *cobra.Command, args []string) error {
 	if err != nil {
 		return withExit(2, err)
 	}
+	if validateFlags.child {
+		if len(args) != 1 {
+			return withExit(2, fmt.Errorf("--child takes one file"))
+		}
+		return printJSON(out, validate.File(args[0], opt))
+	}
 	paths, err := validateInputs(args)
 	if err != nil {
 		return withExit(2, err)
@@ -87,7 +101,17 @@ func runValidate(cmd *cobra.Command, args []string) error {
 		return withExit(2, fmt.Errorf("shard %s of the inputs holds no file", shard))
 	}
 	bar := newProgress("validate", int64(len(paths)))
-	reps := validate.Files(paths, opt, validateFlags.workers, func(int, *validate.Report) { bar.Add(1) })
+	var reps []*validate.Report
+	exe, exeErr := os.Executable()
+	if validateFlags.inProcess || exeErr != nil {
+		reps = validate.Files(paths, opt, validateFlags.workers, func(int, *validate.Report) { bar.Add(1) })
+	} else {
+		reps = make([]*validate.Report, len(paths))
+		batch.Run(len(paths), validateFlags.workers, func(i int) error {
+			reps[i] = validateInChild(exe, paths[i])
+			return nil
+		}, func(int, error) { bar.Add(1) })
+	}
 	bar.Finish()
 
 	if validateFlags.json {
@@ -99,6 +123,75 @@ func runValidate(cmd *cobra.Command, args []string) error {
 		printSummary(out, reps)
 	}
 	return silentExit(validateExit(reps))
+}
+
+// validateInChild validates one file in a child muarc process, so that a
+// file whose HDF5 metadata is damaged badly enough to crash the HDF5 C
+// library (h5dump and h5py crash on such files too) ends as that file's
+// read error instead of ending the whole run.
+func validateInChild(exe, path string) *validate.Report {
+	args := []string{"validate", "--child"}
+	if validateFlags.strict {
+		args = append(args, "--strict")
+	}
+	if validateFlags.noChecksums {
+		args = append(args, "--no-checksums")
+	}
+	if validateFlags.rules != "" {
+		args = append(args, "--rules", validateFlags.rules)
+	}
+	args = append(args, "--", path)
+	cmd := exec.Command(exe, args...)
+	var stdout, stderr bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &stdout, &stderr
+	err := cmd.Run()
+	var rep validate.Report
+	if err == nil && json.Unmarshal(stdout.Bytes(), &rep) == nil && rep.File == path {
+		return &rep
+	}
+	why := fmt.Sprint(err)
+	var ee *exec.ExitError
+	if errors.As(err, &ee) {
+		if ws, ok := ee.Sys().(syscall.WaitStatus); ok && ws.Signaled() {
+			why = "the HDF5 library crashed reading it (" + ws.Signal().String() + "); the file's HDF5 metadata is damaged: restore it from a copy"
+		}
+	}
+	// The Go runtime turns a fault inside C code into exit status 2 with
+	// the signal's name on the first lines of its dump.
+	if sig := crashSignal(stderr.String()); sig != "" {
+		why = "the HDF5 library crashed reading it (" + sig + "); the file's HDF5 metadata is damaged: restore it from a copy"
+	}
+	if msg := lastLine(stderr.String()); msg != "" && !strings.Contains(why, "HDF5 library crashed") {
+		why += ": " + msg
+	}
+	return &validate.Report{File: path, Findings: []validate.Finding{}, ReadError: why}
+}
+
+// crashSignal finds the signal in a Go runtime crash dump ("SIGSEGV:
+// segmentation violation", "signal arrived during cgo execution").
+func crashSignal(dump string) string {
+	if !strings.Contains(dump, "signal arrived during cgo execution") && !strings.Contains(dump, "fatal error: unexpected signal") {
+		return ""
+	}
+	for _, l := range strings.Split(dump, "\n") {
+		if strings.HasPrefix(l, "SIG") {
+			if name, _, ok := strings.Cut(l, ":"); ok {
+				return name
+			}
+		}
+	}
+	return "a fatal signal"
+}
+
+func lastLine(s string) string {
+	s = strings.TrimSpace(s)
+	if i := strings.LastIndexByte(s, '\n'); i >= 0 {
+		s = s[i+1:]
+	}
+	if len(s) > 300 {
+		s = s[:300] + "..."
+	}
+	return s
 }
 
 // validateInputs expands folders to the *.h5 files below them; files are
@@ -258,6 +351,9 @@ func plural3(e, w, n int) string {
 func printSummary(w io.Writer, reps []*validate.Report) {
 	t := totals(reps)
 	last := fmt.Sprintf("%d files", t.Files)
+	if t.Files == 1 {
+		last = "1 file"
+	}
 	width := len("file")
 	for _, r := range reps {
 		width = max(width, len(r.File))
