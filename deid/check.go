@@ -1,7 +1,6 @@
 package deid
 
 import (
-	"encoding/json"
 	"fmt"
 	"os"
 	"regexp"
@@ -120,8 +119,7 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 		if err != nil {
 			return nil, err
 		}
-		vb, _ := json.Marshal(view)
-		for _, h := range scanText(string(vb), needles) {
+		for _, h := range scanText(viewText(view), needles) {
 			rep.Leaks = append(rep.Leaks, maskValue(h)+" found in the decoded metadata")
 		}
 	}

@@ -264,3 +264,38 @@ func scanText(text string, needles []string) []string {
 	}
 	return hits
 }
+
+// viewText joins every string of a decoded metadata view (JSON-like maps
+// and lists) with newlines, unescaped, for scanText.
+func viewText(v any) string {
+	var b strings.Builder
+	var walk func(any)
+	walk = func(v any) {
+		switch x := v.(type) {
+		case string:
+			b.WriteString(x)
+			b.WriteByte('\n')
+		case map[string]any:
+			for k, e := range x {
+				b.WriteString(k)
+				b.WriteByte('\n')
+				walk(e)
+			}
+		case []any:
+			for _, e := range x {
+				walk(e)
+			}
+		case []string:
+			for _, e := range x {
+				walk(e)
+			}
+		default:
+			if x != nil {
+				b.WriteString(fmt.Sprint(x))
+				b.WriteByte('\n')
+			}
+		}
+	}
+	walk(v)
+	return b.String()
+}

@@ -161,3 +161,12 @@ func TestScanBytesEncodingsAndBoundaries(t *testing.T) {
 }
 
 func isWordRune(r rune) bool { return unicode.IsLetter(r) || unicode.IsDigit(r) }
+
+// TestViewText: values in the decoded metadata are searched unescaped (JSON
+// would write "&" as \u0026).
+func TestViewText(t *testing.T) {
+	view := map[string]any{"session": map[string]any{"site": "Quarn & Daughters <lab>"}, "trials": []any{map[string]any{"n": 3.5}}}
+	if hits := scanText(viewText(view), []string{"Quarn & Daughters <lab>", "absent"}); len(hits) != 1 {
+		t.Fatalf("hits %v", hits)
+	}
+}

@@ -498,8 +498,7 @@ func verifyOutput(path string, orig *record.Recording, res *Result, pol *Policy)
 	if err != nil {
 		return sum, 0, fmt.Errorf("reading the output back: %w", err)
 	}
-	vb, _ := json.Marshal(view)
-	for _, h := range scanText(string(vb), needles) {
+	for _, h := range scanText(viewText(view), needles) {
 		sum.Leaks = append(sum.Leaks, maskValue(h)+" found in the decoded metadata")
 	}
 	f, err := recfile.Open(path)
