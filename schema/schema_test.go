@@ -101,6 +101,8 @@ var schemaCases = []struct {
 	{"birth year only", `/subject/birth_date="1990"`, true},
 	{"session calendar date", `/session/date="2026-03-14"`, true},
 	{"double differential montage", `/trials/0/arrays/0/montage="double differential"`, true},
+	{"sha256 withheld (empty cell)", `/provenance/sources/0/sha256=""`, true},
+	{"source name withheld (empty cell)", `/provenance/sources/0/name=""`, true},
 	{"negative pnr is a number", "/trials/0/arrays/0/decompositions/0/units/0/pnr_db=-3", true},
 
 	{"study missing", `{"subject": {}, "session": {}, "trials": []}`, false},
@@ -158,6 +160,8 @@ var schemaCases = []struct {
 	{"muaps without lags", "/trials/0/arrays/0/decompositions/0/muaps/lags=", false},
 	{"sha256 upper case", `/provenance/sources/0/sha256="E3B0C44298FC1C149AFBF4C8996FB92427AE41E4649B934CA495991B7852B855"`, false},
 	{"source name absolute", `/provenance/sources/0/name="/home/x/emg.csv"`, false},
+	{"source name with a drive letter", `/provenance/sources/0/name="C:\\data\\emg.csv"`, false},
+	{"sha256 too short", `/provenance/sources/0/sha256="e3b0c442"`, false},
 	{"source bytes negative", "/provenance/sources/0/bytes=-1", false},
 	{"history time not RFC 3339", `/provenance/history/0/time="yesterday"`, false},
 	{"history without action", "/provenance/history/0/action=", false},

@@ -239,11 +239,11 @@ func checkDischarges(u *record.Unit, fs float64, rows int, h, countCell, uj stri
 	}
 	if unsorted > 0 {
 		add("discharge.sorted", h, j, "sort each unit's discharges in ascending order",
-			"unit %d: %d discharges out of order, first at index %d (%d after %d)", u.ID, unsorted, firstUnsorted, ds[firstUnsorted], ds[firstUnsorted-1])
+			"unit %d: %d %s out of order, first at index %d (%d after %d)", u.ID, unsorted, plural(unsorted, "discharge", "discharges"), firstUnsorted, ds[firstUnsorted], ds[firstUnsorted-1])
 	}
 	if dups > 0 {
 		add("discharge.duplicate", h, j, "remove the repeated discharges",
-			"unit %d: %d repeated discharges, first at index %d (sample %d)", u.ID, dups, firstDup, ds[firstDup])
+			"unit %d: %d repeated %s, first at index %d (sample %d)", u.ID, dups, plural(dups, "discharge", "discharges"), firstDup, ds[firstDup])
 	}
 	if outside > 0 {
 		lim := "the array's samples"
@@ -251,11 +251,11 @@ func checkDischarges(u *record.Unit, fs float64, rows int, h, countCell, uj stri
 			lim = fmt.Sprintf("0..%d", rows-1)
 		}
 		add("discharge.range", h, j, "discharges are 0-based sample indices of the array they were decomposed from",
-			"unit %d: %d discharges outside %s, first at index %d (sample %d)", u.ID, outside, lim, firstOutside, ds[firstOutside])
+			"unit %d: %d %s outside %s, first at index %d (sample %d)", u.ID, outside, plural(outside, "discharge", "discharges"), lim, firstOutside, ds[firstOutside])
 	}
 	if doublets > 0 {
 		add("discharge.doublet", h, j, "doublets occur, but many point to a merged or duplicated source",
-			"unit %d: %d intervals under %v ms (doublets), first before index %d (%.1f ms)", u.ID, doublets, r.DoubletISIMs, firstDoublet,
+			"unit %d: %d %s under %v ms (doublets), first before index %d (%.1f ms)", u.ID, doublets, plural(doublets, "interval", "intervals"), r.DoubletISIMs, firstDoublet,
 			float64(ds[firstDoublet]-ds[firstDoublet-1])/fs*1000)
 	}
 	if fs > 0 && unsorted == 0 && r.SustainedISIs >= 1 && len(ds) > r.SustainedISIs {
@@ -281,4 +281,11 @@ func LowConfidence(u record.Unit, r Rules) bool {
 	}
 	return finite(u.Silhouette) && u.Silhouette < r.SilhouetteMin ||
 		finite(u.PNRdB) && u.PNRdB < r.PNRMinDB
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }
