@@ -595,7 +595,8 @@ func (p *packer) documents(sums []RecordingSummary, files []FileRecord) ([]doc, 
 		if len(f.Identifying) > 0 {
 			p.identified = append(p.identified, f.Path)
 			for _, n := range f.Identifying {
-				p.identFields[n] = true
+				// "trials[2].notes" -> "trials[].notes": one name per field.
+				p.identFields[listIndex.ReplaceAllString(n, "[]")] = true
 			}
 		}
 	}
@@ -619,6 +620,8 @@ func (p *packer) bagDate() time.Time {
 	}
 	return p.opt.Date.UTC()
 }
+
+var listIndex = regexp.MustCompile(`\[[0-9]+\]`)
 
 var spdxID = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9.+-]*( (AND|OR|WITH) [A-Za-z0-9][A-Za-z0-9.+-]*)*$`)
 
