@@ -203,6 +203,8 @@ func openPath(root *Group, p string) (*Dataset, error) {
 type ChunkInfo struct {
 	Offset []int
 	Bytes  int
+	// Addr is the chunk's byte address in the file.
+	Addr int64
 }
 
 // Chunks lists the dataset's stored chunks in file order.
@@ -223,7 +225,7 @@ func (d *Dataset) Chunks() ([]ChunkInfo, error) {
 		if C.muarc_chunk_info(d.id, i, &off[0], &mask, &addr, &size) < 0 {
 			return nil, fail(d.file, d.path, fmt.Sprintf("chunk %d info", i))
 		}
-		ci := ChunkInfo{Bytes: int(size)}
+		ci := ChunkInfo{Bytes: int(size), Addr: int64(addr)}
 		for k := range d.Shape {
 			ci.Offset = append(ci.Offset, int(off[k]))
 		}

@@ -73,7 +73,7 @@ func fixture() *record.Recording {
 							{Name: "auto", Method: "blind source separation", MethodVersion: "2.1", Parameters: `{"iterations":50}`,
 								Units:        []record.Unit{u1, u2, u3},
 								ExtraColumns: []record.Column{{Name: "twitch_ms", Unit: "ms", Values: []float64{55, nan, 70}}, {Name: "comment", Text: []string{"a", "", "ç"}}},
-								MUAPs:        &record.MUAPs{Units: 3, Channels: 6, Lags: 4, FirstLag: -2, Unit: "uV", Data: make([]float32, 72)}},
+								MUAPs:        &record.MUAPs{Units: 3, Channels: 6, Lags: 4, FirstLag: -2, Unit: "uV", Data: ramp(72)}},
 							{Name: "edited", Method: "manual", EditedByHand: true, Parameters: "{}", Units: nil},
 						},
 						Extra: record.Extra{"electrode_gel": "yes"},
@@ -93,6 +93,14 @@ func fixture() *record.Recording {
 			History: []record.Operation{{Action: "import", Software: "muarc test", Time: time.Date(2026, 3, 15, 1, 2, 3, 0, time.UTC), Details: `{"k":1}`}},
 		},
 	}
+}
+
+func ramp(n int) []float32 {
+	out := make([]float32, n)
+	for i := range out {
+		out[i] = float32(i)*0.5 - 7
+	}
+	return out
 }
 
 // equalRec compares two recordings with NaN equal to NaN and samples bit

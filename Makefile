@@ -1,0 +1,60 @@
+# muarc: two commands on a fresh Debian machine with Go.
+#   make demo   runs the whole job on the built-in synthetic study
+#   make test   runs every test
+# Both install the system packages they need first (make deps).
+
+GO      ?= go
+BIN     := bin/muarc
+DEMO    ?= demo-out
+# Debian packages: HDF5 and the compressor for building, and the outside
+# references the tests check against (h5dump, h5py, jsonschema, numpy/scipy,
+# pandas, headless Chromium for the report).
+DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
+	python3-jsonschema python3-numpy python3-scipy python3-pandas chromium
+
+.PHONY: all deps build demo test bench fuzz vet clean
+
+all: build
+
+# deps installs whatever of DEB_PACKAGES is missing (apt-get update once).
+deps:
+	@missing=""; for p in $(DEB_PACKAGES); do \
+		dpkg-query -W -f='$${Status}' $$p 2>/dev/null | grep -q "install ok installed" || missing="$$missing $$p"; \
+	done; \
+	if [ -n "$$missing" ]; then \
+		echo "installing:$$missing"; \
+		SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
+		$$SUDO apt-get update -qq && DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
+	fi
+
+build: deps
+	$(GO) build -o $(BIN) ./cmd/muarc
+
+demo: build
+	./$(BIN) demo --out $(DEMO)
+
+vet: deps
+	$(GO) vet ./...
+
+# test runs every package's tests, the fuzz seed corpora included, with the
+# race detector off (cgo HDF5 calls are serialised by design) and CI=true so
+# a missing outside reference fails instead of skipping.
+test: deps
+	gofmt -l . | (! grep .) || (echo "gofmt would change the files above" && exit 1)
+	$(GO) vet ./...
+	CI=true $(GO) test -count=1 -timeout 30m ./...
+
+# bench runs the benchmarks; figures go to bench-out/ and stdout.
+bench: deps
+	mkdir -p bench-out
+	$(GO) test -run XXX -bench . -benchtime 3x -benchmem ./recfile ./h5 | tee bench-out/recfile.txt
+	$(GO) test -run XXX -bench . -benchtime 3x ./synth | tee bench-out/synth.txt
+	bash scripts/bench-peak-rss.sh | tee bench-out/peak-rss.txt
+
+# fuzz runs each fuzz target for FUZZTIME (default 30s).
+FUZZTIME ?= 30s
+fuzz: deps
+	bash scripts/fuzz-all.sh $(FUZZTIME)
+
+clean:
+	rm -rf bin $(DEMO) bench-out
