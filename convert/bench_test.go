@@ -92,3 +92,15 @@ func BenchmarkImportCSV64x2048x60(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkScan64x2048x60 is the first pass alone.
+func BenchmarkScan64x2048x60(b *testing.B) {
+	p := filepath.Join(b.TempDir(), "emg.csv")
+	b.SetBytes(writeBenchCSV(b, p, 64, 2048, 60))
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := ScanSignals(p, SignalOptions{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -2,6 +2,8 @@ package convert
 
 import (
 	"bytes"
+	"errors"
+	"fmt"
 	"io"
 	"math"
 	"os"
@@ -18,9 +20,10 @@ const blockBytes = 1 << 20
 type blockMode uint8
 
 const (
-	modeScan blockMode = iota // check and gather statistics only
-	mode32                    // convert data cells to float32
-	mode64                    // convert data cells to float64
+	modeScan  blockMode = iota // check every cell and gather statistics only
+	mode32                     // convert data cells to float32 (and check they fit)
+	mode64                     // convert data cells to float64
+	modeCount                  // count rows and read the time column only
 )
 
 // blockSpec is what every worker needs to parse a block of signal rows.
@@ -47,6 +50,7 @@ type block struct {
 	timeDec   int     // most decimals written in a time cell
 	timeFrac  bool    // a time cell had a fraction or exponent
 	maxDigits int
+	maxMant   uint64 // largest mantissa of a fast-path cell (digits = its length)
 	nan       int64
 	// f32 check: cells that do not fit float32, the largest error and where
 	// the first one is.
@@ -67,7 +71,7 @@ type cellRef struct {
 }
 
 func (b *block) reset() {
-	b.rows, b.timeDec, b.maxDigits = 0, 0, 0
+	b.rows, b.timeDec, b.maxDigits, b.maxMant = 0, 0, 0, 0
 	b.timeFrac = false
 	b.f32, b.f64, b.times, b.rowLines = b.f32[:0], b.f64[:0], b.times[:0], b.rowLines[:0]
 	b.nan, b.f32bad, b.f64bad = 0, 0, 0
@@ -91,7 +95,12 @@ func (sp *blockSpec) parse(b *block) {
 		}
 		t := trimBlank(l)
 		if len(t) != 0 && !isComment(t) {
-			if err := sp.row(b, t, line); err != nil {
+			if sp.mode == modeCount {
+				if err := sp.countRow(b, t, line); err != nil {
+					b.err = err
+					return
+				}
+			} else if err := sp.row(b, t, line); err != nil {
 				b.err = err
 				return
 			}
@@ -156,17 +165,14 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 		}
 		if d != ' ' {
 			m, frac, neg, hasSep, end, ok := fastCell(l, pos, d, sep)
-			if ok && frac <= 22 && (sp.mode != modeScan || col == sp.tcol || m < 1000000) {
+			// The fast path takes cells of at most 6 significant digits
+			// (they fit float32: FLT_DIG = 6, ISO/IEC 9899 5.2.4.2.2) and,
+			// for float64 and the time column, up to 15 (DBL_DIG = 15).
+			if ok && frac <= 22 && (m < 1000000 && (m == 0 || frac <= 37) || (col == sp.tcol || sp.mode == mode64) && m < 1000000000000000) {
 				if col == sp.tcol || sp.mode == mode64 {
-					var v float64
-					if m < 1<<53 {
-						v = float64(m) / pow10[frac]
-						if neg {
-							v = -v
-						}
-					} else {
-						n, _ := parseNumber(l[pos:end], comma)
-						v = n.v
+					v := float64(m) / pow10[frac]
+					if neg {
+						v = -v
 					}
 					if col == sp.tcol {
 						b.times = append(b.times, v)
@@ -175,30 +181,31 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 						b.timeFrac = b.timeFrac || hasSep
 					} else {
 						b.f64 = append(b.f64, v)
-					}
-				} else if sp.mode == mode32 {
-					var f float32
-					if m < 1<<24 && frac <= 10 {
-						f = float32(m) / pow10f32[frac]
-						if neg {
-							f = -f
+						b.maxMant = max(b.maxMant, m)
+						if m >= 1000000 && b.f32bad == 0 {
+							// Would float32 have held it? (for the report)
+							n, _ := parseNumber(l[pos:end], comma)
+							if !f32Exact(&n, toF32(&n, l[pos:end], comma)) {
+								b.f32bad++
+								b.f32First = cellRef{line, col + 1, string(l[pos:end])}
+							}
 						}
-					} else {
-						n, _ := parseNumber(l[pos:end], comma)
-						f = toF32(&n, l[pos:end], comma)
 					}
-					b.f32 = append(b.f32, f)
 				} else {
-					// Scan: at most 6 significant digits and at least 1e-37 in
-					// magnitude (or zero) fit float32 (FLT_DIG = 6).
-					if m != 0 && frac > 37 {
-						goto general
+					if sp.mode == mode32 {
+						var f float32
+						if frac <= 10 {
+							f = float32(m) / pow10f32[frac]
+							if neg {
+								f = -f
+							}
+						} else {
+							n, _ := parseNumber(l[pos:end], comma)
+							f = toF32(&n, l[pos:end], comma)
+						}
+						b.f32 = append(b.f32, f)
 					}
-					nd := 0
-					for x := m; x != 0; x /= 10 {
-						nd++
-					}
-					b.maxDigits = max(b.maxDigits, nd)
+					b.maxMant = max(b.maxMant, m)
 				}
 				col++
 				if end >= len(l) {
@@ -208,7 +215,6 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 				continue
 			}
 		}
-	general:
 		// Find the cell [pos, end).
 		var cell []byte
 		last := false
@@ -257,36 +263,39 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 			b.timeDec = max(b.timeDec, n.decimals)
 			b.timeFrac = b.timeFrac || !n.integer
 		} else {
+			b.maxDigits = max(b.maxDigits, n.digits)
+			var f float32
+			if kind == cellNumber {
+				f = toF32(&n, cell, comma)
+			} else {
+				f = float32(math.NaN())
+			}
+			if kind == cellNumber && sp.mode != mode64 && (b.f32bad == 0 || sp.all32) || kind == cellNumber && sp.mode == mode64 && b.f32bad == 0 {
+				if !f32Exact(&n, f) {
+					if b.f32bad == 0 {
+						b.f32First = cellRef{line, col + 1, string(cell)}
+					}
+					b.f32bad++
+					if e := math.Abs(float64(f) - n.v); e > b.f32MaxErr {
+						b.f32MaxErr = e
+					}
+					if sp.mode == mode32 && !sp.all32 {
+						return &wideError{File: sp.file, Cell: b.f32First}
+					}
+				}
+			}
+			if n.digits > 15 && !f64Exact(&n) {
+				if b.f64bad == 0 {
+					b.f64First = cellRef{line, col + 1, string(cell)}
+				}
+				b.f64bad++
+				if e := math.Abs(n.v) * 0x1p-53; e > b.f64MaxErr {
+					b.f64MaxErr = e
+				}
+			}
 			switch sp.mode {
-			case modeScan:
-				b.maxDigits = max(b.maxDigits, n.digits)
-				if kind == cellNumber && (b.f32bad == 0 || sp.all32) {
-					f := toF32(&n, cell, comma)
-					if !f32Exact(&n, f) {
-						if b.f32bad == 0 {
-							b.f32First = cellRef{line, col + 1, string(cell)}
-						}
-						b.f32bad++
-						if e := math.Abs(float64(f) - n.v); e > b.f32MaxErr {
-							b.f32MaxErr = e
-						}
-					}
-				}
-				if n.digits > 15 && !f64Exact(&n) {
-					if b.f64bad == 0 {
-						b.f64First = cellRef{line, col + 1, string(cell)}
-					}
-					b.f64bad++
-					if e := math.Abs(n.v) * 0x1p-53; e > b.f64MaxErr {
-						b.f64MaxErr = e
-					}
-				}
 			case mode32:
-				if kind == cellNumber {
-					b.f32 = append(b.f32, toF32(&n, cell, comma))
-				} else {
-					b.f32 = append(b.f32, float32(math.NaN()))
-				}
+				b.f32 = append(b.f32, f)
 			case mode64:
 				b.f64 = append(b.f64, n.v)
 			}
@@ -300,6 +309,74 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 		return perr(sp.file, line, col, "every row needs as many fields as the header; fill a missing value with NaN or an empty cell", "row has %d fields, expected %d", col, sp.cols)
 	}
 	b.rows++
+	return nil
+}
+
+// ErrNeedFloat64 is wrapped by the error a float32 sample stream returns when
+// a cell does not fit float32 at the digits written; the importer then
+// stores that array as float64.
+var ErrNeedFloat64 = errors.New("a cell needs float64")
+
+// wideError says which cell did not fit float32.
+type wideError struct {
+	File string
+	Cell cellRef
+}
+
+func (e *wideError) Error() string {
+	return fmt.Sprintf("%s:%d:%d: %q does not fit float32 at the digits written", e.File, e.Cell.Line, e.Cell.Column, e.Cell.Text)
+}
+
+func (e *wideError) Unwrap() error { return ErrNeedFloat64 }
+
+// countRow is the first pass over a row: it is counted and its time cell
+// read; the other cells wait for the second pass.
+func (sp *blockSpec) countRow(b *block, l []byte, line int) error {
+	b.rows++
+	if sp.tcol < 0 {
+		return nil
+	}
+	comma := sp.d.DecimalComma
+	d := sp.d.Delimiter
+	var cell []byte
+	if d == ' ' {
+		f := bytes.Fields(l)
+		if sp.tcol < len(f) {
+			cell = f[sp.tcol]
+		} else {
+			return perr(sp.file, line, len(f)+1, "every row needs its time", "row has no time cell")
+		}
+	} else {
+		pos := 0
+		for c := 0; c < sp.tcol; c++ {
+			i := bytes.IndexByte(l[pos:], d)
+			if i < 0 {
+				return perr(sp.file, line, c+1, "every row needs its time", "row has no time cell")
+			}
+			pos += i + 1
+		}
+		end := bytes.IndexByte(l[pos:], d)
+		if end < 0 {
+			cell = l[pos:]
+		} else {
+			cell = l[pos : pos+end]
+		}
+		cell = trimBlank(cell)
+		if len(cell) >= 2 && cell[0] == '"' && cell[len(cell)-1] == '"' {
+			cell = trimBlank(cell[1 : len(cell)-1])
+		}
+	}
+	n, kind := parseNumber(cell, comma)
+	switch kind {
+	case cellText:
+		return perr(sp.file, line, sp.tcol+1, "fix the cell; every row needs its time as a number", "text %q in the time column", clip(cell))
+	case cellEmpty, cellNaN:
+		return perr(sp.file, line, sp.tcol+1, "every row needs its time", "time cell is empty")
+	}
+	b.times = append(b.times, n.v)
+	b.rowLines = append(b.rowLines, int32(line-b.line))
+	b.timeDec = max(b.timeDec, n.decimals)
+	b.timeFrac = b.timeFrac || !n.integer
 	return nil
 }
 

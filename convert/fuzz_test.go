@@ -80,6 +80,15 @@ func FuzzScanSignals(f *testing.F) {
 		if s.Samples > 10_000_000 {
 			return // a huge gap; too big to read back here
 		}
+		if err := s.Decide(); err != nil {
+			if AsParseError(err) == nil {
+				t.Fatalf("not a ParseError: %v", err)
+			}
+			return
+		}
+		if s.Samples > 10_000_000 {
+			return // a huge gap; too big to read back here
+		}
 		cols, err := s.Columns()
 		if err != nil {
 			t.Fatalf("second pass failed after a good first pass: %v", err)

@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"io/fs"
@@ -74,11 +75,12 @@ type Report struct {
 // Plan is a recording read in the first pass, ready to be written: its EMG
 // samples stream from the text files in the second pass.
 type Plan struct {
-	Rec     *record.Recording
-	Report  *Report
-	sources []*SignalSource
-
-	sigs []*Signals
+	Rec       *record.Recording
+	Report    *Report
+	sources   []*SignalSource
+	sigs      []*Signals
+	arrays    [][2]string // trial and array name of each EMG source
+	reportIdx []int       // each EMG source's entry in Report.Files
 }
 
 type input struct {
@@ -416,6 +418,8 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 	a.Samples = src
 	pl.sources = append(pl.sources, src)
 	pl.sigs = append(pl.sigs, s)
+	pl.reportIdx = append(pl.reportIdx, len(pl.Report.Files))
+	pl.arrays = append(pl.arrays, [2]string{t.Name, a.Name})
 	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, Array: a.Name, Delimiter: DelimiterName(s.Dialect.Delimiter), Rows: s.Rows,
 		Channels: len(s.Labels), RateHz: s.RateHz, Gaps: s.Gaps, DType: string(s.DType), DTypeWhy: s.DTypeWhy,
 		LossyCells: s.LossyCells, MaxAbsError: s.MaxAbsError, Notes: s.Notes}
@@ -560,19 +564,42 @@ func (pl *Plan) Close() {
 }
 
 // Write streams the recording into a muarc file (atomically) and completes
-// the report with what the second pass measured (time jitter).
+// the report with what the second pass found (sample type, lossy cells,
+// time jitter). EMG starts as float32; when a cell turns out not to fit
+// float32 at the digits written, the write is abandoned (nothing is left
+// behind) and done again with that array as float64.
 func (pl *Plan) Write(path string, opt recfile.WriteOptions) error {
 	defer pl.Close()
-	if err := recfile.Write(path, pl.Rec, opt); err != nil {
-		return err
+	for try := 0; ; try++ {
+		err := recfile.Write(path, pl.Rec, opt)
+		var we *wideError
+		if err == nil {
+			break
+		}
+		if !errors.As(err, &we) || try > len(pl.sigs) {
+			return err
+		}
+		found := false
+		for i, s := range pl.sigs {
+			if s.File == we.File && s.DType == record.Float32 && s.forced == "" {
+				s.DType = record.Float64
+				s.forced = ""
+				a := arrayNamed(trialNamed(pl.Rec, pl.arrays[i][0]), pl.arrays[i][1])
+				a.SampleType = record.Float64
+				pl.sources[i].Close()
+				pl.sources[i] = s.Source()
+				a.Samples = pl.sources[i]
+				found = true
+			}
+		}
+		if !found {
+			return err
+		}
 	}
 	pl.Report.Output = path
-	k := 0
-	for i := range pl.Report.Files {
-		if pl.Report.Files[i].Role == "emg" && k < len(pl.sigs) {
-			pl.Report.Files[i].JitterS = pl.sigs[k].JitterS
-			k++
-		}
+	for i, s := range pl.sigs {
+		f := &pl.Report.Files[pl.reportIdx[i]]
+		f.JitterS, f.DType, f.DTypeWhy, f.LossyCells, f.MaxAbsError = s.JitterS, string(s.DType), s.DTypeWhy, s.LossyCells, s.MaxAbsError
 	}
 	return nil
 }

@@ -255,3 +255,83 @@ func TestDemoProfileAndSidecarLines(t *testing.T) {
 		t.Fatalf("yaml: %v", err)
 	}
 }
+
+// TestImportWidensToFloat64: a cell that float32 cannot hold, late in the
+// file, makes the importer rewrite the array as float64; --dtype float32
+// keeps float32 and reports the largest error.
+func TestImportWidensToFloat64(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("time [s],a [uV],b [uV]\n")
+	for i := 0; i < 20000; i++ {
+		fmt.Fprintf(&b, "%g,%d.25,-1.5\n", float64(i)/1000, i%100)
+	}
+	// 123.456789: float32 values near 123 are 2^-17 apart (IEEE 754
+	// binary32), so six decimals do not read back.
+	b.WriteString("20,123.456789,2\n")
+	p := writeTemp(t, "emg_x.csv", b.String())
+	out := filepath.Join(t.TempDir(), "x.h5")
+	rep, err := ImportRecording(Inputs{EMG: []string{p}}, out, recfile.WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var fr *FileReport
+	for i := range rep.Files {
+		if rep.Files[i].Role == "emg" {
+			fr = &rep.Files[i]
+		}
+	}
+	if fr.DType != "float64" || !strings.Contains(fr.DTypeWhy, "line 20002, column 2") {
+		t.Fatalf("%s: %s", fr.DType, fr.DTypeWhy)
+	}
+	r, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := r.Trials[0].Arrays[0]
+	rows, ch := a.Samples.Shape()
+	v := make([]float64, rows*ch)
+	if err := a.Samples.ReadFloat64(0, v); err != nil {
+		t.Fatal(err)
+	}
+	// strconv.ParseFloat is the reference reading of the digits.
+	want, _ := strconv.ParseFloat("123.456789", 64)
+	if a.SampleType != record.Float64 || rows != 20001 || v[len(v)-2] != want || v[2*37] != 37.25 {
+		t.Fatalf("%s %d %v", a.SampleType, rows, v[len(v)-2])
+	}
+	out2 := filepath.Join(t.TempDir(), "y.h5")
+	rep, err = ImportRecording(Inputs{EMG: []string{p}, DType: record.Float32}, out2, recfile.WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range rep.Files {
+		if f.Role == "emg" {
+			e := math.Abs(float64(float32(want)) - want)
+			if f.DType != "float32" || f.LossyCells != 1 || math.Abs(f.MaxAbsError-e) > 1e-12 {
+				t.Fatalf("%+v", f)
+			}
+		}
+	}
+}
+
+// TestImportBadInputWritesNothing: a bad cell in the second pass leaves no
+// output and the input as it was.
+func TestImportBadInputWritesNothing(t *testing.T) {
+	text := "time [s],a\n0,1\n0.001,2\n0.002,zz\n"
+	p := writeTemp(t, "emg_a.csv", text)
+	out := filepath.Join(t.TempDir(), "x.h5")
+	_, err := ImportRecording(Inputs{EMG: []string{p}}, out, recfile.WriteOptions{})
+	pe := AsParseError(err)
+	if pe == nil || pe.Line != 4 || pe.Column != 2 {
+		t.Fatalf("%v", err)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Fatalf("output exists: %v", err)
+	}
+	ents, _ := os.ReadDir(filepath.Dir(out))
+	if len(ents) != 0 {
+		t.Fatalf("left behind: %v", ents)
+	}
+	if b, _ := os.ReadFile(p); string(b) != text {
+		t.Fatal("input changed")
+	}
+}

@@ -90,6 +90,7 @@ type Signals struct {
 	cols int
 	tcol int
 
+	forced             record.SampleType
 	lossy32, lossy64   int64
 	maxErr32, maxErr64 float64
 	first32, first64   cellRef
@@ -308,7 +309,8 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 			tt.nominal = 1000 / rate
 		}
 	}
-	p := startPipeline(s.spec(modeScan, opt.DType == record.Float32), s.lay.bodyOffset, s.lay.bodyLine)
+	s.forced = opt.DType
+	p := startPipeline(s.spec(modeCount, false), s.lay.bodyOffset, s.lay.bodyLine)
 	defer p.close()
 	var timeDec int
 	timeFrac := false
@@ -321,20 +323,6 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 			break
 		}
 		s.Rows += b.rows
-		s.NaNCells += b.nan
-		if b.maxDigits > s.MaxDigits {
-			s.MaxDigits = b.maxDigits
-		}
-		if b.f32bad > 0 && s.lossy32 == 0 {
-			s.first32 = b.f32First
-		}
-		s.lossy32 += b.f32bad
-		s.maxErr32 = math.Max(s.maxErr32, b.f32MaxErr)
-		if b.f64bad > 0 && s.lossy64 == 0 {
-			s.first64 = b.f64First
-		}
-		s.lossy64 += b.f64bad
-		s.maxErr64 = math.Max(s.maxErr64, b.f64MaxErr)
 		timeDec = max(timeDec, b.timeDec)
 		timeFrac = timeFrac || b.timeFrac
 		for i, t := range b.times {
@@ -406,7 +394,68 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 	}
 	s.RateHz, s.RateWhy = rate, rateWhy
 	s.Notes = append(s.Notes, fmt.Sprintf("sampling rate %g Hz %s", rate, rateWhy))
-	s.decideType(opt.DType)
+	switch s.forced {
+	case "":
+		s.DType, s.DTypeWhy = record.Float32, "float32 unless a cell needs more digits (decided in the second pass; Decide checks first)"
+	default:
+		s.decideType(s.forced)
+	}
+	return nil
+}
+
+// mergeStats adds a parsed block's cell statistics.
+func (s *Signals) mergeStats(b *block) {
+	s.NaNCells += b.nan
+	nd := 0
+	for x := b.maxMant; x != 0; x /= 10 {
+		nd++
+	}
+	s.MaxDigits = max(s.MaxDigits, b.maxDigits, nd)
+	if b.f32bad > 0 && s.lossy32 == 0 {
+		s.first32 = b.f32First
+	}
+	s.lossy32 += b.f32bad
+	s.maxErr32 = math.Max(s.maxErr32, b.f32MaxErr)
+	if b.f64bad > 0 && s.lossy64 == 0 {
+		s.first64 = b.f64First
+	}
+	s.lossy64 += b.f64bad
+	s.maxErr64 = math.Max(s.maxErr64, b.f64MaxErr)
+}
+
+func (s *Signals) resetStats() {
+	s.NaNCells, s.MaxDigits = 0, 0
+	s.lossy32, s.lossy64, s.maxErr32, s.maxErr64 = 0, 0, 0, 0
+	s.first32, s.first64 = cellRef{}, cellRef{}
+	s.LossyCells, s.MaxAbsError = 0, 0
+}
+
+// Decide reads every cell once (a full check: field counts, numbers) and
+// decides the sample type before any writing: float32 when every cell reads
+// back from float32 at the digits written, else float64 (or the type
+// forced). The importer skips it and decides while writing instead,
+// rewriting an array as float64 when a cell needs it.
+func (s *Signals) Decide() error {
+	s.resetStats()
+	p := startPipeline(s.spec(modeScan, s.forced == record.Float32), s.lay.bodyOffset, s.lay.bodyLine)
+	defer p.close()
+	rows := 0
+	for {
+		b, err := p.next()
+		if err != nil {
+			return err
+		}
+		if b == nil {
+			break
+		}
+		rows += b.rows
+		s.mergeStats(b)
+		p.release(b)
+	}
+	if rows != s.Rows {
+		return fmt.Errorf("%s: %d rows, %d in the first pass (did it change while it was read?)", s.File, rows, s.Rows)
+	}
+	s.decideType(s.forced)
 	return nil
 }
 

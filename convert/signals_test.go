@@ -43,6 +43,9 @@ func TestSemicolonDecimalCommaBOMCRLF(t *testing.T) {
 	if s.RateHz != 2048 || !strings.Contains(s.RateWhy, "line") {
 		t.Errorf("rate %v (%s)", s.RateHz, s.RateWhy)
 	}
+	if err := s.Decide(); err != nil {
+		t.Fatal(err)
+	}
 	if s.Rows != 4 || s.Samples != 4 || s.NaNCells != 2 {
 		t.Errorf("rows %d samples %d nan %d", s.Rows, s.Samples, s.NaNCells)
 	}
@@ -175,7 +178,10 @@ func TestSignalErrors(t *testing.T) {
 	}
 	for _, c := range cases {
 		p := writeTemp(t, "in.csv", c.text)
-		_, err := ScanSignals(p, c.opt)
+		s, err := ScanSignals(p, c.opt)
+		if err == nil {
+			err = s.Decide()
+		}
 		pe := AsParseError(err)
 		if pe == nil {
 			t.Errorf("%s: want ParseError, got %v", c.name, err)
@@ -187,19 +193,27 @@ func TestSignalErrors(t *testing.T) {
 	}
 }
 
+func scanDecide(p string, opt SignalOptions) (*Signals, error) {
+	s, err := ScanSignals(p, opt)
+	if err != nil {
+		return nil, err
+	}
+	return s, s.Decide()
+}
+
 func TestDTypeDecision(t *testing.T) {
 	// Near 123 float32 values are 2^-17 (7.6e-6) apart (IEEE 754 binary32,
 	// 24-bit significand), so six decimals there do not read back; near 12
 	// they are 2^-20 (9.5e-7) apart and six decimals do.
 	p := writeTemp(t, "a.csv", "a,b\n12.345678,1\n123.456789,2\n")
-	s, err := ScanSignals(p, SignalOptions{RateHz: 1})
+	s, err := scanDecide(p, SignalOptions{RateHz: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if s.DType != record.Float64 || !strings.Contains(s.DTypeWhy, "line 3, column 1") {
 		t.Fatalf("%s %s", s.DType, s.DTypeWhy)
 	}
-	s, err = ScanSignals(p, SignalOptions{RateHz: 1, DType: record.Float32})
+	s, err = scanDecide(p, SignalOptions{RateHz: 1, DType: record.Float32})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -210,16 +224,16 @@ func TestDTypeDecision(t *testing.T) {
 	// Integers up to 2^24 are exact in float32; 16777217 = 2^24+1 is not
 	// (IEEE 754 binary32 has a 24-bit significand).
 	p = writeTemp(t, "b.csv", "a\n16777216\n-5\n")
-	if s, _ = ScanSignals(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 {
+	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 {
 		t.Errorf("%s", s.DTypeWhy)
 	}
 	p = writeTemp(t, "c.csv", "a\n16777217\n")
-	if s, _ = ScanSignals(p, SignalOptions{RateHz: 1}); s.DType != record.Float64 {
+	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float64 {
 		t.Errorf("%s", s.DTypeWhy)
 	}
 	// 0.1 written with one digit reads back from float32 (FLT_DIG = 6).
 	p = writeTemp(t, "d.csv", "a\n0.1\n1.00000\n3.40282e38\n")
-	if s, _ = ScanSignals(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 {
+	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 {
 		t.Errorf("%s", s.DTypeWhy)
 	}
 }

@@ -74,7 +74,8 @@ func (src *SignalSource) start(mode blockMode) {
 			src.step *= 1000
 		}
 	}
-	src.p = startPipeline(s.spec(mode, false), s.lay.bodyOffset, s.lay.bodyLine)
+	s.resetStats()
+	src.p = startPipeline(s.spec(mode, s.forced == record.Float32), s.lay.bodyOffset, s.lay.bodyLine)
 }
 
 func (src *SignalSource) read(mode blockMode, start, n int, one func(i int, b *block, j int), many func(i int, b *block, j, n int)) error {
@@ -131,6 +132,7 @@ func (src *SignalSource) read(mode blockMode, start, n int, one func(i int, b *b
 				src.err = fmt.Errorf("%s: internal: time cells do not match rows", src.s.File)
 				return src.err
 			}
+			src.s.mergeStats(b)
 			src.cur, src.pos = b, 0
 			continue
 		}
@@ -165,6 +167,7 @@ func (src *SignalSource) read(mode blockMode, start, n int, one func(i int, b *b
 			j /= 1000
 		}
 		src.s.JitterS = j
+		src.s.decideType(src.s.forced)
 		// The file must end here.
 		for src.cur != nil {
 			if src.pos < src.cur.rows {
