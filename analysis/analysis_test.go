@@ -68,6 +68,9 @@ func TestFindPlateauOnTarget(t *testing.T) {
 	near(t, "start", p.StartS, 0.5+6.95, 0.011)
 	near(t, "end", p.EndS, 0.5+17.05, 0.011)
 	near(t, "level", p.LevelPctMVC, 30, 0.1)
+	// Force equals the target here (in N, 400 N MVC): held exactly.
+	near(t, "force mean", p.ForceMeanPctMVC, 30, 0.1)
+	near(t, "tracking RMS", p.TrackingRMSPctMVC, 0, 1e-9)
 
 	tr.ForceTarget = record.Signal{}
 	p, ok = FindPlateau(&tr)

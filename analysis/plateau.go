@@ -16,6 +16,46 @@ type Plateau struct {
 	LevelPctMVC float64 `json:"level_pct_mvc"`
 	// From is "force_target" or "force": the trace the plateau was found on.
 	From string `json:"from"`
+	// ForceMeanPctMVC is the mean measured force over the plateau and
+	// TrackingRMSPctMVC the root mean square of force minus target there,
+	// both % MVC; NaN when the trial lacks a trace or the MVC.
+	ForceMeanPctMVC   float64 `json:"force_mean_pct_mvc"`
+	TrackingRMSPctMVC float64 `json:"tracking_rms_pct_mvc"`
+}
+
+// tracking fills the force figures of p from the trial's traces, sampling
+// the force at its own times and the target at the same times.
+func (p *Plateau) tracking(tr *record.Trial) {
+	p.ForceMeanPctMVC, p.TrackingRMSPctMVC = math.NaN(), math.NaN()
+	f := tr.Force
+	if !f.Present() {
+		return
+	}
+	fs := ScaleOf(tr, f)
+	ts := ScaleOf(tr, tr.ForceTarget)
+	var sum, ss float64
+	n, m := 0, 0
+	for i, v := range f.Values {
+		t := f.StartS + float64(i)/f.SamplingRateHz
+		if t < p.StartS || t > p.EndS {
+			continue
+		}
+		sum += v * fs.ToPct
+		n++
+		if tr.ForceTarget.Present() {
+			if g := SignalAt(tr.ForceTarget, t); !math.IsNaN(g) {
+				d := v*fs.ToPct - g*ts.ToPct
+				ss += d * d
+				m++
+			}
+		}
+	}
+	if n > 0 {
+		p.ForceMeanPctMVC = sum / float64(n)
+	}
+	if m > 0 {
+		p.TrackingRMSPctMVC = math.Sqrt(ss / float64(m))
+	}
 }
 
 // DurationS is the plateau length in seconds.
@@ -39,7 +79,9 @@ const (
 // peak (the target is a drawn trapezoid: ramp up, plateau, ramp down). With
 // no target it is the longest run of the force, smoothed by a
 // PlateauForceSmoothS moving mean, within PlateauForceTol of its peak. The
-// run spans from its first to its last sample time. ok is false when the
+// run spans from its first to its last sample time. The force's mean and
+// its RMS deviation from the target over the plateau say how well the
+// target was held. ok is false when the
 // trial has neither trace or the trace is flat at zero.
 func FindPlateau(tr *record.Trial) (p Plateau, ok bool) {
 	s, from, tol := tr.ForceTarget, "force_target", PlateauTargetTol
@@ -79,12 +121,14 @@ func FindPlateau(tr *record.Trial) (p Plateau, ok bool) {
 		sum += v
 	}
 	level := sum / float64(bestB-bestA) * ScaleOf(tr, s).ToPct
-	return Plateau{
+	p = Plateau{
 		StartS:      s.StartS + float64(bestA)/s.SamplingRateHz,
 		EndS:        s.StartS + float64(bestB-1)/s.SamplingRateHz,
 		LevelPctMVC: level,
 		From:        from,
-	}, true
+	}
+	p.tracking(tr)
+	return p, true
 }
 
 // movingMean returns the centred moving mean of v over w samples (shorter

@@ -221,16 +221,17 @@ func orDash(s string) string {
 
 func statsTable(st []analysis.DecompositionStats) Table {
 	t := Table{Caption: "Derived figures per decomposition (regressions on recruitment threshold, % MVC)",
-		Columns: []string{"trial", "array", "decomposition", "units", "plateau (s)", "plateau rate: slope (pps/%MVC)", "intercept (pps)", "R²", "n",
+		Columns: []string{"trial", "array", "decomposition", "units", "plateau (s)", "plateau force, tracking RMS (% MVC)", "plateau rate: slope (pps/%MVC)", "intercept (pps)", "R²", "n",
 			"initial rate: slope (pps/%MVC)", "intercept (pps)", "R²", "n"},
 		Empty: "no decompositions"}
 	for _, d := range st {
-		pl := "–"
+		pl, pf := "–", "–"
 		if d.Plateau != nil {
 			pl = fmt.Sprintf("%.2f–%.2f", d.Plateau.StartS, d.Plateau.EndS)
+			pf = fmtNum(d.Plateau.ForceMeanPctMVC, 1) + ", " + fmtNum(d.Plateau.TrackingRMSPctMVC, 2)
 		}
 		f, g := d.PlateauRateFit, d.InitialRateFit
-		t.Rows = append(t.Rows, []string{d.Trial, d.Array, d.Decomposition, strconv.Itoa(len(d.Units)), pl,
+		t.Rows = append(t.Rows, []string{d.Trial, d.Array, d.Decomposition, strconv.Itoa(len(d.Units)), pl, pf,
 			fmtNum(f.Slope, 3), fmtNum(f.Intercept, 2), fmtNum(f.R2, 2), strconv.Itoa(f.N),
 			fmtNum(g.Slope, 3), fmtNum(g.Intercept, 2), fmtNum(g.R2, 2), strconv.Itoa(g.N)})
 	}

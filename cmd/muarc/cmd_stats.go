@@ -289,7 +289,8 @@ func printStatsText(w io.Writer, r *statsResult) error {
 	for _, d := range r.Decompositions {
 		fmt.Fprintf(w, "\ntrial %s, array %s, decomposition %s: %d units", d.Trial, d.Array, d.Decomposition, len(d.Units))
 		if d.Plateau != nil {
-			fmt.Fprintf(w, "; plateau %.2f-%.2f s at %s %% MVC (from %s)", d.Plateau.StartS, d.Plateau.EndS, num(d.Plateau.LevelPctMVC, 1), d.Plateau.From)
+			fmt.Fprintf(w, "; plateau %.2f-%.2f s at %s %% MVC (from %s; force %s %% MVC, tracking RMS %s %% MVC)", d.Plateau.StartS, d.Plateau.EndS,
+				num(d.Plateau.LevelPctMVC, 1), d.Plateau.From, num(d.Plateau.ForceMeanPctMVC, 1), num(d.Plateau.TrackingRMSPctMVC, 2))
 		}
 		fmt.Fprintln(w)
 		tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', tabwriter.AlignRight)
