@@ -58,7 +58,7 @@ func main() {
 	if err == nil {
 		return
 	}
-	code := 2
+	code := 2 // usage errors from cobra, and anything not classified
 	var ee *exitError
 	if errors.As(err, &ee) {
 		code = ee.code
