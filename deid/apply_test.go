@@ -292,3 +292,25 @@ func TestKAnonymity(t *testing.T) {
 		t.Fatalf("%+v", r)
 	}
 }
+
+// TestHashingSource: the digest taken while a writer streams the samples
+// equals the one read afterwards; a read out of order spoils it.
+func TestHashingSource(t *testing.T) {
+	rec := identifiable()
+	m := &record.MemSamples{Samples: 5, Channels: 2, F32: []float32{1, 2, 3, 4, 5, 6, 7, 8, 9, float32(math.NaN())}}
+	rec.Trials[0].Arrays[0].Samples = m
+	want, _ := DataDigests(rec)
+	hs := wrapSamples(rec)["trials[0].arrays[0].samples"]
+	buf := make([]float32, 4)
+	hs.ReadFloat32(0, buf)
+	hs.ReadFloat32(2, buf)
+	hs.ReadFloat32(4, buf[:2])
+	if got, ok := hs.sum(); !ok || got != want["trials[0].arrays[0].samples"] {
+		t.Fatalf("streamed digest %s %v, want %s", got, ok, want["trials[0].arrays[0].samples"])
+	}
+	hs = wrapSamples(rec)["trials[0].arrays[0].samples"]
+	hs.ReadFloat32(2, buf)
+	if _, ok := hs.sum(); ok {
+		t.Fatal("out-of-order read accepted")
+	}
+}

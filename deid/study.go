@@ -463,10 +463,20 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 			os.Remove(tmp)
 		}
 	}()
+	// Hash the input's samples as the writer streams them (it reads each
+	// array once, in order), so the input need not be read twice.
+	hashed := wrapSamples(res.Recording)
 	if err := recfile.Write(tmp, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
 		return fo, err
 	}
-	scan, n, err := verifyOutput(tmp, rec, res, pol)
+	known := map[string]string{}
+	for path, hs := range hashed {
+		hs.rec.Samples = hs.src // unwrap
+		if d, ok := hs.sum(); ok {
+			known[path] = d
+		}
+	}
+	scan, n, err := verifyOutput(tmp, res, pol, known)
 	fo.Scan, fo.DataChecked = scan, n
 	if err != nil {
 		return fo, err
@@ -481,7 +491,7 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 // verifyOutput scans a written output for the original identifying values
 // (raw bytes and decoded metadata), asks IdentifyingFields about it under the
 // default policy, and compares every dataset's values with the input's.
-func verifyOutput(path string, orig *record.Recording, res *Result, pol *Policy) (*ScanSummary, int, error) {
+func verifyOutput(path string, res *Result, pol *Policy, known map[string]string) (*ScanSummary, int, error) {
 	needles := res.Needles()
 	sum := &ScanSummary{Values: len(needles), Unscannable: res.Unscannable, Leaks: []string{}}
 	if fi, err := os.Stat(path); err == nil {
@@ -514,7 +524,7 @@ func verifyOutput(path string, orig *record.Recording, res *Result, pol *Policy)
 	if pol.SHA256() == Default().SHA256() && len(sum.StillIdentifying) > 0 {
 		return sum, 0, fmt.Errorf("the output still holds identifying fields %s; it was not written", strings.Join(sum.StillIdentifying, ", "))
 	}
-	want, err := DataDigests(res.Recording)
+	want, err := dataDigests(res.Recording, known)
 	if err != nil {
 		return sum, 0, fmt.Errorf("checksums of the input's data: %w", err)
 	}
@@ -547,6 +557,11 @@ func verifyOutput(path string, orig *record.Recording, res *Result, pol *Policy)
 // IEEE 754 bits, little-endian, so two recordings agree only when every
 // value is bit-identical (NaN payloads included). Samples are read in blocks.
 func DataDigests(rec *record.Recording) (map[string]string, error) {
+	return dataDigests(rec, nil)
+}
+
+// dataDigests is DataDigests taking the digests in known as given.
+func dataDigests(rec *record.Recording, known map[string]string) (map[string]string, error) {
 	out := map[string]string{}
 	put := func(k string, h hash.Hash) { out[k] = hex.EncodeToString(h.Sum(nil)) }
 	f64 := func(h hash.Hash, v ...float64) {
@@ -574,7 +589,9 @@ func DataDigests(rec *record.Recording) (map[string]string, error) {
 		}
 		for ai, a := range t.Arrays {
 			q := fmt.Sprintf("%s.arrays[%d]", p, ai)
-			if a.Samples != nil {
+			if d, ok := known[q+".samples"]; ok && a.Samples != nil {
+				out[q+".samples"] = d
+			} else if a.Samples != nil {
 				h := sha256.New()
 				if err := hashSamples(h, a); err != nil {
 					return nil, fmt.Errorf("%s.samples: %w", q, err)
@@ -651,6 +668,79 @@ func hashSamples(h hash.Hash, a record.Array) error {
 		}
 	}
 	return nil
+}
+
+// hashingSource hashes the values a sequential reader takes from src, as
+// hashSamples would. A read out of order spoils the sum (ok false).
+type hashingSource struct {
+	src  record.SampleSource
+	rec  *record.Array
+	h    hash.Hash
+	next int
+	bad  bool
+	b    [8]byte
+}
+
+func (s *hashingSource) Shape() (int, int) { return s.src.Shape() }
+
+func (s *hashingSource) ReadFloat32(start int, dst []float32) error {
+	if err := s.src.ReadFloat32(start, dst); err != nil {
+		return err
+	}
+	_, ch := s.src.Shape()
+	if start != s.next || s.rec.SampleType == record.Float64 || ch == 0 {
+		s.bad = true
+		return nil
+	}
+	for _, x := range dst {
+		binary.LittleEndian.PutUint32(s.b[:4], math.Float32bits(x))
+		s.h.Write(s.b[:4])
+	}
+	s.next += len(dst) / ch
+	return nil
+}
+
+func (s *hashingSource) ReadFloat64(start int, dst []float64) error {
+	if err := s.src.ReadFloat64(start, dst); err != nil {
+		return err
+	}
+	_, ch := s.src.Shape()
+	if start != s.next || s.rec.SampleType != record.Float64 || ch == 0 {
+		s.bad = true
+		return nil
+	}
+	for _, x := range dst {
+		binary.LittleEndian.PutUint64(s.b[:], math.Float64bits(x))
+		s.h.Write(s.b[:])
+	}
+	s.next += len(dst) / ch
+	return nil
+}
+
+// sum returns the digest when every row was read once, in order.
+func (s *hashingSource) sum() (string, bool) {
+	rows, ch := s.src.Shape()
+	if s.bad || s.next != rows || ch == 0 {
+		return "", false
+	}
+	return hex.EncodeToString(s.h.Sum(nil)), true
+}
+
+// wrapSamples puts a hashingSource in front of every array's samples.
+func wrapSamples(rec *record.Recording) map[string]*hashingSource {
+	out := map[string]*hashingSource{}
+	for ti := range rec.Trials {
+		for ai := range rec.Trials[ti].Arrays {
+			a := &rec.Trials[ti].Arrays[ai]
+			if a.Samples == nil {
+				continue
+			}
+			hs := &hashingSource{src: a.Samples, rec: a, h: sha256.New()}
+			a.Samples = hs
+			out[fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)] = hs
+		}
+	}
+	return out
 }
 
 type linkRow struct{ subj, subjP, sess, sessP, out string }
