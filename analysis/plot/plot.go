@@ -15,6 +15,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	gplot "gonum.org/v1/plot"
@@ -230,6 +231,7 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 		rs.colors = append(rs.colors, unitColor(i))
 	}
 	pr.Add(rs)
+	pr.Y.Tick.Marker = unitTicks{len(units)}
 
 	// Smoothed rates.
 	pq := gplot.New()
@@ -255,9 +257,12 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 	}
 	for _, p := range []*gplot.Plot{pf, pr, pq} {
 		p.X.Min, p.X.Max = t0, t1
+		p.X.Tick.Marker = plainTicks{}
 		p.Add(plotter.NewGrid())
 	}
 	pq.Y.Min = 0
+	pf.Y.Tick.Marker = plainTicks{}
+	pq.Y.Tick.Marker = plainTicks{}
 	plots := [][]*gplot.Plot{{pf}, {pr}, {pq}}
 	return &Figure{Width: 9 * vg.Inch, Height: 8 * vg.Inch, draw: func(dc draw.Canvas) {
 		tiles := draw.Tiles{Rows: 3, Cols: 1, PadTop: vg.Points(6), PadBottom: vg.Points(6),
@@ -277,4 +282,35 @@ func (p *plateauBand) Plot(c draw.Canvas, pl *gplot.Plot) {
 	x0, x1 := trX(p.a), trX(p.b)
 	c.FillPolygon(color.RGBA{R: 225, G: 235, B: 250, A: 255}, []vg.Point{
 		{X: x0, Y: c.Min.Y}, {X: x1, Y: c.Min.Y}, {X: x1, Y: c.Max.Y}, {X: x0, Y: c.Max.Y}})
+}
+
+// plainTicks are gonum's default tick positions labelled in the shortest
+// decimal form ("25", not "25.00").
+type plainTicks struct{}
+
+func (plainTicks) Ticks(lo, hi float64) []gplot.Tick {
+	ts := gplot.DefaultTicks{}.Ticks(lo, hi)
+	for i := range ts {
+		if ts[i].Label != "" {
+			ts[i].Label = strconv.FormatFloat(ts[i].Value, 'g', 6, 64)
+		}
+	}
+	return ts
+}
+
+// unitTicks label whole unit ranks 1..n, every k-th one so that at most
+// about ten labels show.
+type unitTicks struct{ n int }
+
+func (u unitTicks) Ticks(lo, hi float64) []gplot.Tick {
+	k := max(1, (u.n+9)/10)
+	var ts []gplot.Tick
+	for i := 1; i <= u.n; i++ {
+		t := gplot.Tick{Value: float64(i)}
+		if i == 1 || i%k == 0 {
+			t.Label = strconv.Itoa(i)
+		}
+		ts = append(ts, t)
+	}
+	return ts
 }

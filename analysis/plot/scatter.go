@@ -82,6 +82,8 @@ func RateThreshold(levels []Level) *Figure {
 		series(init, draw.TriangleGlyph{}, lv.Stats.InitialRateFit, true, "initial")
 	}
 	p.Y.Min = 0
+	p.X.Tick.Marker = plainTicks{}
+	p.Y.Tick.Marker = plainTicks{}
 	entries := 0
 	for _, lv := range levels {
 		entries += 2
