@@ -60,61 +60,24 @@ func init() {
 
 // resolved is a decomposition found in an open recording.
 type resolved struct {
-	Trial, Array, Decomposition string
-	arr                         *record.Array
-	dec                         *record.Decomposition
+	analysis.Found
+	arr *record.Array
+	dec *record.Decomposition
 }
 
-// resolve finds the one decomposition of rec that matches parts; want
-// fills left-out leading parts (trial, array) when set.
-func resolve(rec *record.Recording, file string, parts []string, inherit *resolved) (*resolved, error) {
-	var trial, array, decomp string
-	switch len(parts) {
-	case 3:
-		trial, array, decomp = parts[0], parts[1], parts[2]
-	case 2:
-		array, decomp = parts[0], parts[1]
-	case 1:
-		decomp = parts[0]
+// resolve finds the decomposition ref names in rec (see
+// analysis.DecompositionRef.Find).
+func resolve(rec *record.Recording, ref analysis.DecompositionRef, like *resolved) (*resolved, error) {
+	var l *analysis.Found
+	if like != nil {
+		l = &like.Found
 	}
-	if inherit != nil {
-		if trial == "" {
-			trial = inherit.Trial
-		}
-		if array == "" && len(parts) < 2 {
-			array = inherit.Array
-		}
+	f, err := ref.Find(rec, l)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", ref.File, err)
 	}
-	var found []*resolved
-	var all []string
-	for ti := range rec.Trials {
-		tr := &rec.Trials[ti]
-		for ai := range tr.Arrays {
-			arr := &tr.Arrays[ai]
-			for di := range arr.Decompositions {
-				dec := &arr.Decompositions[di]
-				all = append(all, tr.Name+"/"+arr.Name+"/"+dec.Name)
-				if (trial == "" || trial == tr.Name) && (array == "" || array == arr.Name) && (decomp == "" || decomp == dec.Name) {
-					found = append(found, &resolved{tr.Name, arr.Name, dec.Name, arr, dec})
-				}
-			}
-		}
-	}
-	hint := "decompositions in the file: " + strings.Join(all, ", ")
-	if len(all) == 0 {
-		hint = "the file has no decompositions"
-	}
-	switch len(found) {
-	case 1:
-		return found[0], nil
-	case 0:
-		return nil, fmt.Errorf("%s: no decomposition %s (%s)", file, strings.Join([]string{trial, array, decomp}, "/"), hint)
-	}
-	var names []string
-	for _, f := range found {
-		names = append(names, f.Trial+"/"+f.Array+"/"+f.Decomposition)
-	}
-	return nil, fmt.Errorf("%s: %q is ambiguous: it matches %s; name it as FILE#TRIAL/ARRAY/DECOMPOSITION", file, strings.Join(parts, "/"), strings.Join(names, ", "))
+	arr := &rec.Trials[f.TrialIndex].Arrays[f.ArrayIndex]
+	return &resolved{f, arr, &arr.Decompositions[f.DecompositionIndex]}, nil
 }
 
 // trains converts a decomposition's discharges to seconds from the trial
@@ -182,11 +145,11 @@ func runCompare(cmd *cobra.Command, args []string) error {
 		defer fb.Close()
 		recB = fb.Recording()
 	}
-	da, err := resolve(fa.Recording(), ra.File, ra.Parts, nil)
+	da, err := resolve(fa.Recording(), ra, nil)
 	if err != nil {
 		return withExit(2, err)
 	}
-	db, err := resolve(recB, rb.File, rb.Parts, da)
+	db, err := resolve(recB, rb, da)
 	if err != nil {
 		return withExit(2, err)
 	}

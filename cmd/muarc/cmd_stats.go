@@ -176,6 +176,9 @@ func storeStats(rec *record.Recording, res []decompositionResult, tpl [][][]*ana
 	}
 	details := analysis.Method()
 	details["muap_templates_stored"] = stored
+	if stored == 0 {
+		delete(details, "muap_window_ms")
+	}
 	details["decompositions"] = len(res)
 	b, err := json.Marshal(details)
 	if err != nil {
