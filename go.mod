@@ -19,6 +19,6 @@ require (
 	golang.org/x/image v0.30.0 // indirect
 	golang.org/x/text v0.28.0 // indirect
 	gonum.org/v1/hdf5 v0.0.0-20210714002203-8c5d23bc6946 // indirect
-	gonum.org/v1/plot v0.17.0 // indirect
+	gonum.org/v1/plot v0.17.0
 	gopkg.in/yaml.v3 v3.0.1 // indirect
 )
