@@ -14,7 +14,7 @@ import (
 // blockBytes is the size of the text blocks parsed in parallel. Small enough
 // that a few blocks in flight keep memory flat, large enough that the
 // per-block overhead vanishes.
-const blockBytes = 1 << 20
+const blockBytes = 512 << 10
 
 // blockMode says what a worker does with the numbers of a block.
 type blockMode uint8

@@ -8,12 +8,12 @@ import (
 // ParseError is an input problem at a place in a text file. Line and Column
 // are 1-based; 0 means not known (Column counts delimited fields, not bytes).
 type ParseError struct {
-	File   string
-	Line   int
-	Column int
-	Msg    string
+	File   string `json:"file"`
+	Line   int    `json:"line,omitempty"`
+	Column int    `json:"column,omitempty"`
+	Msg    string `json:"message"`
 	// Hint says what to do about it.
-	Hint string
+	Hint string `json:"hint,omitempty"`
 }
 
 func (e *ParseError) Error() string {

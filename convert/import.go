@@ -132,7 +132,13 @@ func Read(in Inputs) (*Plan, error) {
 	name := func(p, tmpl string, arrays []string, role string) input {
 		r := rel(p)
 		re, _ := compileTemplate(tmpl, arrays)
-		m, _ := matchTemplate(re, r)
+		m, ok := matchTemplate(re, r)
+		if !ok {
+			// The file name alone against the template's last part.
+			base := tmpl[strings.LastIndexByte(tmpl, '/')+1:]
+			re, _ = compileTemplate(base, arrays)
+			m, _ = matchTemplate(re, filepath.Base(p))
+		}
 		it := input{path: p, rel: r, role: role, trial: m["trial"], array: m["array"], dc: m["decomposition"]}
 		if it.trial == "" {
 			it.trial = defaultTrial

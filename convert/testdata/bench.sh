@@ -15,12 +15,14 @@ secs() { echo "$1" | awk -F: '{ if (NF == 3) print $1*3600+$2*60+$3; else print 
 /usr/bin/time -v /usr/bin/python3 convert/testdata/bench_pandas.py "$dir/emg.csv" "$dir/pandas.h5" 2>"$dir/py.time"
 gw=$(secs "$(field 'Elapsed (wall clock) time (h:mm:ss or m:ss)' "$dir/go.time")")
 pw=$(secs "$(field 'Elapsed (wall clock) time (h:mm:ss or m:ss)' "$dir/py.time")")
+cpu() { awk -F': *' '/User time|System time/ { s += $2 } END { print s }' "$1"; }
+gc=$(cpu "$dir/go.time"); pc=$(cpu "$dir/py.time")
 gr=$(field 'Maximum resident set size (kbytes)' "$dir/go.time")
 pr=$(field 'Maximum resident set size (kbytes)' "$dir/py.time")
 echo "CSV $(du -m "$dir/emg.csv" | cut -f1) MB"
-echo "muarc import:   ${gw} s, peak RSS $((gr / 1024)) MiB"
-echo "pandas + h5py:  ${pw} s, peak RSS $((pr / 1024)) MiB"
-awk -v g="$gw" -v p="$pw" 'BEGIN { printf "speed-up: %.2fx\n", p / g }'
+echo "muarc import:   ${gw} s wall, ${gc} s CPU, peak RSS $((gr / 1024)) MiB"
+echo "pandas + h5py:  ${pw} s wall, ${pc} s CPU, peak RSS $((pr / 1024)) MiB"
+awk -v g="$gw" -v p="$pw" -v gc="$gc" -v pc="$pc" 'BEGIN { printf "speed-up: %.2fx wall, %.2fx CPU\n", p / g, pc / gc }'
 rm -f "$dir/emg.csv" "$dir/muarc.h5" "$dir/pandas.h5"
 go run ./convert/testdata/gencsv -o "$dir/emg10.csv" -channels 64 -rate 2048 -seconds 600
 /usr/bin/time -v "$dir/muarc" import --emg "$dir/emg10.csv" -o "$dir/muarc10.h5" >/dev/null 2>"$dir/go10.time"
