@@ -170,3 +170,23 @@ func TestViewText(t *testing.T) {
 		t.Fatalf("hits %v", hits)
 	}
 }
+
+// TestScanShortNeedleNeedsText: a 4-byte value between bytes that are not
+// text (as in compressed samples) is taken as chance; the same value stored
+// as text (NUL padding, as HDF5 pads strings) is a leak.
+func TestScanShortNeedleNeedsText(t *testing.T) {
+	noise := []byte{0x9c, 0xf1, 0x83, 0x07, 0xd2, 0xb8, 0x91, 0xe4}
+	var data []byte
+	data = append(data, noise...)
+	data = append(data, []byte("~Ilse\x8f")...) // boundary bytes fine, context not text
+	data = append(data, noise...)
+	data = append(data, make([]byte, 16)...)
+	data = append(data, []byte("Ilse")...)
+	data = append(data, make([]byte, 16)...)
+	path := filepath.Join(t.TempDir(), "f.bin")
+	os.WriteFile(path, data, 0o644)
+	leaks, err := ScanBytes(path, []string{"Ilse"})
+	if err != nil || len(leaks) != 1 || leaks[0].Count != 1 || leaks[0].Offset != int64(len(noise)*2+6+16) {
+		t.Fatalf("%v %v", leaks, err)
+	}
+}
