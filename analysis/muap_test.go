@@ -2,6 +2,7 @@ package analysis
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"muarc/record"
@@ -150,4 +151,35 @@ func abs(x int) int {
 		return -x
 	}
 	return x
+}
+
+// failAt fails any read that reaches row bad.
+type failAt struct {
+	*record.MemSamples
+	bad int
+}
+
+func (f *failAt) ReadFloat32(start int, dst []float32) error {
+	if start+len(dst)/f.Channels > f.bad {
+		return testErr("damaged chunk")
+	}
+	return f.MemSamples.ReadFloat32(start, dst)
+}
+
+func TestAverageTrainsReportsReadErrors(t *testing.T) {
+	const rows, ch = 30000, 2
+	m := &record.MemSamples{Samples: rows, Channels: ch, F32: make([]float32, rows*ch)}
+	src := &failAt{MemSamples: m, bad: 20000}
+	var train []int64
+	for d := int64(100); d < rows-100; d += 97 {
+		train = append(train, d)
+	}
+	_, _, _, err := averageTrains(src, [][]int64{train, train}, -10, 21, 1000)
+	if err == nil || !strings.Contains(err.Error(), "damaged chunk") || !strings.Contains(err.Error(), "rows 20000..21000") {
+		t.Errorf("read error: %v", err)
+	}
+	// Windows wholly before the damage are fine when no discharge needs it.
+	if _, counts, _, err := averageTrains(src, [][]int64{{100, 5000, 15000}}, -10, 21, 1000); err != nil || counts[0] != 3 {
+		t.Errorf("undamaged part: %v %v", counts, err)
+	}
 }
