@@ -39,6 +39,9 @@ type Inputs struct {
 	// Signals overrides, from the command line (zero = the profile's).
 	RateHz    float64
 	AllowGaps bool
+	// Unmatched lists files of a recording folder that no template took
+	// (reported, not read).
+	Unmatched []string
 }
 
 // FileReport says what was read from one input file and what was assumed.
@@ -123,6 +126,9 @@ func Read(in Inputs) (*Plan, error) {
 		rep.Files = append(rep.Files, FileReport{Name: rel(in.Meta), Role: "metadata", Notes: []string{"validated against the recording JSON Schema"}})
 	} else {
 		rep.Notes = append(rep.Notes, "no metadata sidecar: study, subject and session are empty")
+	}
+	if len(in.Unmatched) > 0 {
+		rep.Notes = append(rep.Notes, "files not read (no template of the profile matches them): "+strings.Join(in.Unmatched, ", "))
 	}
 	defaultTrial := "trial_1"
 	if len(rec.Trials) == 1 {
@@ -701,7 +707,9 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 	sort.Strings(rels)
 	reF, _ := compileTemplate(prof.Files.Force, nil)
 	reE, _ := compileTemplate(prof.Files.EMG, nil)
-	var arrays []string
+	reD0, _ := compileTemplate(prof.Files.Discharges, nil)
+	reU0, _ := compileTemplate(prof.Files.Units, nil)
+	var arrays, rest []string
 	for _, r := range rels {
 		p := filepath.Join(dir, filepath.FromSlash(r))
 		switch {
@@ -709,21 +717,27 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 			in.Meta = p
 		case matches(reF, r):
 			in.Force = append(in.Force, p)
+		case matches(reD0, r), matches(reU0, r):
+			rest = append(rest, r) // named once the arrays are known
 		case matches(reE, r):
 			in.EMG = append(in.EMG, p)
 			m, _ := matchTemplate(reE, r)
 			arrays = append(arrays, m["array"])
+		default:
+			in.Unmatched = append(in.Unmatched, r)
 		}
 	}
 	reD, _ := compileTemplate(prof.Files.Discharges, arrays)
 	reU, _ := compileTemplate(prof.Files.Units, arrays)
-	for _, r := range rels {
+	for _, r := range rest {
 		p := filepath.Join(dir, filepath.FromSlash(r))
 		switch {
 		case matches(reD, r):
 			in.Discharges = append(in.Discharges, p)
 		case matches(reU, r):
 			in.Units = append(in.Units, p)
+		default:
+			in.Unmatched = append(in.Unmatched, r)
 		}
 	}
 	if len(in.EMG) == 0 && len(in.Force) == 0 {

@@ -170,6 +170,8 @@ func (s *Signals) columns(opt SignalOptions) error {
 		if lay.header != nil {
 			if _, ok := timeLabels[strings.ToLower(labels[0])]; ok {
 				s.tcol = 0
+			} else if given[0] && (units[0] == "s" || units[0] == "ms") {
+				s.tcol = 0 // "Zeit [ms]": a first column in seconds or milliseconds
 			}
 		}
 	default:
