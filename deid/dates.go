@@ -16,7 +16,14 @@ type parsedDate struct {
 // parseDate reads an ISO 8601 calendar date "YYYY-MM-DD", an RFC 3339
 // date-time, or a bare year "YYYY".
 func parseDate(s string) (parsedDate, error) {
-	s = strings.TrimSpace(s)
+	d, err := parseDate0(strings.TrimSpace(s))
+	if err == nil && d.t.Year() < 1 {
+		return parsedDate{}, fmt.Errorf("%q: year 0000 is not a calendar year muarc accepts", s)
+	}
+	return d, err
+}
+
+func parseDate0(s string) (parsedDate, error) {
 	if len(s) == 4 {
 		if t, err := time.Parse("2006", s); err == nil {
 			return parsedDate{t: t, yearOnly: true}, nil
@@ -55,6 +62,9 @@ func ShiftDate(s string, days int) (string, error) {
 		return "", fmt.Errorf("%q is a year only; it cannot be shifted by days", s)
 	}
 	d.t = d.t.AddDate(0, 0, days)
+	if y := d.t.Year(); y < 1 || y > 9999 {
+		return "", fmt.Errorf("%q shifted by %d days leaves the years 0001-9999 of ISO 8601 dates", s, days)
+	}
 	return d.format(), nil
 }
 
