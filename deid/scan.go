@@ -14,7 +14,8 @@ import (
 
 // Leak is one original identifying value found in a file's bytes.
 type Leak struct {
-	// Needle is the value searched for.
+	// Needle is the value searched for. It may identify a person: show
+	// String() (which masks it) to people, not Needle.
 	Needle string `json:"needle"`
 	// Encoding is how it was found: "utf-8" (ASCII letters matched without
 	// regard to case), "utf-16le" or "utf-16be".

@@ -72,6 +72,7 @@ type FileOutcome struct {
 
 	rec   *Result
 	quasi QuasiIDs
+	pseud string // the subject's pseudonym, even when the policy drops the id
 }
 
 // ScanSummary is what the leak scan of one output found.
@@ -399,11 +400,11 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		if !opt.DryRun {
 			rep.Written++
 		}
-		if fo.Subject != "" && !seen[fo.Subject] {
-			seen[fo.Subject] = true
-			quasi = append(quasi, SubjectQuasi{fo.Subject, fo.quasi})
+		if !seen[fo.pseud] {
+			seen[fo.pseud] = true
+			quasi = append(quasi, SubjectQuasi{fo.pseud, fo.quasi})
 		}
-		links = append(links, linkRow{jobs[i].subj, fo.Subject, jobs[i].sess, fo.Session, fo.Output})
+		links = append(links, linkRow{jobs[i].subj, fo.pseud, jobs[i].sess, fo.Session, fo.Output})
 	}
 	if len(quasi) > 0 {
 		k := opt.K
@@ -445,7 +446,7 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	}
 	fo.Subject, fo.Session = res.Subject, res.Session
 	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
-	fo.quasi, fo.rec = res.Quasi, res
+	fo.quasi, fo.rec, fo.pseud = res.Quasi, res, ps.Subject(j.subj)
 	if opt.DryRun {
 		return fo, nil
 	}
