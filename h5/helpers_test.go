@@ -1,25 +1,14 @@
 package h5
 
 import (
-	"os"
-	"os/exec"
 	"strconv"
 	"testing"
+
+	"muarc/internal/reftest"
 )
 
-// needH5py returns Debian's python3 with h5py. Under CI a missing h5py is a
-// failure, never a skip; elsewhere the test is skipped.
-func needH5py(t *testing.T) string {
-	t.Helper()
-	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import h5py").Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("h5py (Debian python3-h5py) is required under CI: %v", err)
-		}
-		t.Skipf("h5py not available: %v", err)
-	}
-	return py
-}
+// needH5py returns Debian's python3 with h5py (fails under CI when absent).
+func needH5py(t *testing.T) string { return reftest.NeedPython(t, "h5py") }
 
 // fmtF prints a float32 as Python's repr(float(x)) does.
 func fmtF(v float32) string {

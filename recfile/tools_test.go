@@ -9,20 +9,10 @@ import (
 	"testing"
 
 	"muarc/h5"
+	"muarc/internal/reftest"
 )
 
-// needTool finds a command-line tool; under CI its absence is a failure.
-func needTool(t *testing.T, name, pkg string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("%s (Debian %s) is required under CI", name, pkg)
-		}
-		t.Skipf("%s not installed", name)
-	}
-	return p
-}
+func needTool(t *testing.T, name, pkg string) string { return reftest.NeedTool(t, name, pkg) }
 
 // TestH5dumpListsDocumentedGroups checks the header listing of h5dump
 // (Debian hdf5-tools), the HDF5 project's own reader, against the groups

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"testing"
 
+	"muarc/internal/reftest"
 	"muarc/recfile"
 	"muarc/synth"
 )
@@ -68,13 +69,7 @@ func testFile(t *testing.T) string {
 // TestInspectAgreesWithH5py compares inspect's shapes, types and chunking
 // with h5py's (Debian python3-h5py) view of the same file.
 func TestInspectAgreesWithH5py(t *testing.T) {
-	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import h5py").Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("h5py is required under CI: %v", err)
-		}
-		t.Skip("no h5py")
-	}
+	py := reftest.NeedPython(t, "h5py")
 	path := testFile(t)
 	stdout, stderr, code := runMuarc(t, ".", "inspect", "--json", path)
 	if code != 0 {

@@ -1,0 +1,45 @@
+// Package reftest finds the outside reference tools that tests check muarc
+// against: Debian's /usr/bin/python3 with named modules (h5py, jsonschema,
+// numpy, scipy, pandas) and command-line tools (h5dump, sha256sum,
+// chromium). Under CI (the CI environment variable set) a missing reference
+// fails the test; elsewhere the test is skipped.
+package reftest
+
+import (
+	"os"
+	"os/exec"
+	"strings"
+	"testing"
+)
+
+// Python is Debian's interpreter; the first python3 on PATH may be another
+// one without the Debian modules.
+const Python = "/usr/bin/python3"
+
+// NeedPython returns Python after checking that it imports every module.
+func NeedPython(t testing.TB, modules ...string) string {
+	t.Helper()
+	code := "import " + strings.Join(append([]string{"sys"}, modules...), ", ")
+	if out, err := exec.Command(Python, "-c", code).CombinedOutput(); err != nil {
+		missing(t, "python3 modules "+strings.Join(modules, ", ")+" (Debian python3-<module>)", string(out))
+	}
+	return Python
+}
+
+// NeedTool returns the path of a command, named with its Debian package.
+func NeedTool(t testing.TB, name, debianPackage string) string {
+	t.Helper()
+	p, err := exec.LookPath(name)
+	if err != nil {
+		missing(t, name+" (Debian "+debianPackage+")", err.Error())
+	}
+	return p
+}
+
+func missing(t testing.TB, what, detail string) {
+	t.Helper()
+	if os.Getenv("CI") != "" {
+		t.Fatalf("%s is required under CI: %s", what, strings.TrimSpace(detail))
+	}
+	t.Skipf("%s not available: %s", what, strings.TrimSpace(detail))
+}
