@@ -159,7 +159,7 @@ func parseRules(b []byte, isJSON bool) (Rules, error) {
 		dec := yaml.NewDecoder(bytes.NewReader(b))
 		dec.KnownFields(true)
 		if err := dec.Decode(&r); err != nil && !errors.Is(err, io.EOF) {
-			return Rules{}, err
+			return Rules{}, errors.New(strings.ReplaceAll(err.Error(), " in type validate.Rules", " (known fields: the json/yaml names in `muarc validate --help`)"))
 		}
 	}
 	if err := r.Check(); err != nil {

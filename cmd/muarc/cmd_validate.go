@@ -38,8 +38,17 @@ Fletcher-32 checksum. A folder means every *.h5 file below it.
 
 Findings are errors, warnings or notes; --strict makes warnings errors. A rules
 file (YAML or JSON) changes thresholds, switches checks off or re-ranks them;
---list-checks shows every check id. Exit status: 0 clean or warnings only,
-1 errors, 2 a file could not be read (or bad usage).`,
+--list-checks shows every check id. Rules file fields (defaults):
+  silhouette_min 0.90, pnr_min_db 30 (dB), doublet_isi_ms 20 (ms),
+  max_rate_pps 50 (pps over sustained_isis 5 intervals), min_discharges 10,
+  emg_min_rate_hz 1000 (Hz), target_max_pct_mvc 100 (% MVC),
+  force_units [N, kN, mN, N.m, ...] (UCUM codes),
+  disabled [check id or prefix.*, ...], severity {check id or prefix.*: note|warning|error}
+
+Each file is validated in a child process, so a file damaged badly enough to
+crash the HDF5 library is reported as unreadable and the run goes on.
+Exit status: 0 clean or warnings only, 1 errors, 2 a file could not be read
+(or bad usage).`,
 	Args: func(cmd *cobra.Command, args []string) error {
 		if validateFlags.listChecks {
 			return nil
