@@ -23,6 +23,11 @@ type importFlags struct {
 	overwrite, json, allowGaps       bool
 	rate                             float64
 	workers                          int
+	// Reading overrides (take precedence over the profile).
+	delimiter, decimalComma, header, timeColumn, timeUnit string
+	shape, timeBase                                       string
+	firstIndex                                            int
+	tolerance                                             float64
 }
 
 func init() {
@@ -65,6 +70,15 @@ file is which and how to read it.`,
 	f.BoolVar(&fl.allowGaps, "allow-gaps", false, "accept gaps in time columns (missing samples become NaN)")
 	f.StringVar(&fl.shard, "shard", "", "study form: import only part i of n (i/n)")
 	f.IntVar(&fl.workers, "workers", 0, "study form: recordings imported at once (0 = one per core)")
+	f.StringVar(&fl.delimiter, "delimiter", "", "signal files: auto, comma, semicolon, tab or whitespace")
+	f.StringVar(&fl.decimalComma, "decimal-comma", "", "signal files: auto, yes or no")
+	f.StringVar(&fl.header, "header", "", "signal files: auto, yes or no")
+	f.StringVar(&fl.timeColumn, "time-column", "", "signal files: auto, none, first or a column label")
+	f.StringVar(&fl.timeUnit, "time-unit", "", "signal files: unit of the time column, s, ms or samples")
+	f.StringVar(&fl.shape, "shape", "", "discharge files: long, columns, lines or matrix (default: detect)")
+	f.StringVar(&fl.timeBase, "time-base", "", "discharge files: s, ms or samples (default: detect, and say so)")
+	f.IntVar(&fl.firstIndex, "first-index", -1, "discharge files in samples: 0 or 1 for 0- or 1-based (default: detect, and say so)")
+	f.Float64Var(&fl.tolerance, "tolerance", 0, "discharge times: samples off the grid before a time is reported (default 0.1)")
 	rootCmd.AddCommand(cmd)
 }
 
@@ -80,13 +94,16 @@ func runImport(w io.Writer, fl importFlags, args []string) error {
 	default:
 		return withExit(2, fmt.Errorf("--dtype %q: want float32 or float64", fl.dtype))
 	}
-	var prof *convert.Profile
+	prof := convert.DefaultProfile()
 	if fl.profile != "" {
 		p, err := convert.LoadProfile(fl.profile)
 		if err != nil {
 			return withExit(2, err)
 		}
 		prof = p
+	}
+	if err := overrideProfile(prof, fl); err != nil {
+		return withExit(2, err)
 	}
 	if len(args) == 1 {
 		if fl.meta != "" || len(fl.force)+len(fl.emg)+len(fl.dis)+len(fl.units) > 0 {
@@ -239,6 +256,57 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 	}
 	if len(failed) > 0 {
 		return silentExit(1)
+	}
+	return nil
+}
+
+// overrideProfile applies the reading flags over the profile.
+func overrideProfile(p *convert.Profile, fl importFlags) error {
+	set := func(dst *string, v string, ok ...string) error {
+		if v == "" {
+			return nil
+		}
+		if len(ok) > 0 {
+			found := false
+			for _, o := range ok {
+				found = found || o == v
+			}
+			if !found {
+				return fmt.Errorf("%q: want one of %s", v, strings.Join(ok, ", "))
+			}
+		}
+		*dst = v
+		return nil
+	}
+	if _, err := convert.ParseDelimiter(fl.delimiter); err != nil {
+		return err
+	}
+	for _, e := range []error{
+		set(&p.Signals.Delimiter, fl.delimiter),
+		set(&p.Signals.DecimalComma, fl.decimalComma, "auto", "yes", "no"),
+		set(&p.Signals.Header, fl.header, "auto", "yes", "no"),
+		set(&p.Signals.TimeColumn, fl.timeColumn),
+		set(&p.Signals.TimeUnit, fl.timeUnit, "s", "ms", "samples"),
+		set(&p.Discharges.Shape, fl.shape, convert.ShapeLong, convert.ShapeColumns, convert.ShapeLines, convert.ShapeMatrix),
+		set(&p.Discharges.TimeBase, fl.timeBase, "s", "ms", "samples"),
+	} {
+		if e != nil {
+			return e
+		}
+	}
+	switch fl.firstIndex {
+	case -1:
+	case 0, 1:
+		fi := fl.firstIndex
+		p.Discharges.FirstIndex = &fi
+	default:
+		return fmt.Errorf("--first-index %d: want 0 or 1", fl.firstIndex)
+	}
+	if fl.tolerance < 0 {
+		return fmt.Errorf("--tolerance %g: want a positive number of samples", fl.tolerance)
+	}
+	if fl.tolerance > 0 {
+		p.Discharges.ToleranceSamples = fl.tolerance
 	}
 	return nil
 }
