@@ -10,6 +10,7 @@ import (
 	"testing"
 	"time"
 
+	"muarc/internal/batch"
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/synth"
@@ -281,5 +282,25 @@ func TestDryRunWritesNothing(t *testing.T) {
 	}
 	if !found {
 		t.Error("plan lacks subject.name")
+	}
+}
+
+// TestShards: the two shards of a study write disjoint halves that together
+// are the whole (batch.Shard's rule), each saying it saw part of the study.
+func TestShards(t *testing.T) {
+	src, _ := studyDir(t)
+	out := filepath.Join(t.TempDir(), "shared")
+	key, _ := KeyFromBytes(make([]byte, 32))
+	var names []string
+	for i := 1; i <= 2; i++ {
+		rep, err := DeidentifyStudy(src, out, StudyOptions{Key: key, Shard: batch.Shard{I: i, N: 2}})
+		if err != nil || rep.Written != 1 || rep.Shard == "" || len(rep.Notes) == 0 {
+			t.Fatalf("shard %d: %v %+v", i, err, rep)
+		}
+		names = append(names, rep.Files[0].Output)
+	}
+	entries, _ := os.ReadDir(out)
+	if len(entries) != 2 || names[0] == names[1] {
+		t.Fatalf("outputs %v, entries %d", names, len(entries))
 	}
 }

@@ -238,6 +238,9 @@ func printDeidReport(w io.Writer, rep *deid.StudyReport, outDir string) {
 				line += fmt.Sprintf(": %d original values searched in %d bytes, no leak; %d datasets bit-exact", f.Scan.Values, f.Scan.Bytes, f.DataChecked)
 			}
 			fmt.Fprintln(w, line)
+			if f.Scan != nil && len(f.Scan.Unscannable) > 0 {
+				fmt.Fprintf(w, "      not searched, 1-2 characters long: %s\n", strings.Join(f.Scan.Unscannable, ", "))
+			}
 		}
 		for _, n := range f.Notes {
 			fmt.Fprintf(w, "      note: %s\n", n)
