@@ -6,13 +6,14 @@ import (
 )
 
 func init() {
+	registerDemoStep(35, "stats", demoStats)
 	registerDemoStep(60, "report", demoReport)
 }
 
-// demoReport derives the unit figures and MUAP templates of every recording
-// the demo wrote and stores them in the files (muarc stats --write), then
-// writes the study's HTML report into the demo folder and says where it is.
-func demoReport(ctx *demoContext) error {
+// demoStats derives the unit figures and MUAP templates of every recording
+// the demo wrote and stores them in the files (muarc stats --write). It runs
+// before validation and de-identification, so the shared copies carry them.
+func demoStats(ctx *demoContext) error {
 	if len(ctx.Recordings) == 0 {
 		return nil
 	}
@@ -30,6 +31,21 @@ func demoReport(ctx *demoContext) error {
 		bar.Add(1)
 	}
 	bar.Finish()
+	if ctx.JSON {
+		ctx.Summary["stats"] = map[string]any{"recordings": len(ctx.Recordings), "units": units, "stored": true}
+		return nil
+	}
+	fmt.Fprintf(ctx.Out, "\nStats (muarc stats --write): figures and MUAP templates of %d units stored in %d recordings\n", units, len(ctx.Recordings))
+	return nil
+}
+
+// demoReport writes the study's HTML report into the demo folder and says
+// where it is. It reports on the lab's own (identified) recordings: a page
+// for the lab to check the study before sharing, not for sharing.
+func demoReport(ctx *demoContext) error {
+	if len(ctx.Recordings) == 0 {
+		return nil
+	}
 	dir := ctx.RecordingsDir
 	if dir == "" {
 		dir = filepath.Dir(ctx.Recordings[0])
@@ -40,11 +56,9 @@ func demoReport(ctx *demoContext) error {
 		return fmt.Errorf("report: %w", err)
 	}
 	if ctx.JSON {
-		ctx.Summary["stats"] = map[string]any{"recordings": len(ctx.Recordings), "units": units, "stored": true}
 		ctx.Summary["report"] = s
 		return nil
 	}
-	fmt.Fprintf(ctx.Out, "\nStats (muarc stats --write): figures and MUAP templates of %d units stored in %d recordings\n", units, len(ctx.Recordings))
-	fmt.Fprintf(ctx.Out, "Report (muarc report): %s — %d recordings, %d figures; open it in any browser, no network needed\n", out, s.Recordings, s.Figures)
+	fmt.Fprintf(ctx.Out, "\nReport (muarc report): %s — %d recordings, %d figures; open it in any browser, no network needed\n", importRel(ctx.Dir, out), s.Recordings, s.Figures)
 	return nil
 }

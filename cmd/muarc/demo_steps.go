@@ -34,7 +34,7 @@ var demoSteps []demoStep
 
 // registerDemoStep adds a stage to the demo; each capability's own
 // demo_<name>.go calls it from init. Orders used: 10 generate, 20 import,
-// 30 inspect/table, 40 validate, 50 deidentify, 60 stats/report, 70 pack.
+// 30 table, 35 stats, 40 validate, 50 deidentify, 60 report, 70 pack.
 func registerDemoStep(order int, name string, run func(*demoContext) error) {
 	demoSteps = append(demoSteps, demoStep{order, name, run})
 	sort.SliceStable(demoSteps, func(i, j int) bool { return demoSteps[i].order < demoSteps[j].order })
