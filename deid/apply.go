@@ -249,7 +249,9 @@ func (a *applier) str(path, v string, set func(string)) {
 	default:
 		act, note = Drop, "dropped: action "+string(act)+" does not apply to text"
 	}
-	if act != Keep && k != kindName && k != kindValue {
+	// A scrubbed text is kept on purpose: what scrubbing removes is covered
+	// by the subject's own needles, not by the text as a whole.
+	if act != Keep && act != Scrub && k != kindName && k != kindValue {
 		a.needles = append(a.needles, needlesOf(v, k)...)
 	}
 	a.note(path, act, named, note)
@@ -363,7 +365,7 @@ func (a *applier) extra(group string, in record.Extra) record.Extra {
 				}
 			}
 		}
-		if act != Keep {
+		if act != Keep && act != Scrub {
 			a.needles = append(a.needles, extraNeedles(v)...)
 		}
 		a.note(path, act, named, note)
@@ -740,7 +742,7 @@ func (a *applier) decomposition(p string, in *record.Decomposition) record.Decom
 				act, note = Drop, "dropped: "+string(act)+" does not apply to a unit column"
 			}
 		}
-		if act != Keep {
+		if act != Keep && act != Scrub {
 			for _, s := range c.Text {
 				if strings.TrimSpace(s) != "" {
 					a.needles = append(a.needles, strings.TrimSpace(s))

@@ -14,6 +14,7 @@ import (
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/synth"
+	"muarc/validate"
 )
 
 // needPython returns /usr/bin/python3 when h5py imports there. Without it
@@ -302,5 +303,28 @@ func TestShards(t *testing.T) {
 	entries, _ := os.ReadDir(out)
 	if len(entries) != 2 || names[0] == names[1] {
 		t.Fatalf("outputs %v, entries %d", names, len(entries))
+	}
+}
+
+// TestOutputsValidate: de-identified files pass muarc validate (JSON Schema
+// of the metadata view via gojsonschema, structure, content) with no error:
+// year-only birth dates, shifted dates and band extras are valid values.
+func TestOutputsValidate(t *testing.T) {
+	src, _ := studyDir(t)
+	out := filepath.Join(t.TempDir(), "shared")
+	key, _ := KeyFromBytes(make([]byte, 32))
+	pol, _ := ParsePolicy([]byte(`{"name":"y","base":"muarc-safe-harbor-1","fields":{"session.date":"year","trials[].notes":"scrub"}}`), "y")
+	for _, p := range []*Policy{nil, pol} {
+		os.RemoveAll(out)
+		rep, err := DeidentifyStudy(src, out, StudyOptions{Key: key, Policy: p})
+		if err != nil || rep.Written != 2 {
+			t.Fatalf("%v %+v", err, rep)
+		}
+		for _, f := range rep.Files {
+			v := validate.File(filepath.Join(out, f.Output), validate.DefaultOptions())
+			if n := v.Count(validate.Error); n != 0 {
+				t.Errorf("%s: %d validation errors: %+v", f.Output, n, v.Findings)
+			}
+		}
 	}
 }
