@@ -25,7 +25,11 @@ type ExportOptions struct {
 	Format string
 	// Shape is the discharge shape: ShapeLong (default), ShapeColumns,
 	// ShapeLines or ShapeMatrix.
-	Shape     string
+	Shape string
+	// TimeBase is how discharge times are written: "samples" (default,
+	// 0-based indices, exact) or "s" (seconds from the EMG's start time,
+	// shortest digits that round back to the same sample).
+	TimeBase  string
 	Overwrite bool
 }
 
@@ -50,6 +54,16 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 	case ShapeLong, ShapeColumns, ShapeLines, ShapeMatrix:
 	default:
 		return nil, fmt.Errorf("--shape %q: want long, columns, lines or matrix", opt.Shape)
+	}
+	switch opt.TimeBase {
+	case "":
+		opt.TimeBase = "samples"
+	case "samples", "s":
+	default:
+		return nil, fmt.Errorf("--time-base %q: want samples or s", opt.TimeBase)
+	}
+	if opt.TimeBase == "s" && opt.Shape == ShapeMatrix {
+		return nil, fmt.Errorf("a pulse-train matrix has no times; use --time-base samples")
 	}
 	f, err := recfile.Open(path)
 	if err != nil {
@@ -130,7 +144,8 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 							fill = func(w *bufio.Writer) error { return dischargesJSON(w, d, a) }
 						default:
 							n, _ := a.Samples.Shape()
-							fill = func(w *bufio.Writer) error { return writeDischarges(w, d, opt.Shape, n, delim) }
+							tb := dischargeTime{rate: a.SamplingRateHz, start: a.StartS, seconds: opt.TimeBase == "s"}
+							fill = func(w *bufio.Writer) error { return writeDischarges(w, d, opt.Shape, n, delim, tb) }
 						}
 						if err := emit(rel, fill); err != nil {
 							return out, err
@@ -242,17 +257,37 @@ func writeEMG(w *bufio.Writer, a *record.Array, d byte) error {
 	return nil
 }
 
-func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, samples int, d byte) error {
+// dischargeTime writes a discharge as a sample index or in seconds.
+type dischargeTime struct {
+	rate, start float64
+	seconds     bool
+}
+
+func (t dischargeTime) append(b []byte, k int64) []byte {
+	if t.seconds {
+		return strconv.AppendFloat(b, t.start+float64(k)/t.rate, 'g', -1, 64)
+	}
+	return strconv.AppendInt(b, k, 10)
+}
+
+func (t dischargeTime) head() string {
+	if t.seconds {
+		return "time [s]"
+	}
+	return "sample (0-based)"
+}
+
+func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, samples int, d byte, tb dischargeTime) error {
 	ds := string(d)
 	var b []byte
 	switch shape {
 	case ShapeLong:
-		w.WriteString("unit" + ds + "sample (0-based)\n")
+		w.WriteString("unit" + ds + tb.head() + "\n")
 		for _, u := range dc.Units {
 			for _, k := range u.Discharges {
 				b = strconv.AppendInt(b[:0], u.ID, 10)
 				b = append(b, d)
-				b = strconv.AppendInt(b, k, 10)
+				b = tb.append(b, k)
 				b = append(b, '\n')
 				w.Write(b)
 			}
@@ -262,7 +297,7 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 			b = strconv.AppendInt(b[:0], u.ID, 10)
 			for _, k := range u.Discharges {
 				b = append(b, d)
-				b = strconv.AppendInt(b, k, 10)
+				b = tb.append(b, k)
 			}
 			b = append(b, '\n')
 			w.Write(b)
@@ -273,7 +308,11 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 			if i > 0 {
 				w.WriteString(ds)
 			}
-			w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " (0-based)")
+			if tb.seconds {
+				w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " [s]")
+			} else {
+				w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " (0-based)")
+			}
 			longest = max(longest, len(u.Discharges))
 		}
 		w.WriteByte('\n')
@@ -284,7 +323,7 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 					b = append(b, d)
 				}
 				if r < len(u.Discharges) {
-					b = strconv.AppendInt(b, u.Discharges[r], 10)
+					b = tb.append(b, u.Discharges[r])
 				}
 			}
 			b = append(b, '\n')

@@ -150,16 +150,17 @@ func TestRoundTrip(t *testing.T) {
 	if !strings.Contains(a, "ta_grid") || !strings.Contains(a, "Discharges:[") || len(a) < 100000 {
 		t.Fatalf("comparison text too small (%d bytes)", len(a))
 	}
-	for _, shape := range []string{ShapeLong, ShapeColumns, ShapeLines, ShapeMatrix} {
-		out := filepath.Join(tmp, "text_"+shape)
-		if _, err := Export(first, []string{"metadata", "signals", "discharges", "units"}, ExportOptions{Dir: out, Shape: shape}); err != nil {
+	for _, shape := range []string{ShapeLong, ShapeColumns, ShapeLines, ShapeMatrix, ShapeLong + "/s", ShapeColumns + "/s", ShapeLines + "/s"} {
+		out := filepath.Join(tmp, "text_"+strings.ReplaceAll(shape, "/", "_"))
+		sh, tb, _ := strings.Cut(shape, "/")
+		if _, err := Export(first, []string{"metadata", "signals", "discharges", "units"}, ExportOptions{Dir: out, Shape: sh, TimeBase: tb}); err != nil {
 			t.Fatal(err)
 		}
 		in, err := MatchRecording(out, DefaultProfile())
 		if err != nil {
 			t.Fatal(err)
 		}
-		second := filepath.Join(tmp, "second_"+shape+".h5")
+		second := filepath.Join(tmp, "second_"+strings.ReplaceAll(shape, "/", "_")+".h5")
 		if _, err := ImportRecording(in, second, recfile.WriteOptions{}); err != nil {
 			t.Fatalf("%s: %v", shape, err)
 		}

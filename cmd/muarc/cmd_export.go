@@ -13,21 +13,22 @@ import (
 
 func init() {
 	var (
-		what, shape, format, out string
-		overwrite, asJSON        bool
+		what, shape, format, out, timeBase string
+		overwrite, asJSON                  bool
 	)
 	cmd := &cobra.Command{
 		Use:   "export FILE",
 		Short: "Write a muarc file's signals, discharges, units or metadata as CSV, TSV or JSON",
 		Long: `Write parts of a muarc file as plain text, so that any tool can read them:
 
-  muarc export FILE --what signals,discharges,units,metadata [--shape long|columns|lines|matrix] [--format csv|tsv|json] -o DIR
+  muarc export FILE --what signals,discharges,units,metadata [--shape long|columns|lines|matrix]
+               [--time-base samples|s] [--format csv|tsv|json] -o DIR
 
 Files go to DIR/<trial>/force.csv, emg_<array>.csv, discharges_<array>_<decomposition>.csv,
 units_<array>_<decomposition>.csv and DIR/metadata.json: the names the built-in import
 profile reads, so "muarc import DIR" gives the same recording back. Numbers are written
 with the shortest digits that read back to the same value; discharges as 0-based sample
-indices. Each file is written atomically; existing files are kept unless --overwrite.`,
+indices (or, with --time-base s, seconds that round back to the same samples). Each file is written atomically; existing files are kept unless --overwrite.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if out == "" {
@@ -37,13 +38,14 @@ indices. Each file is written atomically; existing files are kept unless --overw
 			if what == "all" {
 				kinds = convert.ExportKinds
 			}
-			files, err := convert.Export(args[0], kinds, convert.ExportOptions{Dir: out, Format: format, Shape: shape, Overwrite: overwrite})
+			files, err := convert.Export(args[0], kinds, convert.ExportOptions{Dir: out, Format: format, Shape: shape, TimeBase: timeBase, Overwrite: overwrite})
 			return exportDone(cmd.OutOrStdout(), files, err, asJSON)
 		},
 	}
 	f := cmd.Flags()
 	f.StringVar(&what, "what", "all", "what to write: signals, discharges, units, metadata (comma-separated) or all")
 	f.StringVar(&shape, "shape", "long", "discharge shape: long (unit, sample), columns, lines or matrix")
+	f.StringVar(&timeBase, "time-base", "samples", "discharge times: samples (0-based indices, exact) or s (seconds)")
 	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata)")
 	f.StringVarP(&out, "output", "o", "", "output folder")
 	f.BoolVar(&overwrite, "overwrite", false, "replace existing files")
