@@ -592,6 +592,19 @@ func TestDataDictionaryCoversSchema(t *testing.T) {
 			t.Errorf("%s unit %q, want %q (UCUM)", f, have[f].Unit, unit)
 		}
 	}
+	// Where the layout (schema/LAYOUT.md) stores them.
+	for f, where := range map[string]string{
+		"subject.height_cm":                 "/subject @height_cm",
+		"trials":                            "/trials/ (one group each)",
+		"trials[].arrays[].channels[].x_mm": "/trials/<trial>/arrays/<array>/channels/x_mm (column)",
+		"trials[].arrays[].decompositions[].units[].pnr_db": "/trials/<trial>/arrays/<array>/decompositions/<decomposition>/units/pnr_db (column)",
+		"trials[].arrays[].channel_count":                   "columns of /trials/<trial>/arrays/<array>/samples",
+		"provenance.history[].details":                      "/provenance/history/details (column, JSON text)",
+	} {
+		if have[f].HDF5 != where {
+			t.Errorf("%s stored at %q, want %q", f, have[f].HDF5, where)
+		}
+	}
 	py := "/usr/bin/python3"
 	if _, err := os.Stat(py); err != nil {
 		t.Skip("no /usr/bin/python3")
@@ -653,5 +666,53 @@ func TestContactFields(t *testing.T) {
 		if name != c.name || email != c.email {
 			t.Errorf("%q -> %q %q, want %q %q", c.in, name, email, c.name, c.email)
 		}
+	}
+}
+
+// The dictionary's HDF5 locations of table columns and datasets exist in a
+// recording, as h5py (Debian python3-h5py) sees it.
+func TestDictionaryLocationsExistForH5py(t *testing.T) {
+	py := "/usr/bin/python3"
+	if err := exec.Command(py, "-c", "import h5py").Run(); err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatalf("h5py (python3-h5py) missing under CI: %v", err)
+		}
+		t.Skip("h5py not available")
+	}
+	d, err := DataDictionary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	file := filepath.Join(fixture(t), "identified", "subject1.h5")
+	rec, err := recfile.ReadAll(file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := rec.Trials[0]
+	a := tr.Arrays[0]
+	sub := strings.NewReplacer("<trial>", tr.Name, "<array>", a.Name, "<decomposition>", a.Decompositions[0].Name)
+	var paths []string
+	for _, e := range d {
+		loc := e.HDF5
+		switch {
+		case strings.HasSuffix(loc, " (column)") && !strings.HasPrefix(loc, "/provenance/sources"):
+			paths = append(paths, sub.Replace(strings.TrimSuffix(loc, " (column)")))
+		case strings.HasSuffix(loc, " (dataset)") && !strings.Contains(loc, "force_target"):
+			paths = append(paths, sub.Replace(strings.TrimSuffix(loc, " (dataset)")))
+		}
+	}
+	if len(paths) < 20 {
+		t.Fatalf("only %d locations", len(paths))
+	}
+	script := `
+import sys, h5py
+f = h5py.File(sys.argv[1], "r")
+for p in sys.argv[2:]:
+    if p not in f or not isinstance(f[p], h5py.Dataset):
+        print("absent", p)
+`
+	b, err := exec.Command(py, append([]string{"-c", script, file}, paths...)...).CombinedOutput()
+	if err != nil || len(b) > 0 {
+		t.Fatalf("h5py: %v\n%s", err, b)
 	}
 }

@@ -31,6 +31,9 @@ type DictEntry struct {
 	// Allowed states the schema's constraints in words (enum, range,
 	// pattern), or "".
 	Allowed string `json:"allowed,omitempty"`
+	// HDF5 says where the field is stored in a file: an attribute
+	// ("/subject @height_cm"), a table column, a dataset or its shape.
+	HDF5 string `json:"hdf5"`
 }
 
 // DataDictionary lists every field of the metadata view described by
@@ -114,14 +117,8 @@ func (w *dictWalker) object(prefix string, s ordered, depth int) {
 		switch typ {
 		case "object":
 			e.Type = "object"
-			w.out = append(w.out, e)
+			w.add(e)
 			w.object(name, sub, depth+1)
-			if ap, ok := sub.get("additionalProperties").(ordered); ok {
-				ap = w.resolve(ap)
-				w.out = append(w.out, DictEntry{Field: name + ".*", Type: jsonType(ap),
-					Meaning: firstNonEmpty(str(ap.get("description")), "Any further field, kept as given."),
-					Unit:    "", Allowed: ""})
-			}
 			continue
 		case "array":
 			items, _ := sub.get("items").(ordered)
@@ -129,7 +126,7 @@ func (w *dictWalker) object(prefix string, s ordered, depth int) {
 			it := jsonType(items)
 			if it == "object" {
 				e.Type = "array of object"
-				w.out = append(w.out, e)
+				w.add(e)
 				w.object(name+"[]", items, depth+1)
 				continue
 			}
@@ -141,8 +138,100 @@ func (w *dictWalker) object(prefix string, s ordered, depth int) {
 			e.Unit = unitOf(kv.k, sub, nil)
 			e.Allowed = allowed(sub)
 		}
-		w.out = append(w.out, e)
+		w.add(e)
 	}
+	if ap, ok := s.get("additionalProperties").(ordered); ok && prefix != "" {
+		ap = w.resolve(ap)
+		w.add(DictEntry{Field: prefix + ".*", Type: jsonType(ap),
+			Meaning: firstNonEmpty(str(ap.get("description")), "Any further field, kept as given.")})
+	}
+}
+
+func (w *dictWalker) add(e DictEntry) {
+	e.HDF5 = hdf5Location(e.Field)
+	w.out = append(w.out, e)
+}
+
+// hdf5Location says where a metadata-view field lives in a file, following
+// the layout: "@name" is an attribute, "name/" a group, a column is a 1-D
+// dataset of a table group, "<trial>" stands for each trial's group name.
+func hdf5Location(field string) string {
+	parts := strings.Split(field, ".")
+	path := ""
+	for i, p := range parts {
+		last := i == len(parts)-1
+		list := strings.HasSuffix(p, "[]")
+		name := strings.TrimSuffix(p, "[]")
+		parent := parts[max(i-1, 0)]
+		switch {
+		case path == "" && !last && !list:
+			path = "/" + name // study, subject, session, provenance
+		case list && (name == "trials" || name == "arrays" || name == "decompositions"):
+			path += "/" + name + "/<" + strings.TrimSuffix(name, "s") + ">"
+			if last {
+				return path + " (one group each)"
+			}
+		case list: // table groups: channels, units, sources, history
+			if path == "" {
+				path = "/" + name
+			} else {
+				path += "/" + name
+			}
+			if last {
+				return path + "/ (one row each)"
+			}
+		case !last:
+			path += "/" + name // force, force_target, muaps
+		}
+		if !last {
+			continue
+		}
+		table := strings.HasSuffix(parent, "[]") && !strings.HasPrefix(parent, "trials") &&
+			!strings.HasPrefix(parent, "arrays") && !strings.HasPrefix(parent, "decompositions") && i > 0
+		switch {
+		case name == "trials" || name == "arrays" || name == "decompositions":
+			return path + "/" + name + "/ (one group each)"
+		case table && (name == "details" || name == "parameters"):
+			return path + "/" + name + " (column, JSON text)"
+		case name == "*" && table:
+			return path + "/<column> (extra column)"
+		case name == "*":
+			return orRoot(path) + " @<name> (extra attribute)"
+		case name == "name" && strings.HasSuffix(parent, "[]") && !table:
+			return "group name of " + path
+		case table:
+			return path + "/" + name + " (column)"
+		case path == "" && (name == "study" || name == "subject" || name == "session" || name == "provenance"):
+			return "/" + name + " (group)"
+		case path == "":
+			return "/ @" + name
+		case name == "samples" && (parent == "force" || parent == "force_target"):
+			return "length of " + path
+		case name == "force" || name == "force_target" || name == "muaps":
+			return path + "/" + name + " (dataset)"
+		case name == "sample_type":
+			return "element type of " + path + "/samples"
+		case name == "samples":
+			return "rows of " + path + "/samples"
+		case name == "channel_count":
+			return "columns of " + path + "/samples"
+		case parent == "muaps" && (name == "units" || name == "channels" || name == "lags"):
+			return map[string]string{"units": "dimension 0", "channels": "dimension 1", "lags": "dimension 2"}[name] + " of " + path
+		case name == "channels" || name == "units" || name == "sources" || name == "history":
+			return path + "/" + name + "/ (table group)"
+		case name == "parameters" || name == "details":
+			return path + " @" + name + " (JSON text)"
+		}
+		return orRoot(path) + " @" + name
+	}
+	return ""
+}
+
+func orRoot(p string) string {
+	if p == "" {
+		return "/"
+	}
+	return p
 }
 
 // jsonType names a schema's JSON type.
@@ -292,10 +381,10 @@ func firstNonEmpty(a ...string) string {
 // header line. Tabs and line ends inside values become spaces.
 func WriteDictionaryTSV(w io.Writer, d []DictEntry) error {
 	var b bytes.Buffer
-	b.WriteString("field\ttype\tunit\trequired\tmeaning\tallowed\n")
+	b.WriteString("field\ttype\tunit\trequired\tmeaning\tallowed\thdf5\n")
 	for _, e := range d {
-		fmt.Fprintf(&b, "%s\t%s\t%s\t%t\t%s\t%s\n", tsvCell(e.Field), tsvCell(e.Type), tsvCell(e.Unit),
-			e.Required, tsvCell(e.Meaning), tsvCell(e.Allowed))
+		fmt.Fprintf(&b, "%s\t%s\t%s\t%t\t%s\t%s\t%s\n", tsvCell(e.Field), tsvCell(e.Type), tsvCell(e.Unit),
+			e.Required, tsvCell(e.Meaning), tsvCell(e.Allowed), tsvCell(e.HDF5))
 	}
 	_, err := w.Write(b.Bytes())
 	return err
@@ -311,13 +400,16 @@ func WriteDictionaryMarkdown(w io.Writer, d []DictEntry) error {
 	b.WriteString("by " + schema.Software + ". Units are UCUM (\"1\" = dimensionless, \"/s\" = per second,\n")
 	b.WriteString("\"a\" = year); an empty unit means the field is text, a code or a flag.\n")
 	b.WriteString("Fields ending in \"[]\" are lists; \".*\" stands for any further field kept as given.\n\n")
-	b.WriteString("| Field | Type | Unit | Required | Meaning | Allowed |\n|---|---|---|---|---|---|\n")
+	b.WriteString("The HDF5 column says where each field is stored: \"@name\" is an attribute, a column is a\n")
+	b.WriteString("1-D dataset of a table group (one row per channel, unit, source or step), and\n")
+	b.WriteString("<trial>, <array>, <decomposition> stand for each group's own name.\n\n")
+	b.WriteString("| Field | Type | Unit | Required | Meaning | Allowed | HDF5 |\n|---|---|---|---|---|---|---|\n")
 	for _, e := range d {
 		req := ""
 		if e.Required {
 			req = "yes"
 		}
-		fmt.Fprintf(&b, "| `%s` | %s | %s | %s | %s | %s |\n", e.Field, mdCell(e.Type), mdCell(e.Unit), req, mdCell(e.Meaning), mdCell(e.Allowed))
+		fmt.Fprintf(&b, "| `%s` | %s | %s | %s | %s | %s | %s |\n", e.Field, mdCell(e.Type), mdCell(e.Unit), req, mdCell(e.Meaning), mdCell(e.Allowed), mdCell(e.HDF5))
 	}
 	_, err := w.Write(b.Bytes())
 	return err
