@@ -461,13 +461,22 @@ func TestPackResumesAfterInterruption(t *testing.T) {
 	// Fix: drop the bad file, touch nothing else; only nothing is hashed
 	// again. Then change one file's time: only that one is hashed.
 	os.Remove(filepath.Join(src, "late.h5"))
+	// What a killed run leaves: a half-written copy, and a recording since
+	// removed from the study.
+	stage := filepath.Join(StagingPath(out), "data", "recordings")
+	os.WriteFile(filepath.Join(stage, "s1_a.h5.copying"), []byte("half"), 0o644)
+	os.MkdirAll(filepath.Join(stage, "gone"), 0o755)
+	os.WriteFile(filepath.Join(stage, "gone", "old.h5"), []byte("old"), 0o644)
 	res, err = Pack(src, out, opt)
 	if err != nil || res.Hashed != 0 || res.Reused != 2 {
 		t.Fatalf("second run: %v hashed %d reused %d", err, res.Hashed, res.Reused)
 	}
 	rep, _ := VerifyDeposit(out, VerifyOptions{})
-	if !rep.OK() {
-		t.Fatalf("resumed deposit: %v", rep.Findings)
+	if !rep.OK() || rep.PayloadFiles != 9 {
+		t.Fatalf("resumed deposit: %d files, %v", rep.PayloadFiles, rep.Findings)
+	}
+	if _, err := os.Stat(filepath.Join(out, "data", "recordings", "gone")); !os.IsNotExist(err) {
+		t.Fatal("leftover folder kept")
 	}
 	// Interrupted again (staging folder left from a rerun with an extra file).
 	os.WriteFile(filepath.Join(src, "late.h5"), ident, 0o644)
