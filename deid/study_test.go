@@ -328,3 +328,29 @@ func TestOutputsValidate(t *testing.T) {
 		}
 	}
 }
+
+// TestCheckPatterns: without the original, --check still finds e-mail
+// addresses, URLs, IP addresses and absolute paths in the metadata.
+func TestCheckPatterns(t *testing.T) {
+	rec := *generated(t)
+	rec.Trials = append([]record.Trial(nil), rec.Trials...)
+	rec.Trials[0].Notes = "uploaded from 10.1.2.3, see https://lab.example.net/x"
+	rec.Provenance.History = []record.Operation{{Action: "import", Software: "muarc", Time: time.Date(2026, 3, 3, 0, 0, 0, 0, time.UTC), Details: `{"dir":"/home/lab/raw/s01"}`}}
+	path := filepath.Join(t.TempDir(), "x.h5")
+	if err := recfile.Write(path, &rec, recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	c, err := CheckFile(path, CheckOptions{Needles: []string{rec.Subject.Name, "2026-03-02"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := strings.Join(c.Patterns, "|")
+	for _, want := range []string{"subject.email: e-mail address", "trials[0].notes: URL", "trials[0].notes: IP address", "provenance.history[0].details: absolute path"} {
+		if !strings.Contains(got, want) {
+			t.Errorf("pattern %q missing from %s", want, got)
+		}
+	}
+	if len(c.Leaks) == 0 || c.OK() || c.Searched < 10 {
+		t.Errorf("needles: %+v", c)
+	}
+}
