@@ -175,11 +175,11 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 	return a.res, nil
 }
 
-// ownIdentifiers are the subject's names and ids and contact details, to be
-// removed from any free text kept.
+// ownIdentifiers are the subject's names, ids and contact details, and the
+// operator's name, to be removed from any free text kept.
 func ownIdentifiers(rec *record.Recording) []string {
 	var own []string
-	for _, s := range []string{rec.Subject.ID, rec.Subject.Name, rec.Subject.Email, rec.Subject.Phone, rec.Session.ID} {
+	for _, s := range []string{rec.Subject.ID, rec.Subject.Name, rec.Subject.Email, rec.Subject.Phone, rec.Session.ID, rec.Session.Operator} {
 		if strings.TrimSpace(s) != "" {
 			own = append(own, strings.TrimSpace(s))
 		}
@@ -187,11 +187,13 @@ func ownIdentifiers(rec *record.Recording) []string {
 	return own
 }
 
-// outcome records what happened to a field and returns the action.
+// action returns the policy's action for a concrete path and whether the
+// policy names the field.
 func (a *applier) action(path string) (Action, bool) {
 	return a.pol.ActionFor(policyPath(path))
 }
 
+// note records what happened to a field.
 func (a *applier) note(path string, act Action, named bool, note string) {
 	a.res.Fields = append(a.res.Fields, FieldOutcome{path, act, named, note})
 	if !named {

@@ -232,6 +232,15 @@ func TestApplyScrubAndYear(t *testing.T) {
 	if n := out.Trials[0].Notes; n != "[name] asked for a break on [date]" {
 		t.Errorf("scrubbed notes %q", n)
 	}
+	in := identifiable()
+	in.Trials[0].Notes = "Anwick checked the straps"
+	res2, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := res2.Recording.Trials[0].Notes; n != "[name] checked the straps" {
+		t.Errorf("scrubbed notes %q", n)
+	}
 	if out.Session.Date != "" || out.Session.Extra["date_year"] != int64(2026) {
 		t.Errorf("session %+v", out.Session)
 	}
