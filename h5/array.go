@@ -29,8 +29,8 @@ func (g *Group) WriteFloat32Array(name string, shape []int, data []float32) erro
 		chunk[i] = C.hsize_t(max(s, 1))
 	}
 	chunk[0] = 1
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	id := C.muarc_dset_create(g.id, cname, C.H5T_IEEE_F32LE_g, C.int(len(shape)), &dims[0], &dims[0], &chunk[0], 1, 4, 1)
 	if id < 0 {
 		return fail(g.file, g.child(name), "create array")

@@ -38,8 +38,8 @@ func (d *Dataset) Attrs() ([]Attr, error) { return readAttrs(&d.obj) }
 func setAttr(o *obj, name string, v any) error {
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var rc C.int
 	switch x := v.(type) {
 	case string:
@@ -150,8 +150,8 @@ func spaceShape(space C.hid_t) (shape, maxShape []int, ok bool) {
 }
 
 func readAttrs(o *obj) ([]Attr, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var n C.hsize_t
 	if C.muarc_attr_count(o.id, &n) < 0 {
 		return nil, fail(o.file, o.path, "count attributes")

@@ -33,8 +33,8 @@ const columnChunk = 1 << 16
 func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	dapl := C.H5Pcreate(C.H5P_CLS_DATASET_ACCESS_ID_g)
 	if cacheBytes > 0 {
 		C.H5Pset_chunk_cache(dapl, 12421, C.size_t(cacheBytes), 1.0)
@@ -61,8 +61,8 @@ func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 
 // Close releases the dataset handle.
 func (d *Dataset) Close() error {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if C.H5Dclose(d.id) < 0 {
 		return fail(d.file, d.path, "close dataset")
 	}
@@ -133,8 +133,8 @@ func (g *Group) WriteColumn(name string, v any) error {
 		arr := (**C.char)(C.calloc(C.size_t(max(len(cs), 1)), C.size_t(unsafe.Sizeof(uintptr(0)))))
 		defer C.free(unsafe.Pointer(arr))
 		copy(unsafe.Slice(arr, len(cs)), cs)
-		lib.Lock()
-		defer lib.Unlock()
+		lockLib()
+		defer unlockLib()
 		if C.muarc_dset_write_strs(g.id, cname, arr, C.hsize_t(len(s))) < 0 {
 			return fail(g.file, g.child(name), "write column")
 		}
@@ -149,16 +149,16 @@ func (g *Group) WriteColumn(name string, v any) error {
 			}
 		}
 		v = u
-		lib.Lock()
+		lockLib()
 		boolType = C.muarc_bool_type()
-		lib.Unlock()
+		unlockLib()
 	}
 	mem, file, n, p, ok := numeric(v)
 	if !ok {
 		return &Error{File: g.file, Object: g.child(name), Op: "write column", Detail: fmt.Sprintf("unsupported column type %T", v)}
 	}
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if boolType >= 0 {
 		mem, file = boolType, boolType
 		defer C.H5Tclose(boolType)
@@ -212,7 +212,7 @@ func (d *Dataset) Int64s() ([]int64, error) {
 func (d *Dataset) Bools() ([]bool, error) {
 	n := d.count()
 	raw := make([]int8, n)
-	lib.Lock()
+	lockLib()
 	t := C.H5Dget_type(d.id)
 	var err error
 	if n > 0 {
@@ -226,7 +226,7 @@ func (d *Dataset) Bools() ([]bool, error) {
 	}
 	C.H5Tclose(t)
 	C.H5Eclear2(C.H5E_DEFAULT)
-	lib.Unlock()
+	unlockLib()
 	out := make([]bool, n)
 	for i, x := range raw {
 		out[i] = x != 0
@@ -236,8 +236,8 @@ func (d *Dataset) Bools() ([]bool, error) {
 
 // Strings reads a string dataset whole (variable or fixed length).
 func (d *Dataset) Strings() ([]string, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var strs **C.char
 	var m C.hsize_t
 	rc := C.muarc_dset_read_strs(d.id, &strs, &m)
@@ -266,8 +266,8 @@ func (d *Dataset) readAll(mem C.hid_t, out any) error {
 	if n == 0 {
 		return nil
 	}
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if C.H5Dread(d.id, mem, C.H5S_ALL, C.H5S_ALL, C.H5P_DEFAULT, p) < 0 {
 		return fail(d.file, d.path, "read")
 	}
@@ -305,8 +305,8 @@ func (d *Dataset) slab(mem C.hid_t, start, count []int, dst any) error {
 	if total == 0 {
 		return nil
 	}
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if C.muarc_dset_rw_slab(d.id, mem, C.int(len(start)), &st[0], &ct[0], p, 0) < 0 {
 		return fail(d.file, d.path, "read")
 	}

@@ -99,8 +99,8 @@ func describeDataset(d *Dataset) (Object, error) {
 // Layout returns the dataset's chunk shape (nil when not chunked) and filter
 // pipeline.
 func (d *Dataset) Layout() (chunk []int, filters []string, err error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var chunked, rank, nf C.int
 	var cd [32]C.hsize_t
 	var fl [16]C.int
@@ -209,8 +209,8 @@ type ChunkInfo struct {
 
 // Chunks lists the dataset's stored chunks in file order.
 func (d *Dataset) Chunks() ([]ChunkInfo, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var n C.hsize_t
 	if C.muarc_chunk_count(d.id, &n) < 0 {
 		return nil, fail(d.file, d.path, "count chunks")
@@ -255,8 +255,8 @@ func (d *Dataset) ReadRawChunk(offset []int, size int, buf []byte) ([]byte, erro
 		off[i] = C.hsize_t(o)
 	}
 	var mask C.uint
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var p unsafe.Pointer
 	if size > 0 {
 		p = unsafe.Pointer(&buf[0])

@@ -17,6 +17,7 @@ import "C"
 
 import (
 	"errors"
+	"runtime"
 
 	"path"
 	"strings"
@@ -29,10 +30,20 @@ import (
 // lib serialises every call into the HDF5 library.
 var lib sync.Mutex
 
-func init() {
-	// The library prints its error stacks to stderr unless told not to;
-	// muarc turns them into Go errors instead.
-	C.muarc_init()
+// lockLib takes the library lock on a fixed OS thread. Debian's HDF5 keeps
+// its error stack, and the setting that prints it to stderr, per thread;
+// pinning the goroutine keeps the stack we read the one the failing call
+// wrote, and each thread is told once not to print (muarc turns the stack
+// into Go errors instead).
+func lockLib() {
+	runtime.LockOSThread()
+	lib.Lock()
+	C.muarc_quiet()
+}
+
+func unlockLib() {
+	lib.Unlock()
+	runtime.UnlockOSThread()
 }
 
 // ErrChecksum marks a read that failed because stored bytes no longer match
@@ -83,8 +94,8 @@ type File struct {
 
 // Create creates (truncates) an HDF5 file for writing.
 func Create(name string) (*File, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	f, err := hdf5.CreateFile(name, hdf5.F_ACC_TRUNC)
 	if err != nil {
 		return nil, fail(name, "", "create")
@@ -94,8 +105,8 @@ func Create(name string) (*File, error) {
 
 // Open opens an existing HDF5 file read-only.
 func Open(name string) (*File, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if !hdf5.IsHDF5(name) {
 		C.H5Eclear2(C.H5E_DEFAULT)
 		return nil, &Error{File: name, Op: "open", Detail: "not an HDF5 file (no HDF5 signature found)"}
@@ -112,8 +123,8 @@ func (f *File) Name() string { return f.name }
 
 // Close closes the file; objects opened from it must be closed first.
 func (f *File) Close() error {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if err := f.f.Close(); err != nil {
 		return fail(f.name, "", "close")
 	}
@@ -122,8 +133,8 @@ func (f *File) Close() error {
 
 // Root opens the root group "/".
 func (f *File) Root() (*Group, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	g, err := f.f.OpenGroup("/")
 	if err != nil {
 		return nil, fail(f.name, "/", "open group")
@@ -151,8 +162,8 @@ type Group struct {
 
 // Close releases the group handle.
 func (g *Group) Close() error {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	if err := g.g.Close(); err != nil {
 		return fail(g.file, g.path, "close group")
 	}
@@ -164,8 +175,8 @@ func (g *Group) Close() error {
 func (g *Group) CreateGroup(name string) (*Group, error) {
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	id := C.muarc_group_create(g.id, cname)
 	if id < 0 {
 		return nil, fail(g.file, g.child(name), "create group")
@@ -180,8 +191,8 @@ func (g *Group) CreateGroup(name string) (*Group, error) {
 
 // OpenGroup opens a child group.
 func (g *Group) OpenGroup(name string) (*Group, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	sub, err := g.g.OpenGroup(name)
 	if err != nil {
 		return nil, fail(g.file, g.child(name), "open group")
@@ -191,8 +202,8 @@ func (g *Group) OpenGroup(name string) (*Group, error) {
 
 // Has reports whether the group has a link called name.
 func (g *Group) Has(name string) bool {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	ok := g.g.LinkExists(name)
 	C.H5Eclear2(C.H5E_DEFAULT)
 	return ok
@@ -217,8 +228,8 @@ type Child struct {
 // Children lists the group's members in creation order when the group tracks
 // it (muarc's groups do), else by name.
 func (g *Group) Children() ([]Child, error) {
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	var names **C.char
 	var kinds *C.int
 	var n C.hsize_t

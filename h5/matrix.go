@@ -50,17 +50,17 @@ func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCo
 	}
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
-	lib.Lock()
+	lockLib()
 	dims := [2]C.hsize_t{0, C.hsize_t(cols)}
 	maxd := [2]C.hsize_t{C.H5S_UNLIMITED, C.hsize_t(cols)}
 	chunk := [2]C.hsize_t{C.hsize_t(chunkRows), C.hsize_t(chunkCols)}
 	id := C.muarc_dset_create(g.id, cname, ftype, 2, &dims[0], &maxd[0], &chunk[0], 1, C.int(level), 1)
 	if id < 0 {
 		err := fail(g.file, g.child(name), "create matrix")
-		lib.Unlock()
+		unlockLib()
 		return nil, err
 	}
-	lib.Unlock()
+	unlockLib()
 	w := &MatrixWriter{
 		ds:   &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, Type: fmt.Sprintf("float%d", 8*elem), Shape: []int{0, cols}, MaxShape: []int{-1, cols}},
 		cols: cols, elem: elem, chunkRows: chunkRows, chunkCols: chunkCols, level: level, f64: f64,
@@ -159,8 +159,8 @@ func (w *MatrixWriter) writeBand(band []byte) error {
 			return err
 		}
 	}
-	lib.Lock()
-	defer lib.Unlock()
+	lockLib()
+	defer unlockLib()
 	dims := [2]C.hsize_t{C.hsize_t(w.rows + n), C.hsize_t(w.cols)}
 	if C.muarc_dset_extend(w.ds.id, 2, &dims[0]) < 0 {
 		return fail(w.ds.file, w.ds.path, "extend")

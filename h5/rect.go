@@ -138,10 +138,10 @@ func (d *Dataset) chunkPlain(dec unsafe.Pointer, p *rectPlan, row, col int, raw,
 	off := [2]C.hsize_t{C.hsize_t(row), C.hsize_t(col)}
 	var size C.hsize_t
 	var mask C.uint
-	lib.Lock()
+	lockLib()
 	C.muarc_chunk_size(d.id, &off[0], &size)
 	if size == 0 {
-		lib.Unlock()
+		unlockLib()
 		clear(plain) // never written: the fill value, 0
 		return raw, nil
 	}
@@ -154,7 +154,7 @@ func (d *Dataset) chunkPlain(dec unsafe.Pointer, p *rectPlan, row, col int, raw,
 	if rc < 0 {
 		err = fail(d.file, d.path, fmt.Sprintf("read chunk at row %d column %d", row, col))
 	}
-	lib.Unlock()
+	unlockLib()
 	if err != nil {
 		return raw, err
 	}

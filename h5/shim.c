@@ -4,7 +4,7 @@
 
 /* The error stack is cleared by the next library call (even a close), so
  * failures are captured where they happen, before any clean-up. */
-static char last_error[2048];
+static __thread char last_error[2048];
 static herr_t walk_cb(unsigned n, const H5E_error2_t *e, void *data);
 typedef struct { char *buf; size_t cap; size_t len; } errbuf;
 static void capture(void) {
@@ -14,7 +14,14 @@ static void capture(void) {
 }
 #define FAIL_IF(cond) do { if (cond) { capture(); goto done; } } while (0)
 
-void muarc_init(void) { H5Eset_auto2(H5E_DEFAULT, NULL, NULL); }
+/* Turns off error printing for the calling thread, once per thread. */
+void muarc_quiet(void) {
+    static __thread int done;
+    if (!done) {
+        H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
+        done = 1;
+    }
+}
 
 hid_t muarc_vlen_utf8(void) {
     hid_t t = H5Tcopy(H5T_C_S1);

@@ -37,7 +37,7 @@ void muarc_compressor_free(void *c);
 int muarc_deflate(void *c, const void *src, size_t n, void *dst, size_t *dn);
 size_t muarc_deflate_bound(void *c, size_t n);
 void muarc_error_text(char *buf, size_t cap);
-void muarc_init(void);
+void muarc_quiet(void);
 #endif
 hid_t muarc_bool_type(void);
 int muarc_is_bool_enum(hid_t t);
