@@ -532,6 +532,78 @@ func TestPackTarStreamsBag(t *testing.T) {
 	if err != nil || !rep.OK() {
 		t.Fatalf("extracted tar: %v %v", err, rep.Findings)
 	}
+	// VerifyTar reads the tar itself; a flipped byte in a recording is
+	// found with the file named.
+	if rep, err := VerifyTar(out, "", VerifyOptions{}); err != nil || !rep.OK() || rep.Recordings != 2 {
+		t.Fatalf("VerifyTar: %v %+v", err, rep)
+	}
+	raw, _ := os.ReadFile(out)
+	i := bytes.Index(raw, []byte("HDF"))
+	raw[i+len(raw)/8] ^= 1
+	bad := filepath.Join(t.TempDir(), "bad.tar")
+	os.WriteFile(bad, raw, 0o644)
+	rep, err = VerifyTar(bad, "", VerifyOptions{})
+	if err != nil || rep.OK() || !strings.HasPrefix(rep.Findings[0].File, "data/recordings/") {
+		t.Fatalf("damaged tar: %v %+v", err, rep)
+	}
+}
+
+func tarOf(t *testing.T, entries ...*tar.Header) string {
+	t.Helper()
+	var b bytes.Buffer
+	tw := tar.NewWriter(&b)
+	for _, h := range entries {
+		if h.Typeflag == tar.TypeReg {
+			h.Size = 1
+		}
+		tw.WriteHeader(h)
+		if h.Typeflag == tar.TypeReg {
+			tw.Write([]byte("x"))
+		}
+	}
+	tw.Close()
+	p := filepath.Join(t.TempDir(), "t.tar")
+	os.WriteFile(p, b.Bytes(), 0o644)
+	return p
+}
+
+func TestVerifyTarRefusesUnsafeEntries(t *testing.T) {
+	cases := map[string][]*tar.Header{
+		"leaves":   {{Name: "bag/../../evil", Typeflag: tar.TypeReg, Mode: 0o644}},
+		"absolute": {{Name: "/etc/evil", Typeflag: tar.TypeReg, Mode: 0o644}},
+		"symlink":  {{Name: "bag/link", Typeflag: tar.TypeSymlink, Linkname: "/etc/passwd"}},
+		"two tops": {{Name: "a/x", Typeflag: tar.TypeReg, Mode: 0o644}, {Name: "b/y", Typeflag: tar.TypeReg, Mode: 0o644}},
+	}
+	for name, hs := range cases {
+		if _, err := VerifyTar(tarOf(t, hs...), t.TempDir(), VerifyOptions{}); err == nil {
+			t.Errorf("%s: accepted", name)
+		}
+	}
+	if _, err := VerifyTar(tarOf(t), "", VerifyOptions{}); err == nil {
+		t.Error("empty tar accepted")
+	}
+}
+
+func FuzzUntar(f *testing.F) {
+	var b bytes.Buffer
+	tw := tar.NewWriter(&b)
+	tw.WriteHeader(&tar.Header{Name: "bag/bagit.txt", Typeflag: tar.TypeReg, Size: 3, Mode: 0o644})
+	tw.Write([]byte("abc"))
+	tw.Close()
+	f.Add(b.Bytes())
+	f.Add([]byte("not a tar"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		dir := t.TempDir()
+		top, err := untar(bytes.NewReader(data), dir)
+		if err != nil {
+			return
+		}
+		// Whatever was unpacked stays inside dir, under one top folder.
+		entries, _ := os.ReadDir(dir)
+		if len(entries) != 1 || entries[0].Name() != top {
+			t.Fatalf("top %q, entries %v", top, entries)
+		}
+	})
 }
 
 func TestShardsMergeAndFeedPack(t *testing.T) {

@@ -14,6 +14,7 @@ func init() {
 	var (
 		asJSON  bool
 		workers int
+		tmpDir  string
 	)
 	cmd := &cobra.Command{
 		Use:   "verify DEPOSIT",
@@ -24,20 +25,30 @@ manifest and matching its checksum, nothing unlisted, Payload-Oxum right, the ta
 manifest right - and then that every recording under data/ validates and every
 stored HDF5 chunk passes its Fletcher-32 checksum. Bit rot is reported by file
 and, inside a recording, by dataset and chunk. A tar made with pack --tar is
-checked after extracting it (tar -xf). Exit 0 when nothing is found, 1 on any
-finding, 2 when the deposit cannot be read.`,
+unpacked into a temporary folder (--tmp, default the system's) and checked
+there; its entries must be plain files and folders under one top folder.
+Exit 0 when nothing is found, 1 on any finding, 2 when the deposit cannot be
+read.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			dir := args[0]
-			if st, err := os.Stat(dir); err == nil && !st.IsDir() && strings.HasSuffix(dir, ".tar") {
-				return withExit(2, fmt.Errorf("%s is a tar; extract it (tar -xf %s) and verify the folder", dir, dir))
+			st, err := os.Stat(dir)
+			if err != nil {
+				return withExit(2, err)
 			}
-			var bar *progress
-			if st, err := os.Stat(dir); err == nil && st.IsDir() {
-				bar = newProgress("verify", dirBytes(dir))
+			var rep *archive.DepositReport
+			if !st.IsDir() {
+				if !strings.HasSuffix(dir, ".tar") {
+					return withExit(2, fmt.Errorf("%s: not a folder or a .tar; give the deposit made by muarc pack", dir))
+				}
+				bar := newProgress("verify", 2*st.Size())
+				rep, err = archive.VerifyTar(dir, tmpDir, archive.VerifyOptions{Workers: workers, Progress: bar.Add})
+				bar.Finish()
+			} else {
+				bar := newProgress("verify", dirBytes(dir))
+				rep, err = archive.VerifyDeposit(dir, archive.VerifyOptions{Workers: workers, Progress: bar.Add})
+				bar.Finish()
 			}
-			rep, err := archive.VerifyDeposit(dir, archive.VerifyOptions{Workers: workers, Progress: bar.Add})
-			bar.Finish()
 			if err != nil {
 				return withExit(2, err)
 			}
@@ -68,6 +79,7 @@ finding, 2 when the deposit cannot be read.`,
 	}
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print the report as JSON")
 	cmd.Flags().IntVar(&workers, "workers", 0, "files read at once (0: one per CPU)")
+	cmd.Flags().StringVar(&tmpDir, "tmp", "", "folder to unpack a tar deposit in (default: the system's temporary folder)")
 	rootCmd.AddCommand(cmd)
 }
 
