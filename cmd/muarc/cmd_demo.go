@@ -105,7 +105,7 @@ func demoWhat(name string) string {
 		return "a BagIt deposit of the de-identified study, verified"
 	case "report.html":
 		return "the study report (open in a browser)"
-	case "demo.key":
+	case "demo-study.key":
 		return "the demo's study key (keep such keys private, outside any deposit)"
 	}
 	return ""
