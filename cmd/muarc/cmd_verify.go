@@ -41,7 +41,7 @@ read.`,
 				if !strings.HasSuffix(dir, ".tar") {
 					return withExit(2, fmt.Errorf("%s: not a folder or a .tar; give the deposit made by muarc pack", dir))
 				}
-				bar := newProgress("verify", 2*st.Size())
+				bar := newProgress("verify", st.Size())
 				rep, err = archive.VerifyTar(dir, tmpDir, archive.VerifyOptions{Workers: workers, Progress: bar.Add})
 				bar.Finish()
 			} else {
