@@ -93,8 +93,8 @@ func (sp *blockSpec) parse(b *block) {
 		} else {
 			l, data = data[:nl], data[nl+1:]
 		}
-		t := trimBlank(l)
-		if len(t) != 0 && !isComment(t) {
+		t := trimLine(l, sp.d.Delimiter)
+		if bt := trimBlank(t); len(bt) != 0 && !isComment(bt) {
 			if sp.mode == modeCount {
 				if err := sp.countRow(b, t, line); err != nil {
 					b.err = err

@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 )
 
@@ -221,3 +222,83 @@ func FuzzLoadProfile(f *testing.F) {
 		}
 	})
 }
+
+// FuzzRowCells checks the row parser (its fast path and its general path)
+// against strconv.ParseFloat cell by cell, in float64 and float32, with
+// comma, semicolon + decimal comma and tab delimiters.
+func FuzzRowCells(f *testing.F) {
+	f.Add("-0.123456", "12.5", "7", byte(0))
+	f.Add("1,25", "-3,5", "", byte(1))
+	f.Add("1e-3", " 2.000000 ", "NaN", byte(2))
+	f.Add("9007199254740993", "0.000000000000000000001", "-0", byte(0))
+	f.Fuzz(func(t *testing.T, a, b, c string, kind byte) {
+		d, comma := byte(','), false
+		switch kind % 3 {
+		case 1:
+			d, comma = ';', true
+		case 2:
+			d = '\t'
+		}
+		cells := []string{a, b, c}
+		for _, x := range cells {
+			if strings.ContainsAny(x, ",;\t\n\r\"") && !(comma && strings.Count(x, ",") == 1 && !strings.ContainsAny(x, ";\t\n\r\"")) {
+				return
+			}
+		}
+		line := []byte(strings.Join(cells, string(d)))
+		for _, mode := range []blockMode{mode64, mode32} {
+			sp := &blockSpec{file: "f", d: Dialect{Delimiter: d, DecimalComma: comma}, cols: 3, tcol: -1, mode: mode, all32: true}
+			blk := &block{}
+			blk.reset()
+			err := sp.row(blk, trimLine(line, d), 1)
+			anyText := false
+			for _, x := range cells {
+				if _, k := parseNumber([]byte(trimCell(x)), comma); k == cellText {
+					anyText = true
+				}
+			}
+			if anyText != (err != nil) {
+				t.Fatalf("%q: text %v, error %v", line, anyText, err)
+			}
+			if err != nil {
+				return
+			}
+			for i, x := range cells {
+				if i == 0 {
+					x = strings.TrimLeft(x, " \t")
+				}
+				x = trimCell(x)
+				if comma {
+					x = strings.Replace(x, ",", ".", 1)
+				} else if strings.Contains(x, ",") {
+					return
+				}
+				_, kind := parseNumber([]byte(trimCell(cells[i])), comma)
+				want, perr := strconv.ParseFloat(x, 64)
+				if x == "" || kind == cellNaN {
+					want = math.NaN()
+				} else if perr != nil && perr.(*strconv.NumError).Err != strconv.ErrRange {
+					if _, ok := infValue([]byte(x)); !ok {
+						t.Fatalf("%q: strconv refuses %q", line, x)
+					}
+					continue
+				}
+				if mode == mode64 {
+					if g := blk.f64[i]; math.Float64bits(g) != math.Float64bits(want) && !(math.IsNaN(g) && math.IsNaN(want)) {
+						t.Fatalf("%q cell %d: %v, strconv %v", line, i, g, want)
+					}
+				} else {
+					w32, _ := strconv.ParseFloat(x, 32)
+					if math.IsNaN(want) {
+						w32 = want
+					}
+					if g := blk.f32[i]; math.Float32bits(g) != math.Float32bits(float32(w32)) && !(g != g && math.IsNaN(w32)) {
+						t.Fatalf("%q cell %d: %v, strconv %v", line, i, g, float32(w32))
+					}
+				}
+			}
+		}
+	})
+}
+
+func trimCell(x string) string { return strings.Trim(x, " \t\r") }

@@ -114,6 +114,22 @@ func trimBlank(b []byte) []byte {
 	return b[i:j]
 }
 
+// trimLine trims a table line: blanks and '\r' at both ends, but not tabs
+// when tab is the delimiter (an empty first or last cell is still a cell).
+func trimLine(b []byte, d byte) []byte {
+	if d != '\t' {
+		return trimBlank(b)
+	}
+	i, j := 0, len(b)
+	for i < j && b[i] == ' ' {
+		i++
+	}
+	for j > i && (b[j-1] == ' ' || b[j-1] == '\r') {
+		j--
+	}
+	return b[i:j]
+}
+
 // metaLine recognises "key: value" (key starts with a letter and holds none
 // of the delimiters ',', ';' or tab).
 func metaLine(l []byte) (key, value string, ok bool) {
@@ -388,8 +404,8 @@ func readRows(lay *layout) ([]textRow, error) {
 		} else {
 			l, body = body[:nl], body[nl+1:]
 		}
-		t := trimBlank(l)
-		if len(t) > 0 && !isComment(t) {
+		t := trimLine(l, lay.dialect.Delimiter)
+		if len(trimBlank(t)) > 0 && !isComment(trimBlank(t)) {
 			rows = append(rows, textRow{line, splitFields(t, lay.dialect.Delimiter)})
 		}
 		line++
