@@ -33,7 +33,8 @@ type blockSpec struct {
 	cols  int // fields per row
 	tcol  int // time column index or -1
 	mode  blockMode
-	all32 bool // check every cell for float32 (forced float32: largest error wanted)
+	all32 bool   // check every cell for float32 (forced float32: largest error wanted)
+	skip  []bool // columns read and checked but not kept (nil: keep all)
 }
 
 // block is one run of whole lines and what parsing it gave.
@@ -168,7 +169,7 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 			// The fast path takes cells of at most 6 significant digits
 			// (they fit float32: FLT_DIG = 6, ISO/IEC 9899 5.2.4.2.2) and,
 			// for float64 and the time column, up to 15 (DBL_DIG = 15).
-			if ok && frac <= 22 && (m < 1000000 && (m == 0 || frac <= 37) || (col == sp.tcol || sp.mode == mode64) && m < 1000000000000000) {
+			if ok && frac <= 22 && (sp.skip == nil || !sp.skip[col]) && (m < 1000000 && (m == 0 || frac <= 37) || (col == sp.tcol || sp.mode == mode64) && m < 1000000000000000) {
 				if col == sp.tcol || sp.mode == mode64 {
 					v := float64(m) / pow10[frac]
 					if neg {
@@ -257,7 +258,9 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 			n.v = math.NaN()
 			b.nan++
 		}
-		if col == sp.tcol {
+		if sp.skip != nil && sp.skip[col] {
+			// Checked, not kept.
+		} else if col == sp.tcol {
 			b.times = append(b.times, n.v)
 			b.rowLines = append(b.rowLines, int32(line-b.line))
 			b.timeDec = max(b.timeDec, n.decimals)

@@ -179,6 +179,7 @@ func Read(in Inputs) (*Plan, error) {
 		files = append(files, it)
 		o := sopt
 		o.Unit = prof.EMG.Unit
+		o.Skip, o.Rename = prof.EMG.Skip, prof.EMG.Columns
 		if err := pl.emg(it, o, prof); err != nil {
 			pl.Close()
 			return nil, err

@@ -69,8 +69,12 @@ type ProfileForce struct {
 // ProfileEMG gives the EMG unit and channel positions.
 type ProfileEMG struct {
 	Unit string `yaml:"unit" json:"unit"`
-	// Channels maps a column label to its grid position and state.
+	// Channels maps a channel label to its grid position and state.
 	Channels map[string]ChannelPlace `yaml:"channels" json:"channels"`
+	// Columns maps EMG column labels to the channel labels to store.
+	Columns map[string]string `yaml:"columns" json:"columns"`
+	// Skip lists EMG columns that are not channels (trigger, auxiliary).
+	Skip []string `yaml:"skip" json:"skip"`
 }
 
 // ChannelPlace is a channel's grid position (0-based), electrode centre in

@@ -23,7 +23,7 @@ func TestProfileMapsFilesChannelsAndColumns(t *testing.T) {
 	}
 	write("session.yaml", "study: {id: ST}\nsubject: {id: P07}\nsession: {date: 2026-03-14}\ntrials:\n  - name: level30\n    target_pct_mvc: 30\n")
 	write("level30/Kraft.txt", "Zeit [ms];Kraft [N]\n0;1,5\n1;1,75\n2;2\n3;2,25\n")
-	write("level30/vastus.txt", "Zeit [ms];E01 [uV];E02 [uV];E03 [uV]\n0;1,5;2;3\n1;1;2;3\n2;1;2;3\n3;1;2;3\n")
+	write("level30/vastus.txt", "Zeit [ms];E01 [uV];E02 [uV];Trigger [V];E03 [uV]\n0;1,5;2;0;3\n1;1;2;5;3\n2;1;2;0;3\n3;1;2;0;3\n")
 	write("level30/vastus-auto-spikes.txt", "MU1;MU2\n1;2\n3;\n")
 	write("level30/vastus-auto-quality.txt", "MU;Qual;Rekrutierung [%MVC];Tiefe [mm]\n1;0,91;12,5;8\n2;0,85;20;11\n")
 	prof := filepath.Join(dir, "lab.yaml")
@@ -36,10 +36,12 @@ files:
   units: "{trial}/{array}-{decomposition}-quality.txt"
 signals: {delimiter: semicolon, decimal_comma: "yes"}
 emg:
+  skip: [Trigger]
+  columns: {E03: R2C1}
   channels:
     E01: {row: 0, column: 0}
     E02: {row: 0, column: 1}
-    E03: {row: 1, column: 0, usable: false}
+    R2C1: {row: 1, column: 0, usable: false}
 discharges: {shape: columns, time_base: ms}
 units:
   columns: {Qual: silhouette, Rekrutierung: recruit_pct_mvc}
@@ -70,8 +72,15 @@ units:
 	if tr.Name != "level30" || tr.TargetPctMVC != 30 || tr.Force.SamplingRateHz != 1000 || tr.Force.Values[1] != 1.75 || a.Name != "vastus" {
 		t.Fatalf("%+v", tr)
 	}
-	if c := a.Channels[2]; c.Row != 1 || c.Column != 0 || c.Usable || a.Channels[1].Column != 1 {
+	if c := a.Channels[2]; len(a.Channels) != 3 || c.Label != "R2C1" || c.Row != 1 || c.Column != 0 || c.Usable || a.Channels[1].Column != 1 {
 		t.Fatalf("%+v", a.Channels)
+	}
+	v := make([]float32, 12)
+	if err := a.Samples.ReadFloat32(0, v); err != nil {
+		t.Fatal(err)
+	}
+	if v[0] != 1.5 || v[3] != 1 || v[5] != 3 {
+		t.Fatalf("samples %v (trigger column must be left out)", v)
 	}
 	d := a.Decompositions[0]
 	if d.Name != "auto" || len(d.Units) != 2 || d.Units[0].Discharges[1] != 3 || d.Units[0].Silhouette != 0.91 || d.Units[1].RecruitPctMVC != 20 {

@@ -27,6 +27,11 @@ type SignalOptions struct {
 	DType record.SampleType
 	// Unit is the unit of columns whose header gives none ("" = unknown).
 	Unit string
+	// Skip lists column labels that are read and checked but not kept
+	// (a trigger or auxiliary column); the report names them.
+	Skip []string
+	// Rename maps column labels to the channel labels to store.
+	Rename map[string]string
 }
 
 // Gap is a run of missing samples found in a time column.
@@ -89,6 +94,7 @@ type Signals struct {
 	lay  *layout
 	cols int
 	tcol int
+	skip []bool
 
 	forced             record.SampleType
 	lossy32, lossy64   int64
@@ -206,11 +212,31 @@ func (s *Signals) columns(opt SignalOptions) error {
 		s.TimeUnit = unit
 		s.Notes = append(s.Notes, fmt.Sprintf("time column %q in %s (%s)", s.TimeLabel, unit, why))
 	}
+	for _, k := range opt.Skip {
+		found := false
+		for i, l := range labels {
+			if l == k && i != s.tcol {
+				if s.skip == nil {
+					s.skip = make([]bool, s.cols)
+				}
+				s.skip[i], found = true, true
+				s.Notes = append(s.Notes, fmt.Sprintf("column %q not imported (skipped as the profile says)", l))
+			}
+		}
+		if !found {
+			return perr(s.File, lay.headerLine, 0, "name a column of the header in emg.skip", "no column %q to skip", k)
+		}
+	}
 	for i := range labels {
-		if i == s.tcol {
+		if i == s.tcol || s.skip != nil && s.skip[i] {
 			continue
 		}
-		s.Labels = append(s.Labels, labels[i])
+		l := labels[i]
+		if r, ok := opt.Rename[l]; ok && r != "" {
+			s.Notes = append(s.Notes, fmt.Sprintf("column %q stored as channel %q", l, r))
+			l = r
+		}
+		s.Labels = append(s.Labels, l)
 		s.Units = append(s.Units, units[i])
 	}
 	if len(s.Labels) == 0 {
@@ -220,7 +246,7 @@ func (s *Signals) columns(opt SignalOptions) error {
 }
 
 func (s *Signals) spec(mode blockMode, all32 bool) *blockSpec {
-	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32}
+	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32, skip: s.skip}
 }
 
 // timeTrack follows a time column row by row: order, gaps and a running
