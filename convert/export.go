@@ -33,7 +33,7 @@ type ExportOptions struct {
 	Overwrite bool
 }
 
-// What can be exported.
+// ExportKinds lists what Export can write.
 var ExportKinds = []string{"signals", "discharges", "units", "metadata"}
 
 // Export writes the chosen parts of a muarc file as text and returns the
