@@ -10,6 +10,7 @@ import (
 	"os"
 	"sort"
 	"strings"
+	"sync"
 	"time"
 
 	"muarc/archive/bagit"
@@ -266,18 +267,25 @@ type cacheKey struct {
 // FileRecord per line, appended as each file finishes; a torn last line
 // (an interrupted write) is ignored.
 type fixityCache struct {
-	m map[cacheKey]FileRecord
-	w *os.File
+	mu sync.Mutex
+	m  map[cacheKey]FileRecord
+	w  *os.File
 }
 
 func newFixityCache() *fixityCache { return &fixityCache{m: map[cacheKey]FileRecord{}} }
 
 func (c *fixityCache) get(path string, size, mtime int64) (FileRecord, bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
 	f, ok := c.m[cacheKey{path, size, mtime}]
 	return f, ok
 }
 
-func (c *fixityCache) put(f FileRecord) { c.m[cacheKey{f.Path, f.Bytes, f.MtimeNs}] = f }
+func (c *fixityCache) put(f FileRecord) {
+	c.mu.Lock()
+	c.m[cacheKey{f.Path, f.Bytes, f.MtimeNs}] = f
+	c.mu.Unlock()
+}
 
 // load reads a cache file; a missing file is an empty cache.
 func (c *fixityCache) load(path string) error {
