@@ -797,3 +797,22 @@ for p in sys.argv[2:]:
 		t.Fatalf("h5py: %v\n%s", err, b)
 	}
 }
+
+// RFC 8493 section 2.1.3: a "%" in a payload path is written %25 in the
+// manifest; the deposit still verifies.
+func TestPackPercentInFileName(t *testing.T) {
+	src := t.TempDir()
+	b, err := os.ReadFile(filepath.Join(fixture(t), "clean", "s1_a.h5"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	os.WriteFile(filepath.Join(src, "s1 100%.h5"), b, 0o644)
+	out, _ := packTo(t, src, PackOptions{})
+	man, _ := os.ReadFile(filepath.Join(out, "manifest-sha256.txt"))
+	if !strings.Contains(string(man), "  data/recordings/s1 100%25.h5\n") {
+		t.Fatalf("manifest:\n%s", man)
+	}
+	if rep, err := VerifyDeposit(out, VerifyOptions{}); err != nil || !rep.OK() {
+		t.Fatalf("%v %v", err, rep.Findings)
+	}
+}
