@@ -6,7 +6,6 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
-	"runtime"
 	"strings"
 	"testing"
 )
@@ -18,7 +17,10 @@ func buildMuarc(t *testing.T) string {
 		t.Skip("builds the command; skipped under -short")
 	}
 	bin := filepath.Join(t.TempDir(), "muarc")
-	goTool := filepath.Join(runtime.GOROOT(), "bin", "go")
+	goTool, err := exec.LookPath("go")
+	if err != nil {
+		t.Fatalf("the go command is needed to build muarc: %v", err)
+	}
 	cmd := exec.Command(goTool, "build", "-o", bin, "muarc/cmd/muarc")
 	if b, err := cmd.CombinedOutput(); err != nil {
 		t.Fatalf("go build: %v\n%s", err, b)
