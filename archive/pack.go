@@ -377,6 +377,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 	p.decide(&fr)
 	if fr.Status != StatusOK {
 		p.cache.putSync(&p.mu, fr)
+		p.progress(fr.Bytes) // not copied, but done with
 		return fr, sum
 	}
 
@@ -388,6 +389,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 			}
 		} else {
 			p.count(false, 0)
+			p.progress(fr.Bytes)
 		}
 	case p.opt.Tar:
 		// Hashed while the tar is written.
