@@ -71,7 +71,9 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 	if err != nil {
 		return nil, err
 	}
-	rows, err := readRows(lay)
+	// A sample of rows decides the shape; a pulse-train matrix (one row per
+	// sample) is then streamed, other shapes are read whole.
+	rows, complete, err := headRows(lay, 5000)
 	if err != nil {
 		return nil, err
 	}
@@ -95,18 +97,23 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 	} else {
 		dc.ShapeWhy = "as given"
 	}
+	if dc.Shape != ShapeMatrix && !complete {
+		if rows, err = readRows(lay); err != nil {
+			return nil, err
+		}
+	}
 	// Gather (unit, time cell) pairs per unit in file order.
 	type cellAt struct {
 		text      []byte
 		line, col int
 	}
 	var ids []int64
-	cells := map[int64][]cellAt{}
+	unitCells := map[int64][]cellAt{}
 	addUnit := func(id int64, line, col int) error {
-		if _, dup := cells[id]; dup {
+		if _, dup := unitCells[id]; dup {
 			return perr(path, line, col, "each unit id may appear once; renumber or merge the units", "duplicate unit id %d", id)
 		}
-		cells[id] = []cellAt{}
+		unitCells[id] = []cellAt{}
 		ids = append(ids, id)
 		return nil
 	}
@@ -127,10 +134,10 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 			if err != nil {
 				return nil, perr(path, r.line, 1, "write the unit as a whole number (or a name ending in one, MU3)", "%v", err)
 			}
-			if _, ok := cells[id]; !ok {
+			if _, ok := unitCells[id]; !ok {
 				ids = append(ids, id)
 			}
-			cells[id] = append(cells[id], cellAt{r.cells[1], r.line, 2})
+			unitCells[id] = append(unitCells[id], cellAt{r.cells[1], r.line, 2})
 		}
 	case ShapeLines:
 		for _, r := range rows {
@@ -143,7 +150,7 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 			}
 			for c, t := range r.cells[1:] {
 				if len(t) > 0 {
-					cells[id] = append(cells[id], cellAt{t, r.line, c + 2})
+					unitCells[id] = append(unitCells[id], cellAt{t, r.line, c + 2})
 				}
 			}
 		}
@@ -169,11 +176,12 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 		if lay.header == nil {
 			dc.Notes = append(dc.Notes, fmt.Sprintf("no header: units numbered 1..%d by column (assumed)", n))
 		}
-		for ri, r := range rows {
-			if len(r.cells) > n {
-				return nil, perr(path, r.line, n+1, "every row needs as many fields as the first line", "row has %d fields, expected %d", len(r.cells), n)
+		ri := 0
+		take := func(line int, cells [][]byte) error {
+			if len(cells) > n {
+				return perr(path, line, n+1, "every row needs as many fields as the first line", "row has %d fields, expected %d", len(cells), n)
 			}
-			for c, t := range r.cells {
+			for c, t := range cells {
 				if len(t) == 0 {
 					continue
 				}
@@ -181,17 +189,31 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 					switch string(t) {
 					case "0":
 					case "1":
-						cells[ids[c]] = append(cells[ids[c]], cellAt{[]byte(strconv.Itoa(ri)), r.line, c + 1})
+						unitCells[ids[c]] = append(unitCells[ids[c]], cellAt{[]byte(strconv.Itoa(ri)), line, c + 1})
 					default:
-						return nil, perr(path, r.line, c+1, "a pulse-train matrix holds only 0 and 1", "cell %q", clip(t))
+						return perr(path, line, c+1, "a pulse-train matrix holds only 0 and 1", "cell %q", clip(t))
 					}
 					continue
 				}
-				cells[ids[c]] = append(cells[ids[c]], cellAt{t, r.line, c + 1})
+				unitCells[ids[c]] = append(unitCells[ids[c]], cellAt{t, line, c + 1})
+			}
+			ri++
+			return nil
+		}
+		if dc.Shape == ShapeMatrix {
+			if err := eachRow(lay, take); err != nil {
+				return nil, err
+			}
+		} else {
+			for _, r := range rows {
+				if err := take(r.line, r.cells); err != nil {
+					return nil, err
+				}
 			}
 		}
-		if dc.Shape == ShapeMatrix && len(rows) != g.Samples {
-			dc.Notes = append(dc.Notes, fmt.Sprintf("pulse-train matrix has %d rows, the EMG %d samples", len(rows), g.Samples))
+		rowCount := ri
+		if dc.Shape == ShapeMatrix && rowCount != g.Samples {
+			dc.Notes = append(dc.Notes, fmt.Sprintf("pulse-train matrix has %d rows, the EMG %d samples", rowCount, g.Samples))
 		}
 	default:
 		return nil, perr(path, 0, 0, "give --shape columns, long, lines or matrix", "unknown shape %q", dc.Shape)
@@ -202,7 +224,7 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 	maxV := math.Inf(-1)
 	minV := math.Inf(1)
 	for _, id := range ids {
-		for _, c := range cells[id] {
+		for _, c := range unitCells[id] {
 			n, k := parseNumber(c.text, lay.dialect.DecimalComma)
 			if k != cellNumber || math.IsInf(n.v, 0) {
 				return nil, perr(path, c.line, c.col, "write each time as a number", "text %q where a time belongs", clip(c.text))
@@ -262,7 +284,7 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 		u := UnitTrain{ID: id, Discharges: make([]int64, 0, len(vals[id]))}
 		sorted := true
 		for i, v := range vals[id] {
-			c := cells[id][i]
+			c := unitCells[id][i]
 			var x float64
 			switch dc.TimeBase {
 			case "s":

@@ -1,7 +1,9 @@
 package convert
 
 import (
+	"bufio"
 	"bytes"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -411,4 +413,67 @@ func readRows(lay *layout) ([]textRow, error) {
 		line++
 	}
 	return rows, nil
+}
+
+// eachRow streams the table rows of a file to fn without keeping them: the
+// cells alias a buffer that the next row reuses.
+func eachRow(lay *layout, fn func(line int, cells [][]byte) error) error {
+	f, err := os.Open(lay.file)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	if _, err := f.Seek(lay.bodyOffset, io.SeekStart); err != nil {
+		return err
+	}
+	r := bufio.NewReaderSize(f, 1<<20)
+	line := lay.bodyLine
+	var long []byte
+	for {
+		l, err := r.ReadSlice('\n')
+		if err == bufio.ErrBufferFull {
+			long = append(long, l...)
+			continue
+		}
+		if long != nil {
+			l = append(long, l...)
+			long = nil
+		}
+		if len(l) > 0 {
+			t := trimLine(bytes.TrimSuffix(l, []byte{'\n'}), lay.dialect.Delimiter)
+			if bt := trimBlank(t); len(bt) > 0 && !isComment(bt) {
+				if ferr := fn(line, splitFields(t, lay.dialect.Delimiter)); ferr != nil {
+					return ferr
+				}
+			}
+			line++
+		}
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+	}
+}
+
+// headRows reads up to n rows (copied); complete is false when there are
+// more.
+func headRows(lay *layout, n int) (rows []textRow, complete bool, err error) {
+	errStop := errors.New("stop")
+	err = eachRow(lay, func(line int, cells [][]byte) error {
+		if len(rows) == n {
+			return errStop
+		}
+		cp := make([][]byte, len(cells))
+		for i, c := range cells {
+			cp[i] = append([]byte(nil), c...)
+		}
+		rows = append(rows, textRow{line, cp})
+		return nil
+	})
+	if err == errStop {
+		return rows, false, nil
+	}
+	return rows, err == nil, err
 }
