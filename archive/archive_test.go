@@ -816,3 +816,35 @@ func TestPackPercentInFileName(t *testing.T) {
 		t.Fatalf("%v %v", err, rep.Findings)
 	}
 }
+
+// With SHA512 the bag has both payload manifests and both tag manifests;
+// coreutils sha512sum -c reads the SHA-512 ones (RFC 8493 section 2.4 asks
+// tools to support SHA-256 and SHA-512, from memory).
+func TestPackSHA512Manifests(t *testing.T) {
+	src := filepath.Join(fixture(t), "clean")
+	out, _ := packTo(t, src, PackOptions{SHA512: true})
+	rep, err := VerifyDeposit(out, VerifyOptions{})
+	if err != nil || !rep.OK() || len(rep.Manifests) != 4 {
+		t.Fatalf("%v %+v", err, rep)
+	}
+	tm, _ := os.ReadFile(filepath.Join(out, "tagmanifest-sha256.txt"))
+	if !strings.Contains(string(tm), "  manifest-sha512.txt\n") {
+		t.Fatalf("tag manifest lacks the SHA-512 manifest:\n%s", tm)
+	}
+	requireTool(t, "sha512sum")
+	for _, m := range []string{"manifest-sha512.txt", "tagmanifest-sha512.txt"} {
+		cmd := exec.Command("sha512sum", "--strict", "--quiet", "-c", m)
+		cmd.Dir = out
+		if b, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("sha512sum -c %s: %v\n%s", m, err, b)
+		}
+	}
+	// Tar mode writes the same set.
+	tarOut := filepath.Join(t.TempDir(), "b.tar")
+	if _, err := Pack(src, tarOut, PackOptions{Tar: true, SHA512: true, Licence: "CC0-1.0"}); err != nil {
+		t.Fatal(err)
+	}
+	if rep, err := VerifyTar(tarOut, "", VerifyOptions{}); err != nil || !rep.OK() || len(rep.Manifests) != 4 {
+		t.Fatalf("tar: %v %+v", err, rep)
+	}
+}

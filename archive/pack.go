@@ -65,6 +65,10 @@ type PackOptions struct {
 	// while they are written; there is no resume in tar mode.
 	Tar   bool
 	TarTo io.Writer
+	// SHA512 also writes manifest-sha512.txt and tagmanifest-sha512.txt
+	// (RFC 8493 section 2.4 asks tools to support SHA-512 and suggests it for
+	// new bags, from memory); every file is still read once.
+	SHA512 bool
 	// Overwrite replaces an existing output.
 	Overwrite bool
 	// Date is the Bagging-Date; zero means today (UTC).
@@ -362,7 +366,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 		fromKnown = fromKnown && facts.Status != StatusError
 	}
 	if fromCache || fromKnown {
-		fr.SHA256, fr.ValidationErrors, fr.Identifying, fr.Message = facts.SHA256, facts.ValidationErrors, facts.Identifying, facts.Message
+		fr.SHA256, fr.SHA512, fr.ValidationErrors, fr.Identifying, fr.Message = facts.SHA256, facts.SHA512, facts.ValidationErrors, facts.Identifying, facts.Message
 	} else {
 		n, first, ident, err := checkRecording(path)
 		if err != nil {
@@ -383,7 +387,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 
 	switch {
 	case p.shardMode():
-		if fr.SHA256 == "" {
+		if !p.hasAll(fr) {
 			if err := p.hashInPlace(&fr, path); err != nil {
 				return fr, sum
 			}
@@ -393,10 +397,10 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 		}
 	case p.opt.Tar:
 		// Hashed while the tar is written.
-	case fromCache && fr.SHA256 != "" && sizeIs(p.dest(rel), fr.Bytes):
+	case fromCache && p.hasAll(fr) && sizeIs(p.dest(rel), fr.Bytes):
 		p.count(false, 0)
 		p.progress(fr.Bytes)
-	case fromKnown && fr.SHA256 != "":
+	case fromKnown && p.hasAll(fr):
 		if err := p.copyFile(&fr, path, false); err != nil {
 			return fr, sum
 		}
@@ -459,15 +463,16 @@ func (p *packer) hashInPlace(fr *FileRecord, path string) error {
 		return err
 	}
 	defer f.Close()
-	sum, n, err := bagit.HashReader(progressReader{f, p.progress}, bagitSHA256(), make([]byte, bagit.BufferSize))
+	mh := newMultiHash(p.algs())
+	n, err := io.CopyBuffer(mh, progressReader{f, p.progress}, make([]byte, bagit.BufferSize))
 	if err == nil {
 		err = unchanged(path, fr, n)
 	}
 	if err != nil {
-		fr.Status, fr.Message, fr.SHA256 = StatusError, err.Error(), ""
+		fr.Status, fr.Message, fr.SHA256, fr.SHA512 = StatusError, err.Error(), "", ""
 		return err
 	}
-	fr.SHA256 = sum
+	mh.set(fr)
 	p.count(true, n)
 	return nil
 }
@@ -502,7 +507,7 @@ func (p *packer) copyFile(fr *FileRecord, path string, hash bool) error {
 	fail := func(err error) error {
 		fr.Status, fr.Message = StatusError, err.Error()
 		if hash {
-			fr.SHA256 = ""
+			fr.SHA256, fr.SHA512 = "", ""
 		}
 		return err
 	}
@@ -520,7 +525,7 @@ func (p *packer) copyFile(fr *FileRecord, path string, hash bool) error {
 	if err != nil {
 		return fail(err)
 	}
-	h := bagitSHA256()
+	h := newMultiHash(p.algs())
 	buf := make([]byte, bagit.BufferSize)
 	var n int64
 	for {
@@ -561,7 +566,7 @@ func (p *packer) copyFile(fr *FileRecord, path string, hash bool) error {
 		return fail(err)
 	}
 	if hash {
-		fr.SHA256 = hexSum(h)
+		h.set(fr)
 	}
 	return nil
 }
@@ -778,7 +783,7 @@ func humanBytes(n int64) string {
 // folder, drops leftovers of earlier runs, and renames it into place.
 func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 	keep := map[string]bool{}
-	var entries []bagit.Entry
+	entries := map[string][]bagit.Entry{}
 	var octets, count int64
 	for _, f := range files {
 		if f.Status != StatusOK {
@@ -786,7 +791,9 @@ func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 		}
 		rp := path.Join(bagit.PayloadDir, RecordingsDir, f.Path)
 		keep[rp] = true
-		entries = append(entries, bagit.Entry{Path: rp, Sum: f.SHA256})
+		for _, alg := range p.algs() {
+			entries[alg] = append(entries[alg], bagit.Entry{Path: rp, Sum: f.sum(alg)})
+		}
 		octets += f.Bytes
 		count++
 	}
@@ -795,7 +802,9 @@ func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 			return err
 		}
 		keep[d.path] = true
-		entries = append(entries, bagit.Entry{Path: d.path, Sum: sumBytes(d.data)})
+		for _, alg := range p.algs() {
+			entries[alg] = append(entries[alg], bagit.Entry{Path: d.path, Sum: sumOf(alg, d.data)})
+		}
 		octets += int64(len(d.data))
 		count++
 	}
@@ -818,22 +827,10 @@ func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 	removeEmptyDirs(payload)
 	p.res.PayloadFiles, p.res.PayloadBytes = count, octets
 
-	manifest := bagit.FormatManifest(entries)
-	info := p.info(octets, count)
-	tags := []doc{
-		{bagit.DeclarationFile, []byte(bagit.Declaration)},
-		{bagit.InfoFile, info},
-		{bagit.ManifestName("sha256"), manifest},
-	}
-	var tagEntries []bagit.Entry
-	for _, t := range tags {
+	for _, t := range p.tagFiles(entries, p.info(octets, count)) {
 		if err := writeSynced(filepath.Join(p.staging, t.path), t.data); err != nil {
 			return err
 		}
-		tagEntries = append(tagEntries, bagit.Entry{Path: t.path, Sum: sumBytes(t.data)})
-	}
-	if err := writeSynced(filepath.Join(p.staging, bagit.TagManifestName("sha256")), bagit.FormatManifest(tagEntries)); err != nil {
-		return err
 	}
 	if err := p.cache.close(); err != nil {
 		return err
@@ -952,7 +949,7 @@ func (p *packer) writeTar(files []FileRecord, makeDocs func() ([]doc, error)) er
 		if err := put(bagit.DeclarationFile, []byte(bagit.Declaration)); err != nil {
 			return err
 		}
-		var entries []bagit.Entry
+		entries := map[string][]bagit.Entry{}
 		var octets, count int64
 		buf := make([]byte, bagit.BufferSize)
 		for i := range files {
@@ -972,7 +969,7 @@ func (p *packer) writeTar(files []FileRecord, makeDocs func() ([]doc, error)) er
 				in.Close()
 				return err
 			}
-			h := bagitSHA256()
+			h := newMultiHash(p.algs())
 			n, err := io.CopyBuffer(io.MultiWriter(tw, h), progressReader{io.LimitReader(in, fr.Bytes), p.progress}, buf)
 			in.Close()
 			if err == nil {
@@ -981,9 +978,11 @@ func (p *packer) writeTar(files []FileRecord, makeDocs func() ([]doc, error)) er
 			if err != nil {
 				return fmt.Errorf("%s: %w", fr.Path, err)
 			}
-			fr.SHA256 = hexSum(h)
+			h.set(fr)
 			p.count(true, n)
-			entries = append(entries, bagit.Entry{Path: rel, Sum: fr.SHA256})
+			for _, alg := range p.algs() {
+				entries[alg] = append(entries[alg], bagit.Entry{Path: rel, Sum: fr.sum(alg)})
+			}
 			octets += n
 			count++
 		}
@@ -995,20 +994,17 @@ func (p *packer) writeTar(files []FileRecord, makeDocs func() ([]doc, error)) er
 			if err := put(d.path, d.data); err != nil {
 				return err
 			}
-			entries = append(entries, bagit.Entry{Path: d.path, Sum: sumBytes(d.data)})
+			for _, alg := range p.algs() {
+				entries[alg] = append(entries[alg], bagit.Entry{Path: d.path, Sum: sumOf(alg, d.data)})
+			}
 			octets += int64(len(d.data))
 			count++
 		}
 		p.res.PayloadFiles, p.res.PayloadBytes = count, octets
-		manifest := bagit.FormatManifest(entries)
-		info := p.info(octets, count)
-		tagEntries := []bagit.Entry{
-			{Path: bagit.DeclarationFile, Sum: sumBytes([]byte(bagit.Declaration))},
-			{Path: bagit.InfoFile, Sum: sumBytes(info)},
-			{Path: bagit.ManifestName("sha256"), Sum: sumBytes(manifest)},
-		}
-		for _, t := range []doc{{bagit.ManifestName("sha256"), manifest}, {bagit.InfoFile, info},
-			{bagit.TagManifestName("sha256"), bagit.FormatManifest(tagEntries)}} {
+		for _, t := range p.tagFiles(entries, p.info(octets, count)) {
+			if t.path == bagit.DeclarationFile {
+				continue // written first
+			}
 			if err := put(t.path, t.data); err != nil {
 				return err
 			}
@@ -1040,4 +1036,36 @@ func (r *PackResult) ReportShard() batch.Shard {
 		}
 	}
 	return batch.All
+}
+
+// algs are the manifest algorithms of this run.
+func (p *packer) algs() []string {
+	if p.opt.SHA512 {
+		return []string{"sha256", "sha512"}
+	}
+	return []string{"sha256"}
+}
+
+// hasAll reports whether fr carries a sum for every algorithm of the run.
+func (p *packer) hasAll(fr FileRecord) bool {
+	return fr.SHA256 != "" && (!p.opt.SHA512 || fr.SHA512 != "")
+}
+
+// tagFiles makes the tag files: bagit.txt, bag-info.txt, one payload
+// manifest per algorithm, then one tag manifest per algorithm listing all of
+// those (RFC 8493 section 2.2.1).
+func (p *packer) tagFiles(entries map[string][]bagit.Entry, info []byte) []doc {
+	tags := []doc{{bagit.DeclarationFile, []byte(bagit.Declaration)}, {bagit.InfoFile, info}}
+	for _, alg := range p.algs() {
+		tags = append(tags, doc{bagit.ManifestName(alg), bagit.FormatManifest(entries[alg])})
+	}
+	out := tags
+	for _, alg := range p.algs() {
+		var es []bagit.Entry
+		for _, t := range tags {
+			es = append(es, bagit.Entry{Path: t.path, Sum: sumOf(alg, t.data)})
+		}
+		out = append(out, doc{bagit.TagManifestName(alg), bagit.FormatManifest(es)})
+	}
+	return out
 }

@@ -41,8 +41,10 @@ type FileRecord struct {
 	// the file's size and time when it was hashed: the cache key with Path.
 	Bytes   int64 `json:"bytes"`
 	MtimeNs int64 `json:"mtime_ns"`
-	// SHA256 is the lower-case hex SHA-256 of the file's bytes.
+	// SHA256 is the lower-case hex SHA-256 of the file's bytes; SHA512 its
+	// SHA-512 when the run asked for it (pack --sha512).
 	SHA256 string `json:"sha256,omitempty"`
+	SHA512 string `json:"sha512,omitempty"`
 	Status string `json:"status"`
 	// ValidationErrors counts error findings of validate.File;
 	// Identifying lists identifying fields still set (deid).

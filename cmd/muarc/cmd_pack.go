@@ -17,6 +17,7 @@ func init() {
 		out, licence, shard               string
 		known                             []string
 		tarOut, allowIdent, asJSON, overw bool
+		sha512                            bool
 		workers                           int
 	)
 	cmd := &cobra.Command{
@@ -28,7 +29,8 @@ bag (RFC 8493) with the recordings in data/recordings/, the study tables
 field (data/data-dictionary.md and .tsv), the layout document (data/layout.md) and
 a README with a citation block and the licence; manifest-sha256.txt,
 bag-info.txt (Bagging-Date, Payload-Oxum, Contact-*, External-Description from
-the study metadata) and tagmanifest-sha256.txt.
+the study metadata) and tagmanifest-sha256.txt; --sha512 adds SHA-512
+manifests beside them (each file is still read once).
 
 Each recording must validate without errors and carry no identifying fields
 (run muarc deidentify first); otherwise nothing is written and the refused files
@@ -64,7 +66,7 @@ and modification time match.`,
 				return withExit(2, fmt.Errorf("--shard writes a shard report, not a bag; leave out --tar"))
 			}
 			opt := archive.PackOptions{Licence: licence, AllowIdentified: allowIdent, Workers: workers,
-				Shard: sh, Tar: tarOut, Overwrite: overw}
+				Shard: sh, Tar: tarOut, Overwrite: overw, SHA512: sha512}
 			for _, k := range known {
 				r, err := archive.ReadShardReport(k)
 				if err != nil {
@@ -128,6 +130,7 @@ and modification time match.`,
 	f.IntVar(&workers, "workers", 0, "files checked and hashed at once (0: one per CPU)")
 	f.StringVar(&shard, "shard", "", "check and hash only shard i/n (e.g. 3/8) and write a shard report")
 	f.StringArrayVar(&known, "known", nil, "merged shard report whose hashes and checks to reuse (repeatable)")
+	f.BoolVar(&sha512, "sha512", false, "also write SHA-512 manifests (manifest-sha512.txt, tagmanifest-sha512.txt)")
 	f.BoolVar(&overw, "overwrite", false, "replace an existing output")
 	f.BoolVar(&asJSON, "json", false, "print the result as JSON")
 	rootCmd.AddCommand(cmd)
