@@ -275,7 +275,7 @@ func (tt *timeTrack) add(t float64, line int) error {
 	}
 	d := t - tt.prev
 	if !(d > 0) {
-		return perr(tt.file, line, tt.col+1, "rows must be in time order with no repeats; sort the file or remove the repeated rows", "time goes backwards or repeats (%g after %g)", t, tt.prev)
+		return perr(tt.file, line, tt.col+1, "rows must be in time order with no repeats; if the time column is rounded coarser than the sampling step, read without it (--time-column none --rate R)", "time goes backwards or repeats (%g after %g)", t, tt.prev)
 	}
 	if tt.nominal == 0 {
 		tt.nominal = d
