@@ -2,6 +2,7 @@ package convert
 
 import (
 	"bufio"
+	"bytes"
 	"math/rand"
 	"os"
 	"path/filepath"
@@ -101,6 +102,35 @@ func BenchmarkScan64x2048x60(b *testing.B) {
 	for i := 0; i < b.N; i++ {
 		if _, err := ScanSignals(p, SignalOptions{}); err != nil {
 			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkParseBlock parses 1 MiB of 64-column rows with six decimals on
+// one goroutine (the second pass's per-block work).
+func BenchmarkParseBlock(b *testing.B) {
+	rng := rand.New(rand.NewSource(1))
+	var buf bytes.Buffer
+	for buf.Len() < 1<<20 {
+		var l []byte
+		l = strconv.AppendFloat(l, float64(buf.Len())/1e6, 'f', 6, 64)
+		for c := 0; c < 64; c++ {
+			l = append(l, ',')
+			l = strconv.AppendFloat(l, rng.NormFloat64()*0.2, 'f', 6, 64)
+		}
+		buf.Write(append(l, '\n'))
+	}
+	data := buf.Bytes()
+	sp := &blockSpec{file: "b", d: Dialect{Delimiter: ','}, cols: 65, tcol: 0, mode: mode32}
+	blk := &block{}
+	b.SetBytes(int64(len(data)))
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		blk.reset()
+		blk.data, blk.line = data, 1
+		sp.parse(blk)
+		if blk.err != nil {
+			b.Fatal(blk.err)
 		}
 	}
 }
