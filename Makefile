@@ -49,6 +49,10 @@ bench: deps
 	mkdir -p bench-out
 	$(GO) test -run XXX -bench . -benchtime 3x -benchmem ./recfile ./h5 | tee bench-out/recfile.txt
 	$(GO) test -run XXX -bench . -benchtime 3x ./synth | tee bench-out/synth.txt
+	$(GO) test -run XXX -bench 'StatsMUAPs64ch60s30units|ReadSamples64ch60s|TemplatesInMemory' -benchtime 3x ./analysis | tee bench-out/analysis.txt
+	$(GO) test -run XXX -bench . ./validate | tee bench-out/validate.txt
+	$(GO) test -run XXX -bench . ./deid | tee bench-out/deid.txt
+	$(GO) test -run XXX -bench PackHashing -benchtime 1x ./archive | tee bench-out/archive.txt
 	bash scripts/bench-peak-rss.sh | tee bench-out/peak-rss.txt
 
 # fuzz runs each fuzz target for FUZZTIME (default 30s).
