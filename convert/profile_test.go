@@ -2,6 +2,7 @@ package convert
 
 import (
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -92,6 +93,18 @@ units:
 	names := ""
 	for _, s := range r.Provenance.Sources {
 		names += s.Role + ":" + s.Name + " "
+		// SHA-256 (FIPS 180-4) as coreutils' sha256sum computes it.
+		if s.Role == "emg" {
+			out, err := exec.Command("sha256sum", filepath.Join(rec, s.Name)).Output()
+			if err != nil {
+				if os.Getenv("CI") != "" {
+					t.Fatalf("sha256sum: %v", err)
+				}
+				t.Logf("no sha256sum: %v", err)
+			} else if st, _ := os.Stat(filepath.Join(rec, s.Name)); strings.Fields(string(out))[0] != s.SHA256 || st.Size() != s.Bytes {
+				t.Fatalf("source %s: sha %s bytes %d, sha256sum %s", s.Name, s.SHA256, s.Bytes, out)
+			}
+		}
 	}
 	if !strings.Contains(names, "emg:level30/vastus.txt") || !strings.Contains(names, "profile:lab.yaml") || len(r.Provenance.Sources[0].SHA256) != 64 {
 		t.Fatalf("%s", names)
