@@ -112,11 +112,6 @@ func (w *MatrixWriter) WriteBand64(data []float64) error {
 	return w.writeBand(b)
 }
 
-type encoded struct {
-	col  int
-	data []byte
-}
-
 func (w *MatrixWriter) writeBand(band []byte) error {
 	rowBytes := w.cols * w.elem
 	if len(band)%rowBytes != 0 {
@@ -132,8 +127,18 @@ func (w *MatrixWriter) writeBand(band []byte) error {
 	if w.rows%w.chunkRows != 0 {
 		return fmt.Errorf("%s: %s: a short band was already written; only the last band may be short", w.ds.file, w.ds.path)
 	}
+	lockLib()
+	dims := [2]C.hsize_t{C.hsize_t(w.rows + n), C.hsize_t(w.cols)}
+	if C.muarc_dset_extend(w.ds.id, 2, &dims[0]) < 0 {
+		err := fail(w.ds.file, w.ds.path, "extend")
+		unlockLib()
+		return err
+	}
+	unlockLib()
+	// Each worker compresses a chunk into its own buffer and writes it
+	// under the library lock while the others go on compressing, so no
+	// band of compressed chunks is ever held.
 	nchunks := (w.cols + w.chunkCols - 1) / w.chunkCols
-	out := make([]encoded, nchunks)
 	errs := make([]error, nchunks)
 	var wg sync.WaitGroup
 	next := make(chan int, nchunks)
@@ -146,10 +151,11 @@ func (w *MatrixWriter) writeBand(band []byte) error {
 		go func(s *chunkScratch) {
 			defer wg.Done()
 			for c := range next {
-				out[c].col = c * w.chunkCols
-				out[c].data, errs[c] = w.encode(s, band, n, c)
-				// encode reuses s.comp, so copy out before the next chunk.
-				out[c].data = append([]byte(nil), out[c].data...)
+				data, err := w.encode(s, band, n, c)
+				if err == nil {
+					err = w.writeChunk(w.rows, c*w.chunkCols, data)
+				}
+				errs[c] = err
 			}
 		}(&w.scratch[k])
 	}
@@ -159,20 +165,18 @@ func (w *MatrixWriter) writeBand(band []byte) error {
 			return err
 		}
 	}
-	lockLib()
-	defer unlockLib()
-	dims := [2]C.hsize_t{C.hsize_t(w.rows + n), C.hsize_t(w.cols)}
-	if C.muarc_dset_extend(w.ds.id, 2, &dims[0]) < 0 {
-		return fail(w.ds.file, w.ds.path, "extend")
-	}
-	for _, e := range out {
-		off := [2]C.hsize_t{C.hsize_t(w.rows), C.hsize_t(e.col)}
-		if C.muarc_chunk_write(w.ds.id, &off[0], C.size_t(len(e.data)), unsafe.Pointer(&e.data[0])) < 0 {
-			return fail(w.ds.file, w.ds.path, fmt.Sprintf("write chunk at row %d column %d", w.rows, e.col))
-		}
-	}
 	w.rows += n
 	w.ds.Shape[0] = w.rows
+	return nil
+}
+
+func (w *MatrixWriter) writeChunk(row, col int, data []byte) error {
+	lockLib()
+	defer unlockLib()
+	off := [2]C.hsize_t{C.hsize_t(row), C.hsize_t(col)}
+	if C.muarc_chunk_write(w.ds.id, &off[0], C.size_t(len(data)), unsafe.Pointer(&data[0])) < 0 {
+		return fail(w.ds.file, w.ds.path, fmt.Sprintf("write chunk at row %d column %d", row, col))
+	}
 	return nil
 }
 
