@@ -172,35 +172,26 @@ func checkExtra(where string, x record.Extra, reserved []string) error {
 }
 
 // attrs collects attributes to write; absent values (NaN, "") are skipped.
-type attrs []struct {
+type attrs []attrKV
+
+type attrKV struct {
 	k string
 	v any
 }
 
 func (a *attrs) str(k, v string) {
 	if v != "" {
-		*a = append(*a, struct {
-			k string
-			v any
-		}{k, v})
+		a.any(k, v)
 	}
 }
 
 func (a *attrs) num(k string, v float64) {
 	if !math.IsNaN(v) {
-		*a = append(*a, struct {
-			k string
-			v any
-		}{k, v})
+		a.any(k, v)
 	}
 }
 
-func (a *attrs) any(k string, v any) {
-	*a = append(*a, struct {
-		k string
-		v any
-	}{k, v})
-}
+func (a *attrs) any(k string, v any) { *a = append(*a, attrKV{k, v}) }
 
 func (a attrs) write(g interface{ SetAttr(string, any) error }, extra record.Extra) error {
 	for _, kv := range a {
