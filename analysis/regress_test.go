@@ -3,7 +3,7 @@ package analysis
 import (
 	"encoding/json"
 	"math"
-	"os"
+	"muarc/internal/reftest"
 	"os/exec"
 	"strings"
 	"testing"
@@ -15,17 +15,7 @@ const referencePython = "/usr/bin/python3"
 
 // needPython returns the interpreter, skipping the test when it or the
 // module is missing, or failing it under CI.
-func needPython(t *testing.T, module string) string {
-	t.Helper()
-	err := exec.Command(referencePython, "-c", "import "+module).Run()
-	if err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("%s with %s is required under CI (Debian python3-numpy, python3-scipy): %v", referencePython, module, err)
-		}
-		t.Skipf("%s with %s not available: %v", referencePython, module, err)
-	}
-	return referencePython
-}
+func needPython(t *testing.T, module string) string { return reftest.NeedPython(t, module) }
 
 // TestLinearFitAgainstSciPy checks slope, intercept and R^2 against
 // scipy.stats.linregress (rvalue squared) and numpy.polyfit(deg=1), a

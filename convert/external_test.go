@@ -3,6 +3,7 @@ package convert
 import (
 	"fmt"
 	"math/rand"
+	"muarc/internal/reftest"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -14,17 +15,7 @@ import (
 
 // needPython returns Debian's python3 when it has numpy and h5py; without
 // them the test fails under CI and is skipped otherwise.
-func needPython(t *testing.T) string {
-	t.Helper()
-	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import numpy, h5py").Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("%s with numpy and h5py is needed (Debian python3-numpy, python3-h5py): %v", py, err)
-		}
-		t.Skipf("no %s with numpy and h5py: %v", py, err)
-	}
-	return py
-}
+func needPython(t *testing.T) string { return reftest.NeedPython(t, "numpy", "h5py") }
 
 // TestImportAgainstNumpyAndH5py reads the same text with numpy (loadtxt, and
 // rint(t * rate) for discharge times) and the imported file with h5py; the

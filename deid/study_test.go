@@ -2,6 +2,7 @@ package deid
 
 import (
 	"encoding/json"
+	"muarc/internal/reftest"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -19,17 +20,7 @@ import (
 
 // needPython returns /usr/bin/python3 when h5py imports there. Without it
 // the test skips, or fails when CI is set.
-func needPython(t *testing.T) string {
-	t.Helper()
-	const py = "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import h5py, numpy").Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("h5py (Debian python3-h5py) is needed under CI: %v", err)
-		}
-		t.Skip("h5py not available:", err)
-	}
-	return py
-}
+func needPython(t *testing.T) string { return reftest.NeedPython(t, "h5py", "numpy") }
 
 var (
 	genOnce sync.Once

@@ -3,7 +3,7 @@ package schema
 import (
 	"bytes"
 	"encoding/json"
-	"os"
+	"muarc/internal/reftest"
 	"os/exec"
 	"strings"
 	"testing"
@@ -17,17 +17,7 @@ const python3 = "/usr/bin/python3"
 
 // needJSONSchemaPy skips (or, under CI, fails) when /usr/bin/python3 lacks
 // the jsonschema module (Debian python3-jsonschema).
-func needJSONSchemaPy(t *testing.T) {
-	t.Helper()
-	err := exec.Command(python3, "-c", "import jsonschema").Run()
-	if err == nil {
-		return
-	}
-	if os.Getenv("CI") != "" {
-		t.Fatalf("python3-jsonschema is required under CI (%s -c 'import jsonschema': %v); install it with `make deps`", python3, err)
-	}
-	t.Skipf("python3-jsonschema not available (%v); install it with `make deps`", err)
-}
+func needJSONSchemaPy(t *testing.T) { reftest.NeedPython(t, "jsonschema") }
 
 // TestSchemaIsDraft07 checks the schema against the draft-07 meta-schema as
 // shipped in Debian's python3-jsonschema (Draft7Validator.check_schema).

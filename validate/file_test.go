@@ -5,13 +5,13 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"muarc/internal/reftest"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
-	"sync"
 	"testing"
 
 	"muarc/recfile"
@@ -22,22 +22,8 @@ import (
 // python3 first on PATH lacks the system packages).
 const python3 = "/usr/bin/python3"
 
-var (
-	h5pyOnce sync.Once
-	h5pyErr  error
-)
-
 // needH5py skips, or fails under CI, when h5py is missing.
-func needH5py(t testing.TB) {
-	t.Helper()
-	h5pyOnce.Do(func() { h5pyErr = exec.Command(python3, "-c", "import h5py").Run() })
-	if err := h5pyErr; err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("python3-h5py is required under CI (%s -c 'import h5py': %v); install it with `make deps`", python3, err)
-		}
-		t.Skipf("python3-h5py not available: %v", err)
-	}
-}
+func needH5py(t testing.TB) { reftest.NeedPython(t, "h5py") }
 
 // h5pyEdits runs Python snippets with h5py (Debian python3-h5py, a
 // general-purpose HDF5 tool outside muarc), each on its own file opened

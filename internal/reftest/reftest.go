@@ -9,6 +9,7 @@ import (
 	"os"
 	"os/exec"
 	"strings"
+	"sync"
 	"testing"
 )
 
@@ -16,12 +17,25 @@ import (
 // one without the Debian modules.
 const Python = "/usr/bin/python3"
 
+// pythonChecks caches the answer per module list: one interpreter start
+// per list and test binary, however many tests ask.
+var pythonChecks sync.Map // string -> string (empty when importable)
+
 // NeedPython returns Python after checking that it imports every module.
 func NeedPython(t testing.TB, modules ...string) string {
 	t.Helper()
 	code := "import " + strings.Join(append([]string{"sys"}, modules...), ", ")
-	if out, err := exec.Command(Python, "-c", code).CombinedOutput(); err != nil {
-		missing(t, "python3 modules "+strings.Join(modules, ", ")+" (Debian python3-<module>)", string(out))
+	res, ok := pythonChecks.Load(code)
+	if !ok {
+		out, err := exec.Command(Python, "-c", code).CombinedOutput()
+		msg := ""
+		if err != nil {
+			msg = err.Error() + ": " + string(out)
+		}
+		res, _ = pythonChecks.LoadOrStore(code, msg)
+	}
+	if msg := res.(string); msg != "" {
+		missing(t, "python3 modules "+strings.Join(modules, ", ")+" (Debian python3-<module>)", msg)
 	}
 	return Python
 }
