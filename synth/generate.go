@@ -474,8 +474,8 @@ func buildArray(cfg Config, s, li, ai int, plan *arrayPlan, disc [][]int64, forc
 		if cfg.DetectionErrors {
 			got, missed[ui], spur[ui] = detectionErrors(d, u.quality, fs, drng)
 		}
-		pnr[ui] = roundTo(max(25, min(40, 26+12*u.quality+0.7*clampN(drng, 2))), 2)
-		sil[ui] = roundTo(max(0.85, min(0.98, 0.86+0.11*u.quality+0.01*clampN(drng, 2))), 4)
+		pnr[ui] = roundTo(max(25, min(40, 28+12*u.quality+0.7*clampN(drng, 2))), 2)
+		sil[ui] = roundTo(max(0.85, min(0.98, 0.88+0.10*u.quality+0.01*clampN(drng, 2))), 4)
 		unit := figures(autoID[ui], got, d, force, fs, mvc, pl0, pl1)
 		unit.Silhouette, unit.PNRdB = sil[ui], pnr[ui]
 		auto.Units = append(auto.Units, unit)
