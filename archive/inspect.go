@@ -61,7 +61,7 @@ func validateFile(path string) (int, []string, error) {
 }
 
 func validateWith(path string, opt validate.Options) (int, []string, error) {
-	rep := validate.File(path, opt)
+	rep := validate.Validator(path, opt)
 	if rep.ReadError != "" {
 		return 1, []string{rep.ReadError}, nil
 	}

@@ -149,11 +149,9 @@ type ChunkFault struct {
 // Fletcher-32 filter, raw (without decoding), and checks its checksum. It
 // calls fn for each faulty chunk and returns the number of chunks checked.
 // Reading raw chunks also finds faults in chunks a partial read would skip.
+// It reads no attributes and no string data, so damage to the unchecksummed
+// global heap (where variable-length strings live) cannot stop it.
 func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
-	objs, err := Describe(name)
-	if err != nil {
-		return 0, err
-	}
 	f, err := Open(name)
 	if err != nil {
 		return 0, err
@@ -165,23 +163,53 @@ func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
 	}
 	defer root.Close()
 	checked := 0
-	for _, o := range objs {
-		if !o.IsDataset || !hasFilter(o.Filters, "fletcher32") {
-			continue
-		}
-		d, err := openPath(root, o.Path)
+	err = walkDatasets(root, func(d *Dataset) {
+		_, filters, err := d.Layout()
 		if err != nil {
-			fn(ChunkFault{Dataset: o.Path, Err: err})
-			continue
+			fn(ChunkFault{Dataset: d.path, Err: err})
+			return
+		}
+		if !hasFilter(filters, "fletcher32") {
+			return
 		}
 		n, err := d.verify(fn)
 		checked += n
-		d.Close()
 		if err != nil {
-			fn(ChunkFault{Dataset: o.Path, Err: err})
+			fn(ChunkFault{Dataset: d.path, Err: err})
+		}
+	})
+	return checked, err
+}
+
+// walkDatasets calls fn for every dataset below g, depth first, members in
+// creation order; fn must not keep d.
+func walkDatasets(g *Group, fn func(d *Dataset)) error {
+	kids, err := g.Children()
+	if err != nil {
+		return err
+	}
+	for _, k := range kids {
+		switch k.Kind {
+		case KindGroup:
+			sub, err := g.OpenGroup(k.Name)
+			if err != nil {
+				return err
+			}
+			err = walkDatasets(sub, fn)
+			sub.Close()
+			if err != nil {
+				return err
+			}
+		case KindDataset:
+			d, err := g.OpenDataset(k.Name, 0)
+			if err != nil {
+				return err
+			}
+			fn(d)
+			d.Close()
 		}
 	}
-	return checked, nil
+	return nil
 }
 
 func hasFilter(fs []string, name string) bool {
@@ -191,11 +219,6 @@ func hasFilter(fs []string, name string) bool {
 		}
 	}
 	return false
-}
-
-// openPath opens a dataset by absolute path from the root group.
-func openPath(root *Group, p string) (*Dataset, error) {
-	return root.OpenDataset(p[1:], 0)
 }
 
 // ChunkInfo is where one stored chunk is: its first element and its size

@@ -96,10 +96,15 @@ func runValidate(cmd *cobra.Command, args []string) error {
 		return withExit(2, err)
 	}
 	if validateFlags.child {
+		// The parent passes its options as JSON on standard input.
 		if len(args) != 1 {
 			return withExit(2, fmt.Errorf("--child takes one file"))
 		}
-		return printJSON(out, validate.File(args[0], opt))
+		var copt validate.Options
+		if err := json.NewDecoder(cmd.InOrStdin()).Decode(&copt); err != nil {
+			return withExit(2, fmt.Errorf("--child: options on standard input: %w", err))
+		}
+		return printJSON(out, validate.File(args[0], copt))
 	}
 	paths, err := validateInputs(args)
 	if err != nil {
@@ -110,17 +115,10 @@ func runValidate(cmd *cobra.Command, args []string) error {
 		return withExit(2, fmt.Errorf("shard %s of the inputs holds no file", shard))
 	}
 	bar := newProgress("validate", int64(len(paths)))
-	var reps []*validate.Report
-	exe, exeErr := os.Executable()
-	if validateFlags.inProcess || exeErr != nil {
-		reps = validate.Files(paths, opt, validateFlags.workers, func(int, *validate.Report) { bar.Add(1) })
-	} else {
-		reps = make([]*validate.Report, len(paths))
-		batch.Run(len(paths), validateFlags.workers, func(i int) error {
-			reps[i] = validateInChild(exe, paths[i])
-			return nil
-		}, func(int, error) { bar.Add(1) })
+	if validateFlags.inProcess {
+		validate.Validator = validate.File
 	}
+	reps := validate.Files(paths, opt, validateFlags.workers, func(int, *validate.Report) { bar.Add(1) })
 	bar.Finish()
 
 	if validateFlags.json {
@@ -134,26 +132,29 @@ func runValidate(cmd *cobra.Command, args []string) error {
 	return silentExit(validateExit(reps))
 }
 
-// validateInChild validates one file in a child muarc process, so that a
-// file whose HDF5 metadata is damaged badly enough to crash the HDF5 C
+// isolatedValidator validates each file in a child muarc process, so that
+// a file whose HDF5 metadata is damaged badly enough to crash the HDF5 C
 // library (h5dump and h5py crash on such files too) ends as that file's
-// read error instead of ending the whole run.
-func validateInChild(exe, path string) *validate.Report {
-	args := []string{"validate", "--child"}
-	if validateFlags.strict {
-		args = append(args, "--strict")
+// read error instead of ending the whole run. main installs it as
+// validate.Validator; pack, verify, report and the demo use it too.
+func isolatedValidator(path string, opt validate.Options) *validate.Report {
+	exe, err := os.Executable()
+	if err != nil {
+		return validate.File(path, opt)
 	}
-	if validateFlags.noChecksums {
-		args = append(args, "--no-checksums")
+	return validateInChild(exe, path, opt)
+}
+
+func validateInChild(exe, path string, opt validate.Options) *validate.Report {
+	optJSON, err := json.Marshal(opt)
+	if err != nil {
+		return &validate.Report{File: path, Findings: []validate.Finding{}, ReadError: err.Error()}
 	}
-	if validateFlags.rules != "" {
-		args = append(args, "--rules", validateFlags.rules)
-	}
-	args = append(args, "--", path)
-	cmd := exec.Command(exe, args...)
+	cmd := exec.Command(exe, "validate", "--child", "--", path)
 	var stdout, stderr bytes.Buffer
+	cmd.Stdin = bytes.NewReader(optJSON)
 	cmd.Stdout, cmd.Stderr = &stdout, &stderr
-	err := cmd.Run()
+	err = cmd.Run()
 	var rep validate.Report
 	if err == nil && json.Unmarshal(stdout.Bytes(), &rep) == nil && rep.File == path {
 		return &rep

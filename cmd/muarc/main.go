@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"muarc/schema"
+	"muarc/validate"
 )
 
 // rootCmd is the top of the command tree; each cmd_<verb>.go adds itself.
@@ -54,6 +55,9 @@ func silentExit(code int) error { return &exitError{code, errSilent} }
 var errSilent = errors.New("")
 
 func main() {
+	// Every validation in this program, whichever command asks for it, runs
+	// each file in a child process (see isolatedValidator).
+	validate.Validator = isolatedValidator
 	err := rootCmd.Execute()
 	if err == nil {
 		return
