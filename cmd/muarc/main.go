@@ -28,6 +28,8 @@ and packs them for sharing.`,
 	Version:       schema.SoftwareVersion,
 	SilenceUsage:  true,
 	SilenceErrors: true,
+	// Shell completion scripts are not part of muarc's job.
+	CompletionOptions: cobra.CompletionOptions{DisableDefaultCmd: true},
 }
 
 // exitError carries a process exit code with an error.
