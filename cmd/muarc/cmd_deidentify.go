@@ -16,10 +16,10 @@ import (
 )
 
 var deidFlags struct {
-	out, key, policy, shard, linkage, check, original string
-	needles                                           []string
-	workers, k                                        int
-	json, dryRun, overwrite, printPolicy              bool
+	out, key, policy, shard, linkage, check, original, shardReport string
+	needles                                                        []string
+	workers, k                                                     int
+	json, dryRun, overwrite, printPolicy                           bool
 }
 
 var deidentifyCmd = &cobra.Command{
@@ -79,6 +79,7 @@ func init() {
 	f.StringVar(&deidFlags.policy, "policy", "", "policy `FILE` (YAML or JSON); default: the built-in Safe Harbor policy")
 	f.IntVar(&deidFlags.workers, "workers", 0, "files done at once (0: one per CPU)")
 	f.StringVar(&deidFlags.shard, "shard", "", "do only shard `i/n` of the sorted file list (cluster job arrays)")
+	f.StringVar(&deidFlags.shardReport, "shard-report", "", "also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.BoolVar(&deidFlags.json, "json", false, "print the report as JSON")
 	f.BoolVar(&deidFlags.dryRun, "dry-run", false, "print the plan (every field and what the policy does to it) and write nothing")
 	f.StringVar(&deidFlags.linkage, "linkage", "", "also write a private linkage `FILE` (original id -> pseudonym), mode 0600, outside the output folder")
@@ -145,6 +146,19 @@ func runDeidentify(cmd *cobra.Command, args []string) error {
 	bar.Finish()
 	if err != nil {
 		return withExit(2, err)
+	}
+	if deidFlags.shardReport != "" && !rep.DryRun {
+		source := src
+		if !fi.IsDir() {
+			source = filepath.Dir(src)
+		}
+		files := make([]shardFile, len(rep.Files))
+		for i, o := range rep.Files {
+			files[i] = shardFile{Path: filepath.Join(source, o.Input), Err: o.Error}
+		}
+		if err := writeShardReport(deidFlags.shardReport, "deidentify", source, shard, files); err != nil {
+			return withExit(2, err)
+		}
 	}
 	if deidFlags.json {
 		if err := printJSON(out, rep); err != nil {

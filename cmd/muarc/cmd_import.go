@@ -18,11 +18,11 @@ import (
 )
 
 type importFlags struct {
-	meta, profile, out, dtype, shard string
-	force, emg, dis, units           []string
-	overwrite, json, allowGaps       bool
-	rate                             float64
-	workers                          int
+	meta, profile, out, dtype, shard, shardReport string
+	force, emg, dis, units                        []string
+	overwrite, json, allowGaps                    bool
+	rate                                          float64
+	workers                                       int
 	// Reading overrides (take precedence over the profile).
 	delimiter, decimalComma, header, timeColumn, timeUnit string
 	shape, timeBase                                       string
@@ -69,6 +69,7 @@ file is which and how to read it.`,
 	f.Float64Var(&fl.rate, "rate", 0, "sampling rate in Hz for signal files without a time column")
 	f.BoolVar(&fl.allowGaps, "allow-gaps", false, "accept gaps in time columns (missing samples become NaN)")
 	f.StringVar(&fl.shard, "shard", "", "study form: import only part i of n (i/n)")
+	f.StringVar(&fl.shardReport, "shard-report", "", "study form: also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.IntVar(&fl.workers, "workers", 0, "study form: recordings imported at once (0 = one per core)")
 	f.StringVar(&fl.delimiter, "delimiter", "", "signal files: auto, comma, semicolon, tab or whitespace")
 	f.StringVar(&fl.decimalComma, "decimal-comma", "", "signal files: auto, yes or no")
@@ -236,6 +237,15 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 	for _, r := range res {
 		if r.Error != "" {
 			failed = append(failed, r.Recording)
+		}
+	}
+	if fl.shardReport != "" {
+		files := make([]shardFile, len(res))
+		for i, r := range res {
+			files[i] = shardFile{Path: filepath.Join(src, r.Recording), Err: r.Error}
+		}
+		if err := writeShardReport(fl.shardReport, "import", src, shard, files); err != nil {
+			return withExit(2, err)
 		}
 	}
 	if fl.json {

@@ -23,7 +23,7 @@ import (
 
 var validateFlags struct {
 	json, strict, noChecksums, listChecks, child, inProcess bool
-	rules, shard                                            string
+	rules, shard, shardReport                               string
 	workers                                                 int
 }
 
@@ -68,6 +68,7 @@ func init() {
 	f.StringVar(&validateFlags.rules, "rules", "", "rules `FILE` (YAML or JSON) with thresholds, disabled checks and severities")
 	f.IntVar(&validateFlags.workers, "workers", 0, "files validated at once (0: one per CPU)")
 	f.StringVar(&validateFlags.shard, "shard", "", "validate only shard `i/n` of the sorted file list (cluster job arrays)")
+	f.StringVar(&validateFlags.shardReport, "shard-report", "", "also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.BoolVar(&validateFlags.noChecksums, "no-checksums", false, "skip the Fletcher-32 scan of every stored chunk (faster, finds less)")
 	f.BoolVar(&validateFlags.listChecks, "list-checks", false, "list every check id with its default severity and exit")
 	f.BoolVar(&validateFlags.inProcess, "in-process", false, "validate in this process instead of one child process per file (a file damaged in its HDF5 metadata can then crash the run)")
@@ -120,6 +121,22 @@ func runValidate(cmd *cobra.Command, args []string) error {
 	}
 	reps := validate.Files(paths, opt, validateFlags.workers, func(int, *validate.Report) { bar.Add(1) })
 	bar.Finish()
+	if validateFlags.shardReport != "" {
+		source := "."
+		if len(args) == 1 {
+			if st, err := os.Stat(args[0]); err == nil && st.IsDir() {
+				source = args[0]
+			}
+		}
+		files := make([]shardFile, len(reps))
+		for i, r := range reps {
+			n := r.Count(validate.Error)
+			files[i] = shardFile{Path: r.File, Err: r.ReadError, Refused: r.ReadError == "" && n > 0, ValidationErrors: n}
+		}
+		if err := writeShardReport(validateFlags.shardReport, "validate", source, shard, files); err != nil {
+			return withExit(2, err)
+		}
+	}
 
 	if validateFlags.json {
 		if err := printJSON(out, validateJSON(reps, opt)); err != nil {

@@ -90,3 +90,34 @@ func TestVerifyContainsLibraryCrash(t *testing.T) {
 		t.Fatalf("verify: exit %d\nstdout %.800s\nstderr %.800s", code, stdout, stderr)
 	}
 }
+
+// TestShardedValidateMerges: two shards of a validate run write shard
+// reports that merge-reports combines; a missing shard is refused.
+func TestShardedValidateMerges(t *testing.T) {
+	dir := t.TempDir()
+	study := filepath.Join(dir, "study")
+	os.MkdirAll(study, 0o755)
+	b, _ := os.ReadFile(testFile(t))
+	for _, n := range []string{"a.h5", "b.h5", "c.h5"} {
+		os.WriteFile(filepath.Join(study, n), b, 0o644)
+	}
+	for i := 1; i <= 2; i++ {
+		rep := filepath.Join(dir, "r"+string(rune('0'+i))+".json")
+		if _, stderr, code := runMuarc(t, dir, "validate", study, "--shard", string(rune('0'+i))+"/2", "--shard-report", rep); code != 0 {
+			t.Fatalf("shard %d: exit %d %s", i, code, stderr)
+		}
+	}
+	merged := filepath.Join(dir, "merged.json")
+	if _, stderr, code := runMuarc(t, dir, "merge-reports", filepath.Join(dir, "r1.json"), filepath.Join(dir, "r2.json"), "-o", merged); code != 0 {
+		t.Fatalf("merge: exit %d %s", code, stderr)
+	}
+	m, _ := os.ReadFile(merged)
+	for _, want := range []string{`"command": "validate"`, `"path": "a.h5"`, `"path": "b.h5"`, `"path": "c.h5"`, `"shard": "2/2 merged"`} {
+		if !strings.Contains(string(m), want) {
+			t.Fatalf("merged report lacks %s:\n%s", want, m)
+		}
+	}
+	if _, _, code := runMuarc(t, dir, "merge-reports", filepath.Join(dir, "r1.json"), "-o", filepath.Join(dir, "half.json")); code != 1 {
+		t.Fatalf("a missing shard: exit %d, want 1", code)
+	}
+}
