@@ -144,3 +144,10 @@ func TestSchemaCommandPrintsEmbeddedDocuments(t *testing.T) {
 		t.Fatalf("layout: exit %d, %.100s", code, out)
 	}
 }
+
+// runIn runs a reference tool in dir and returns its combined output.
+func runIn(dir, name string, args ...string) ([]byte, error) {
+	cmd := exec.Command(name, args...)
+	cmd.Dir = dir
+	return cmd.CombinedOutput()
+}
