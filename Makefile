@@ -24,7 +24,7 @@ deps:
 	if [ -n "$$missing" ]; then \
 		echo "installing:$$missing"; \
 		SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
-		$$SUDO apt-get update -qq && DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
+		$$SUDO apt-get update -qq && DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq $$missing; \
 	fi
 
 build: deps
