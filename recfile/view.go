@@ -338,6 +338,14 @@ func tableRows(g *h5.Group) ([]any, error) {
 // written after "@"; a table cell as "column[row]", e.g.
 // "/trials/ramp_10/arrays/ta_grid/channels/label[5]".
 func HDF5Path(view map[string]any, pointer string) string {
+	p := hdf5Path(view, pointer)
+	if !strings.HasPrefix(p, "/") {
+		p = "/" + p
+	}
+	return p
+}
+
+func hdf5Path(view map[string]any, pointer string) string {
 	toks := strings.Split(strings.TrimPrefix(pointer, "/"), "/")
 	for i, t := range toks {
 		toks[i] = strings.ReplaceAll(strings.ReplaceAll(t, "~1", "/"), "~0", "~")
@@ -367,11 +375,7 @@ func HDF5Path(view map[string]any, pointer string) string {
 			cur = el
 			i++
 		case "channels", "units", "sources", "history":
-			if t == "sources" || t == "history" {
-				p += "/" + t
-			} else {
-				p += "/" + t
-			}
+			p += "/" + t
 			if i+2 < len(toks) {
 				return p + "/" + toks[i+2] + "[" + toks[i+1] + "]"
 			}
