@@ -15,7 +15,8 @@ import (
 // checksums under sha256sum (coreutils, FIPS 180-4 SHA-256), and h5py
 // (Debian python3-h5py) reads a de-identified recording of the deposit with
 // no name, contact or full birth date left in it. A second run clears its own folder; a
-// folder the demo did not make is refused.
+// folder the demo did not make is refused. The README's python example runs
+// on the demo's output, so the README stays true.
 func TestDemoEndToEnd(t *testing.T) {
 	sha := reftest.NeedTool(t, "sha256sum", "coreutils")
 	py := reftest.NeedPython(t, "h5py")
@@ -59,6 +60,20 @@ print(len(f["trials"]))
 `, recs[0])
 	if err != nil || strings.TrimSpace(string(b)) != "3" {
 		t.Fatalf("h5py on the deposit: %v %s", err, b)
+	}
+	// The README's python example runs on the demo's output as written.
+	readme, err := os.ReadFile("../../README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, rest, ok := strings.Cut(string(readme), "```python\n")
+	snippet, _, ok2 := strings.Cut(rest, "```")
+	if !ok || !ok2 {
+		t.Fatal("README.md has no python example")
+	}
+	snippet = strings.ReplaceAll(snippet, `"demo-out/`, `"`+filepath.ToSlash(out)+`/`)
+	if b, err := runIn(dir, py, "-c", snippet+"\nassert emg.shape[0] > 0 and len(first_unit) > 0\n"); err != nil {
+		t.Fatalf("README example: %v\n%s", err, b)
 	}
 	// Again: the folder is the demo's own, so it is cleared and remade.
 	if _, stderr, code := runMuarc(t, dir, "demo", "--out", out, "--json"); code != 0 {
