@@ -280,21 +280,18 @@ func nameDomain(path string) string {
 
 // num handles a number (NaN = absent).
 func (a *applier) num(path string, v float64, set func(float64)) {
-	if math.IsNaN(v) {
-		return
-	}
-	act, named := a.action(path)
-	if act == Keep {
-		set(v)
-	} else {
-		act = Drop
-	}
-	a.note(path, act, named, "")
+	keepOrDrop(a, path, v, math.IsNaN(v), set)
 }
 
 // integer handles an int (0 = absent).
 func (a *applier) integer(path string, v int, set func(int)) {
-	if v == 0 {
+	keepOrDrop(a, path, v, v == 0, set)
+}
+
+// keepOrDrop handles a field the policy may only keep or drop: any other
+// action on it drops it.
+func keepOrDrop[T any](a *applier, path string, v T, absent bool, set func(T)) {
+	if absent {
 		return
 	}
 	act, named := a.action(path)
