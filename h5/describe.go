@@ -30,27 +30,48 @@ type Object struct {
 // Describe lists every group and dataset in the file, depth first, members
 // in creation order.
 func Describe(name string) ([]Object, error) {
+	var out []Object
+	err := withRoot(name, func(root *Group) error {
+		return walk(root, func(g *Group) error {
+			attrs, err := g.Attrs()
+			out = append(out, Object{Path: g.path, Attrs: attrs})
+			return err
+		}, func(d *Dataset) error {
+			o, err := describeDataset(d)
+			out = append(out, o)
+			return err
+		}, func(path string) {
+			out = append(out, Object{Path: path, Type: "link"})
+		})
+	})
+	return out, err
+}
+
+// withRoot opens a file read-only and calls fn with its root group.
+func withRoot(name string, fn func(*Group) error) error {
 	f, err := Open(name)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	defer f.Close()
 	root, err := f.Root()
 	if err != nil {
-		return nil, err
-	}
-	defer root.Close()
-	var out []Object
-	err = describeGroup(root, &out)
-	return out, err
-}
-
-func describeGroup(g *Group, out *[]Object) error {
-	attrs, err := g.Attrs()
-	if err != nil {
 		return err
 	}
-	*out = append(*out, Object{Path: g.path, Attrs: attrs})
+	defer root.Close()
+	return fn(root)
+}
+
+// walk visits g and everything below it, depth first, members in creation
+// order: onGroup for each group (g first), onDataset for each dataset, and
+// onOther, when set, for links that are neither. Callbacks must not keep
+// the objects, which are closed after them.
+func walk(g *Group, onGroup func(*Group) error, onDataset func(*Dataset) error, onOther func(path string)) error {
+	if onGroup != nil {
+		if err := onGroup(g); err != nil {
+			return err
+		}
+	}
 	kids, err := g.Children()
 	if err != nil {
 		return err
@@ -62,7 +83,7 @@ func describeGroup(g *Group, out *[]Object) error {
 			if err != nil {
 				return err
 			}
-			err = describeGroup(sub, out)
+			err = walk(sub, onGroup, onDataset, onOther)
 			sub.Close()
 			if err != nil {
 				return err
@@ -72,14 +93,15 @@ func describeGroup(g *Group, out *[]Object) error {
 			if err != nil {
 				return err
 			}
-			o, err := describeDataset(d)
+			err = onDataset(d)
 			d.Close()
 			if err != nil {
 				return err
 			}
-			*out = append(*out, o)
 		default:
-			*out = append(*out, Object{Path: g.child(k.Name), Type: "link"})
+			if onOther != nil {
+				onOther(g.child(k.Name))
+			}
 		}
 	}
 	return nil
@@ -152,64 +174,26 @@ type ChunkFault struct {
 // It reads no attributes and no string data, so damage to the unchecksummed
 // global heap (where variable-length strings live) cannot stop it.
 func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
-	f, err := Open(name)
-	if err != nil {
-		return 0, err
-	}
-	defer f.Close()
-	root, err := f.Root()
-	if err != nil {
-		return 0, err
-	}
-	defer root.Close()
 	checked := 0
-	err = walkDatasets(root, func(d *Dataset) {
-		_, filters, err := d.Layout()
-		if err != nil {
-			fn(ChunkFault{Dataset: d.path, Err: err})
-			return
-		}
-		if !hasFilter(filters, "fletcher32") {
-			return
-		}
-		n, err := d.verify(fn)
-		checked += n
-		if err != nil {
-			fn(ChunkFault{Dataset: d.path, Err: err})
-		}
+	err := withRoot(name, func(root *Group) error {
+		return walk(root, nil, func(d *Dataset) error {
+			_, filters, err := d.Layout()
+			if err != nil {
+				fn(ChunkFault{Dataset: d.path, Err: err})
+				return nil
+			}
+			if !hasFilter(filters, "fletcher32") {
+				return nil
+			}
+			n, err := d.verify(fn)
+			checked += n
+			if err != nil {
+				fn(ChunkFault{Dataset: d.path, Err: err})
+			}
+			return nil
+		}, nil)
 	})
 	return checked, err
-}
-
-// walkDatasets calls fn for every dataset below g, depth first, members in
-// creation order; fn must not keep d.
-func walkDatasets(g *Group, fn func(d *Dataset)) error {
-	kids, err := g.Children()
-	if err != nil {
-		return err
-	}
-	for _, k := range kids {
-		switch k.Kind {
-		case KindGroup:
-			sub, err := g.OpenGroup(k.Name)
-			if err != nil {
-				return err
-			}
-			err = walkDatasets(sub, fn)
-			sub.Close()
-			if err != nil {
-				return err
-			}
-		case KindDataset:
-			d, err := g.OpenDataset(k.Name, 0)
-			if err != nil {
-				return err
-			}
-			fn(d)
-			d.Close()
-		}
-	}
-	return nil
 }
 
 func hasFilter(fs []string, name string) bool {
