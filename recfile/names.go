@@ -1,5 +1,7 @@
 package recfile
 
+import "muarc/schema"
+
 // Names of groups, datasets and attributes in layout v1. LAYOUT.md is the
 // specification; these constants must agree with it.
 const (
@@ -29,18 +31,28 @@ const (
 	attrColumnUnit = "unit"
 )
 
-// unitColumns are the fixed unit-table columns after id and
-// discharge_count, in order.
-var unitColumns = []string{"silhouette", "pnr_db", "accuracy_pct", "isi_cov",
-	"recruit_pct_mvc", "derecruit_pct_mvc", "initial_rate_pps", "mean_rate_pps"}
+// unitColumns are the fixed unit-table figure columns after id and
+// discharge_count, in order (from the field registry).
+var unitColumns = unitFigureNames()
 
-// reserved lists the names a group's Extra may not use, per group kind.
+func unitFigureNames() []string {
+	var out []string
+	for _, f := range schema.FieldsOf("unit") {
+		if f.Kind == schema.KindNumber {
+			out = append(out, f.Name)
+		}
+	}
+	return out
+}
+
+// reserved lists the names a group's Extra may not use, per group kind
+// (from the field registry).
 var (
-	studyFields   = []string{"id", "title", "description", "contact", "license"}
-	subjectFields = []string{"id", "name", "birth_date", "age_years", "age_band", "sex", "height_cm", "mass_kg", "dominant_side", "phone", "email", "notes"}
-	sessionFields = []string{"id", "date", "site", "operator", "notes"}
-	trialFields   = []string{"task", "target_pct_mvc", "mvc", "mvc_unit", "profile_shape", "rest_s", "ramp_up_s", "plateau_s", "ramp_down_s", "notes"}
-	arrayFields   = []string{"muscle", "side", "rows", "columns", "ied_mm", "gain", "adc_bits", "filter_low_hz", "filter_high_hz", "montage", "reference", "sampling_rate_hz", "start_s", "unit"}
-	decompFields  = []string{"method", "method_version", "parameters", "edited_by_hand", "notes"}
-	signalFields  = []string{"sampling_rate_hz", "start_s", "unit"}
+	studyFields   = schema.FieldNames("study", true)
+	subjectFields = schema.FieldNames("subject", true)
+	sessionFields = schema.FieldNames("session", true)
+	trialFields   = schema.FieldNames("trial", true)
+	arrayFields   = schema.FieldNames("array", true)
+	decompFields  = schema.FieldNames("decomposition", true)
+	signalFields  = schema.FieldNames("signal", true)
 )
