@@ -359,3 +359,153 @@ func FuzzParsePayloadOxum(f *testing.F) {
 		}
 	})
 }
+
+// RFC 8493 section 2.1.1 (from memory; no copy of the RFC on this machine):
+// bagit.txt is UTF-8 without a byte-order mark and has exactly two lines in
+// this order, "BagIt-Version: M.N" and "Tag-File-Character-Encoding:
+// ENCODING"; lines end in LF, CR or CRLF (the line-ending rule of the
+// RFC's text files, also from memory).
+func TestDeclarationExactForm(t *testing.T) {
+	good := []struct{ text, version, enc string }{
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n", "1.0", "UTF-8"},
+		{"BagIt-Version: 1.0\r\nTag-File-Character-Encoding: UTF-8\r\n", "1.0", "UTF-8"},
+		{"BagIt-Version: 1.0\rTag-File-Character-Encoding: UTF-8\r", "1.0", "UTF-8"},
+		{"BagIt-Version: 0.97\nTag-File-Character-Encoding: UTF-8", "0.97", "UTF-8"},
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding: ISO-8859-1\n", "1.0", "ISO-8859-1"},
+	}
+	for _, g := range good {
+		v, e, err := ParseDeclaration([]byte(g.text), "bagit.txt")
+		if err != nil || v != g.version || e != g.enc {
+			t.Errorf("%q: got %q %q %v, want %q %q", g.text, v, e, err, g.version, g.enc)
+		}
+	}
+	bad := []struct {
+		text string
+		line int
+		says string // in the message
+	}{
+		{"BagIt-Version : 1.0\nTag-File-Character-Encoding: UTF-8\n", 1, `write "BagIt-Version: 1.0"`},
+		{"BagIt-Version:1.0\nTag-File-Character-Encoding: UTF-8\n", 1, "one space must follow the colon"},
+		{"BagIt-Version:  1.0\nTag-File-Character-Encoding: UTF-8\n", 1, "one space must follow the colon"},
+		{"BagIt-Version: 1.0 \nTag-File-Character-Encoding: UTF-8\n", 1, "one space must follow the colon"},
+		{"bagit-version: 1.0\nTag-File-Character-Encoding: UTF-8\n", 1, `must read "BagIt-Version" exactly`},
+		{" BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n", 1, `must read "BagIt-Version" exactly`},
+		{"BagIt-Version: one\nTag-File-Character-Encoding: UTF-8\n", 1, "value must have the form M.N"},
+		{"Tag-File-Character-Encoding: UTF-8\nBagIt-Version: 1.0\n", 1, `line must be "BagIt-Version: M.N"`},
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding : UTF-8\n", 2, `write "Tag-File-Character-Encoding: UTF-8"`},
+		{"BagIt-Version: 1.0\n\nTag-File-Character-Encoding: UTF-8\n", 2, "Tag-File-Character-Encoding: ENCODING"},
+		{"BagIt-Version: 1.0\n", 2, "missing"},
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\nContact-Name: x\n", 3, "exactly two lines"},
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n\n", 3, "exactly two lines"},
+		{"\xef\xbb\xbfBagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n", 1, "byte-order mark"},
+		{"BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\xff\n", 1, "not UTF-8"},
+		{"", 1, "empty"},
+	}
+	for _, b := range bad {
+		_, _, err := ParseDeclaration([]byte(b.text), "bagit.txt")
+		le, ok := err.(*LineError)
+		if !ok || le.Line != b.line || !strings.Contains(le.Msg, b.says) {
+			t.Errorf("%q: got %v, want line %d saying %q", b.text, err, b.line, b.says)
+		}
+	}
+}
+
+// Verify names the line of a bagit.txt that is not in the exact form
+// (the space before the colon is the case RFC 8493 section 2.1.1 rules out
+// by giving the form "BagIt-Version: M.N").
+func TestVerifyRefusesLooseDeclaration(t *testing.T) {
+	d := makeBag(t, false)
+	os.WriteFile(filepath.Join(d, DeclarationFile), []byte("BagIt-Version : 1.0\nTag-File-Character-Encoding: UTF-8\n"), 0o644)
+	res, err := Verify(d, VerifyOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Problems) != 1 || res.Problems[0].Kind != KindDeclaration || !strings.HasPrefix(res.Problems[0].Msg, `line 1: "BagIt-Version : 1.0"`) {
+		t.Fatalf("want one declaration problem naming line 1, got %v", res.Problems)
+	}
+}
+
+// A bag whose only payload manifest is MD5 is refused with the reason and
+// what to do; beside a SHA-256 manifest an MD5 manifest is checked. The MD5
+// manifest is written by coreutils md5sum (an outside tool), so the sums
+// are not ours.
+func TestVerifyMD5Manifests(t *testing.T) {
+	md5sum, err := exec.LookPath("md5sum")
+	if err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatal("md5sum (coreutils) is missing")
+		}
+		t.Skip("md5sum not found")
+	}
+	withMD5 := func(t *testing.T, keepSHA bool) string {
+		d := makeBag(t, false)
+		cmd := exec.Command(md5sum, "data/27613-h/images/q172.png", "data/27613-h/images/q172.txt", "data/odd%name.txt")
+		cmd.Dir = d
+		out, err := cmd.Output()
+		if err != nil {
+			t.Fatal(err)
+		}
+		// md5sum writes "sum  path" (RFC 8493 section 2.1.3 allows one or
+		// more spaces); the % in the name must be %25 in a manifest.
+		out = bytes.ReplaceAll(out, []byte("odd%name"), []byte("odd%25name"))
+		os.WriteFile(filepath.Join(d, "manifest-md5.txt"), out, 0o644)
+		if !keepSHA {
+			os.Remove(filepath.Join(d, ManifestName("sha256")))
+		}
+		return d
+	}
+	t.Run("md5 only", func(t *testing.T) {
+		res, err := Verify(withMD5(t, false), VerifyOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		found := false
+		for _, p := range res.Problems {
+			if p.Kind == KindManifest && strings.HasPrefix(p.Msg, "md5 manifests are not accepted: ") &&
+				strings.Contains(p.Msg, "md5sum -c manifest-md5.txt") && strings.Contains(p.Msg, "manifest-sha256.txt") {
+				found = true
+			}
+		}
+		if !found || res.Complete() {
+			t.Fatalf("want the md5 refusal, got %v", res.Problems)
+		}
+	})
+	t.Run("md5 beside sha256", func(t *testing.T) {
+		d := withMD5(t, true)
+		if k := verifyKinds(t, d); len(k) != 0 {
+			t.Fatalf("a good bag with md5 and sha256 manifests gave %v", k)
+		}
+		p := filepath.Join(d, "data/27613-h/images/q172.txt")
+		b, _ := os.ReadFile(p)
+		b[0] ^= 1
+		os.WriteFile(p, b, 0o644)
+		res, _ := Verify(d, VerifyOptions{})
+		var algs []string
+		for _, pr := range res.Problems {
+			if pr.Kind == KindMismatch {
+				algs = append(algs, strings.Fields(pr.Msg)[0])
+			}
+		}
+		if strings.Join(algs, ",") != "md5,sha256" && strings.Join(algs, ",") != "sha256,md5" {
+			t.Fatalf("a flipped byte must fail both manifests, got %v", res.Problems)
+		}
+	})
+}
+
+func FuzzParseDeclaration(f *testing.F) {
+	f.Add("BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n")
+	f.Add("BagIt-Version : 1.0\r\nTag-File-Character-Encoding: UTF-8\r\n")
+	f.Add("\xef\xbb\xbfBagIt-Version: 1.0\n")
+	f.Fuzz(func(t *testing.T, s string) {
+		v, e, err := ParseDeclaration([]byte(s), "bagit.txt")
+		if err != nil {
+			return
+		}
+		// What is accepted is the exact form, whatever the line ends.
+		exact := "BagIt-Version: " + v + "\nTag-File-Character-Encoding: " + e
+		norm := strings.TrimSuffix(strings.ReplaceAll(strings.ReplaceAll(s, "\r\n", "\n"), "\r", "\n"), "\n")
+		if norm != exact {
+			t.Fatalf("accepted %q, which is not %q", s, exact)
+		}
+	})
+}

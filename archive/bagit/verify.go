@@ -2,6 +2,8 @@ package bagit
 
 import (
 	"bytes"
+	"crypto/md5"
+	"crypto/sha1"
 	"encoding/hex"
 	"errors"
 	"fmt"
@@ -98,14 +100,17 @@ func Verify(dir string, opt VerifyOptions) (*VerifyResult, error) {
 		res.Problems = append(res.Problems, Problem{kind, file, fmt.Sprintf(msg, args...)})
 	}
 
-	// Declaration (RFC 8493 section 2.1.1).
+	// Declaration (RFC 8493 section 2.1.1), in its exact form.
 	if decl, err := os.ReadFile(filepath.Join(dir, DeclarationFile)); err != nil {
 		add(KindDeclaration, DeclarationFile, "cannot read the bag declaration: %v", err)
-	} else if fields, err := ParseInfo(bytes.NewReader(decl), DeclarationFile); err != nil {
-		add(KindDeclaration, DeclarationFile, "%v", err)
+	} else if v, enc, err := ParseDeclaration(decl, DeclarationFile); err != nil {
+		var le *LineError
+		if errors.As(err, &le) {
+			add(KindDeclaration, DeclarationFile, "line %d: %s", le.Line, le.Msg)
+		} else {
+			add(KindDeclaration, DeclarationFile, "%v", err)
+		}
 	} else {
-		v, _ := Lookup(fields, "BagIt-Version")
-		enc, _ := Lookup(fields, "Tag-File-Character-Encoding")
 		if v != "1.0" && v != "0.97" {
 			add(KindDeclaration, DeclarationFile, "BagIt-Version %q: this reader knows 1.0 (and 0.97)", v)
 		}
@@ -185,9 +190,9 @@ func Verify(dir string, opt VerifyOptions) (*VerifyResult, error) {
 		default:
 			continue
 		}
-		h := NewHash(alg)
+		h := checkHash(alg)
 		if h == nil {
-			add(KindManifest, t, "algorithm %q is not supported here (sha256, sha512); its checksums were not checked", alg)
+			add(KindManifest, t, "algorithm %q is not supported here (sha256, sha512; md5 and sha1 are checked beside one of those); its checksums were not checked", alg)
 			continue
 		}
 		f, err := os.Open(filepath.Join(dir, t))
@@ -204,16 +209,23 @@ func Verify(dir string, opt VerifyOptions) (*VerifyResult, error) {
 		manifests = append(manifests, manifest{t, alg, tag, entries})
 		res.Manifests = append(res.Manifests, t)
 	}
-	var nPayloadManifests int
+	var strong int
+	var weak []string
 	hasTagManifest := false
 	for _, m := range manifests {
-		if m.tag {
+		switch {
+		case m.tag:
 			hasTagManifest = true
-		} else {
-			nPayloadManifests++
+		case NewHash(m.alg) != nil:
+			strong++
+		default:
+			weak = append(weak, m.name)
 		}
 	}
-	if nPayloadManifests == 0 {
+	switch {
+	case strong == 0 && len(weak) > 0:
+		add(KindManifest, strings.Join(weak, ", "), "%s", weakOnly(weak))
+	case strong == 0:
 		add(KindManifest, "", "no payload manifest (manifest-<algorithm>.txt) was found or could be read")
 	}
 
@@ -304,7 +316,7 @@ func Verify(dir string, opt VerifyOptions) (*VerifyResult, error) {
 		for _, k := range keys {
 			alg, _, _ := strings.Cut(k, "\x00")
 			if hs[alg] == nil {
-				hs[alg] = NewHash(alg)
+				hs[alg] = checkHash(alg)
 				ws = append(ws, hs[alg])
 			}
 		}
@@ -353,3 +365,36 @@ func Verify(dir string, opt VerifyOptions) (*VerifyResult, error) {
 
 // Join makes a bag-relative path from slash-separated parts.
 func Join(parts ...string) string { return path.Join(parts...) }
+
+// checkHash returns a hash for checking a manifest: the algorithms of
+// NewHash, and MD5 and SHA-1, which older bags carry (RFC 8493 section 2.4,
+// from memory, asks readers to keep supporting them for backwards
+// compatibility). A bag whose payload manifests are all MD5 or SHA-1 is
+// still refused (see weakOnly); beside a SHA-2 manifest they are checked
+// like any other.
+func checkHash(alg string) hash.Hash {
+	switch alg {
+	case "md5":
+		return md5.New()
+	case "sha1":
+		return sha1.New()
+	}
+	return NewHash(alg)
+}
+
+// weakOnly explains why a bag with only MD5 or SHA-1 payload manifests is
+// refused, and what to do.
+func weakOnly(names []string) string {
+	var algs, checks []string
+	for _, n := range names {
+		alg := strings.TrimSuffix(strings.TrimPrefix(n, "manifest-"), ".txt")
+		algs = append(algs, alg)
+		checks = append(checks, alg+"sum -c "+n)
+	}
+	return strings.Join(algs, " and ") + " manifests are not accepted: collisions can be made for MD5 and SHA-1 " +
+		"(RFC 6151, RFC 6194), so matching sums cannot show that nothing was changed, and " +
+		"RFC 8493 section 2.4 makes SHA-256 and SHA-512 the algorithms every tool supports. " +
+		"Check the bag with its own manifest first (in the bag folder: " + strings.Join(checks, "; ") + "), " +
+		"then add a SHA-256 payload manifest (find data -type f -exec sha256sum {} + > manifest-sha256.txt) " +
+		"and verify again; a muarc deposit is simply packed again"
+}
