@@ -18,6 +18,9 @@ type Attr struct {
 	Type  string
 	Shape []int
 	Value any
+	// UTF8 is set for string attributes whose type is tagged UTF-8 (HDF5
+	// character set H5T_CSET_UTF8); other strings are tagged ASCII.
+	UTF8 bool
 }
 
 // SetAttr writes (or replaces) an attribute on a group. Accepted values:
@@ -200,6 +203,7 @@ func readAttr(o *obj, a C.hid_t) (Attr, error) {
 	opname := "read attribute " + at.Name
 	switch {
 	case at.Type == "string" || len(at.Type) > 6 && at.Type[:6] == "string":
+		at.UTF8 = C.H5Tget_cset(t) == C.H5T_CSET_UTF8
 		var strs **C.char
 		var m C.hsize_t
 		rc := C.muarc_attr_read_strs(a, &strs, &m)

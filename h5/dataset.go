@@ -18,6 +18,8 @@ type Dataset struct {
 	Type string
 	// Shape and MaxShape are the extent (-1 in MaxShape = unlimited).
 	Shape, MaxShape []int
+	// UTF8 is set for a string dataset whose type is tagged UTF-8.
+	UTF8 bool
 
 	planOnce sync.Once
 	rect     *rectPlan
@@ -47,6 +49,9 @@ func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 	d := &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, cache: &chunkCache{limit: cacheBytes}}
 	t := C.H5Dget_type(id)
 	d.Type = typeName(t)
+	if C.H5Tget_class(t) == C.H5T_STRING {
+		d.UTF8 = C.H5Tget_cset(t) == C.H5T_CSET_UTF8
+	}
 	C.H5Tclose(t)
 	sp := C.H5Dget_space(id)
 	shape, maxShape, ok := spaceShape(sp)

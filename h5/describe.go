@@ -7,6 +7,7 @@ import "C"
 
 import (
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"sort"
 	"unsafe"
@@ -177,7 +178,7 @@ func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
 	checked := 0
 	err := withRoot(name, func(root *Group) error {
 		return walk(root, nil, func(d *Dataset) error {
-			_, filters, err := d.Layout()
+			chunk, filters, err := d.Layout()
 			if err != nil {
 				fn(ChunkFault{Dataset: d.path, Err: err})
 				return nil
@@ -185,7 +186,7 @@ func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
 			if !hasFilter(filters, "fletcher32") {
 				return nil
 			}
-			n, err := d.verify(fn)
+			n, err := d.verify(chunk, fn)
 			checked += n
 			if err != nil {
 				fn(ChunkFault{Dataset: d.path, Err: err})
@@ -274,11 +275,17 @@ func (d *Dataset) ReadRawChunk(offset []int, size int, buf []byte) ([]byte, erro
 	return buf, nil
 }
 
-func (d *Dataset) verify(fn func(ChunkFault)) (int, error) {
+// ErrChunkMissing marks a chunk that the dataset's extent needs but its
+// chunk index (a B-tree in HDF5 1.10 files) does not list: HDF5 would read
+// it as fill values (zeros) without an error.
+var ErrChunkMissing = errors.New("chunk missing from the chunk index")
+
+func (d *Dataset) verify(chunk []int, fn func(ChunkFault)) (int, error) {
 	chunks, err := d.Chunks()
 	if err != nil {
 		return 0, err
 	}
+	d.checkChunkGrid(chunk, chunks, fn)
 	var buf []byte
 	for _, c := range chunks {
 		buf, err = d.ReadRawChunk(c.Offset, c.Bytes, buf)
@@ -297,4 +304,56 @@ func (d *Dataset) verify(fn func(ChunkFault)) (int, error) {
 		}
 	}
 	return len(chunks), nil
+}
+
+// checkChunkGrid reports every chunk the extent needs that the index does
+// not list (written datasets have all their chunks; muarc writes every one)
+// and every listed chunk that is not on the chunk grid inside the extent.
+func (d *Dataset) checkChunkGrid(chunk []int, chunks []ChunkInfo, fn func(ChunkFault)) {
+	if len(chunk) != len(d.Shape) || len(chunk) == 0 {
+		return
+	}
+	key := func(off []int) string { return fmt.Sprint(off) }
+	have := make(map[string]bool, len(chunks))
+	for _, c := range chunks {
+		ok := len(c.Offset) == len(chunk)
+		for i := 0; ok && i < len(chunk); i++ {
+			ok = chunk[i] > 0 && c.Offset[i]%chunk[i] == 0 && c.Offset[i] < d.Shape[i]
+		}
+		if !ok {
+			fn(ChunkFault{Dataset: d.path, Offset: c.Offset, Err: fmt.Errorf("a chunk listed at an offset off the chunk grid or outside the extent %v: %w", d.Shape, ErrChunkMissing)})
+			continue
+		}
+		have[key(c.Offset)] = true
+	}
+	total := 1
+	for i := range chunk {
+		if chunk[i] <= 0 {
+			return
+		}
+		total *= (d.Shape[i] + chunk[i] - 1) / chunk[i]
+	}
+	if total == len(have) || total > 1<<24 {
+		return
+	}
+	off := make([]int, len(chunk))
+	missing := 0
+	for n := 0; n < total; n++ {
+		if !have[key(off)] {
+			missing++
+			if missing <= 20 {
+				fn(ChunkFault{Dataset: d.path, Offset: append([]int(nil), off...), Err: fmt.Errorf("%w: it would read as zeros", ErrChunkMissing)})
+			}
+		}
+		for i := len(off) - 1; i >= 0; i-- {
+			off[i] += chunk[i]
+			if off[i] < d.Shape[i] {
+				break
+			}
+			off[i] = 0
+		}
+	}
+	if missing > 20 {
+		fn(ChunkFault{Dataset: d.path, Err: fmt.Errorf("%d more chunks: %w", missing-20, ErrChunkMissing)})
+	}
 }

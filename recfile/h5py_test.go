@@ -52,7 +52,7 @@ print(f.attrs["layout"], f.attrs["layout_version"], f["subject"].attrs["name"])
 		"5 6000",
 		"[1, 7, 3] [3, 0, 2] ['0.93', 'nan', 'nan']",
 		"['ramp_30', 'ramp_10'] ['auto', 'edited']",
-		"muarc-recording 1.0 Ada Zyxwvut",
+		"muarc-recording 1.1 Ada Zyxwvut",
 	}
 	if len(lines) != len(expect) {
 		t.Fatalf("h5py printed %d lines:\n%s", len(lines), out)

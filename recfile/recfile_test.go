@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"muarc/record"
+	"muarc/schema"
 )
 
 // fixture builds a recording that uses every part of the layout: two trials,
@@ -194,7 +195,7 @@ func TestRoundTripModelFileModel(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got.LayoutVersion != "1.0" {
+	if got.LayoutVersion != schema.LayoutVersion {
 		t.Fatalf("layout version %q", got.LayoutVersion)
 	}
 	equalRec(t, want, got)

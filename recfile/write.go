@@ -305,7 +305,15 @@ func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error)
 			return err
 		}
 	}
-	return writeProvenance(root, rec.Provenance)
+	if err := writeProvenance(root, rec.Provenance); err != nil {
+		return err
+	}
+	// The metadata digest goes last, over what the file now holds.
+	objs, err := f.Metadata()
+	if err != nil {
+		return err
+	}
+	return root.SetAttr(AttrMetadataSHA256, MetadataDigest(objs))
 }
 
 func group(parent *h5.Group, name string, a attrs, extra record.Extra) error {

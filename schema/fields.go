@@ -245,6 +245,7 @@ var Fields = []Field{
 	{Group: "root", Name: "layout_version", Kind: KindString, Required: true, Class: ClassFile, Since: "1.0", Meaning: "`major.minor` of this document"},
 	{Group: "root", Name: "created", Kind: KindTime, Required: true, Class: ClassFile, Since: "1.0", Meaning: "when the file was written"},
 	{Group: "root", Name: "software", Kind: KindString, Required: true, Class: ClassFile, Since: "1.0", Meaning: "program and version that wrote it, e.g. `muarc 0.1.0`"},
+	{Group: "root", Name: "metadata_sha256", Kind: KindString, Required: true, Class: ClassFile, Since: "1.1", Meaning: "SHA-256 of the file's canonical metadata text, 64 lowercase hex digits (see \"Metadata digest\" below); a 1.0 file has none"},
 
 	{Group: "study", Name: "id", Kind: KindString, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "the study's identifier"},
 	{Group: "study", Name: "title", Kind: KindString, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "short title"},

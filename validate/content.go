@@ -139,6 +139,14 @@ func checkArray(a *record.Array, ah, aj string, r Rules, add addFunc) {
 		add("emg.rate_low", ah+"@sampling_rate_hz", aj+"/sampling_rate_hz", "surface EMG is usually sampled at 1 kHz or more; check the rate stored",
 			"surface EMG sampled at %v Hz, below %v Hz", a.SamplingRateHz, r.EMGMinRateHz)
 	}
+	labels := map[string]int{}
+	for ci, ch := range a.Channels {
+		if prev, ok := labels[ch.Label]; ok && ch.Label != "" {
+			add("channels.label_duplicate", fmt.Sprintf("%s/channels/label[%d]", ah, ci), fmt.Sprintf("%s/channels/%d", aj, ci), "each channel of an array has its own label; a changed label may be damage (see integrity.metadata_digest)",
+				"channels %d and %d are both labelled %q", prev, ci, ch.Label)
+		}
+		labels[ch.Label] = ci
+	}
 	type pos struct{ r, c int }
 	seen := map[pos]int{}
 	for ci, ch := range a.Channels {

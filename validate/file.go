@@ -16,7 +16,9 @@ import (
 // by one; the rest are counted in one more finding.
 const maxChunkFaults = 20
 
-// File validates one muarc file: structure (h5.Describe and the small
+// File validates one muarc file in this process (warning: a file damaged
+// in its HDF5 metadata can crash the process; Isolated is the safe entry
+// point): structure (h5.Describe and the small
 // integer datasets), the metadata view against the JSON Schema
 // (recfile.MetadataView), the content checks on the recording
 // (recfile.Open) and, when opt.ChecksumScan, every stored chunk's
@@ -70,6 +72,13 @@ func File(path string, opt Options) (rep *Report) {
 	st.readInt = intReaderFor(hf)
 	st.check()
 	st.unexpected()
+	// Attributes and strings have no checksum in HDF5: the metadata digest
+	// stands in for one.
+	if objs, err := hf.Metadata(); err != nil {
+		readFailure(add, err, errorCount(raw), "metadata digest")
+	} else {
+		checkMetadataIntegrity(objs, st.version, add)
+	}
 	hf.Close()
 	// Metadata view against the schema.
 	if view, err := recfile.MetadataView(path); err != nil {
@@ -180,11 +189,14 @@ func intReaderFor(f *h5.File) intReader {
 }
 
 // Validator validates one file; Files and other packages (archive's pack
-// and verify) call through it. It is File unless a program installs one
-// that isolates each file, as the muarc command does (one child process
-// per file), so that a file whose damaged HDF5 metadata crashes the HDF5 C
-// library becomes that file's read error instead of ending the program.
-// Set it before any validation starts.
+// and verify, the report) call through it. It is File, in this process,
+// unless a program installs Isolated, as the muarc command does, so that a
+// file whose damaged HDF5 metadata crashes the HDF5 C library becomes that
+// file's read error instead of ending the program (see Isolated and
+// ServeWorker). Set it before any validation starts.
+//
+// Warning: with the default (File), a hostile or damaged file can end the
+// whole process inside the HDF5 library; no Go code can recover from that.
 var Validator func(path string, opt Options) *Report = File
 
 // Files validates many files on workers goroutines (0: one per CPU),

@@ -9,6 +9,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -222,6 +223,10 @@ func TestStructuralBreaks(t *testing.T) {
 				t.Fatalf("unexpected read error %q", r.ReadError)
 			}
 			got := checksOf(r.Findings, Warning)
+			// An edit of attributes, strings or the object tree also breaks
+			// the metadata digest (since layout 1.1); that finding is
+			// tested on its own (integrity_test.go) and left out here.
+			got = slices.DeleteFunc(got, func(s string) bool { return s == "integrity.metadata_digest" })
 			want := append([]string(nil), c.want...)
 			sort.Strings(want)
 			if strings.Join(dedup(got), " ") != strings.Join(want, " ") {

@@ -62,6 +62,7 @@ func smallGood(t testing.TB) []byte {
 const childEnv = "MUARC_VALIDATE_FUZZ_CHILD"
 
 func TestMain(m *testing.M) {
+	ServeWorker()
 	if p := os.Getenv(childEnv); p != "" {
 		json.NewEncoder(os.Stdout).Encode(File(p, DefaultOptions()))
 		os.Exit(0)

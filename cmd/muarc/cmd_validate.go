@@ -1,18 +1,13 @@
 package main
 
 import (
-	"bytes"
-	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"io/fs"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"sort"
 	"strings"
-	"syscall"
 	"text/tabwriter"
 
 	"github.com/spf13/cobra"
@@ -22,7 +17,7 @@ import (
 )
 
 var validateFlags struct {
-	json, strict, noChecksums, listChecks, child, inProcess bool
+	json, strict, noChecksums, listChecks, inProcess bool
 	rules, shard, shardReport                               string
 	workers                                                 int
 }
@@ -45,8 +40,9 @@ file (YAML or JSON) changes thresholds, switches checks off or re-ranks them;
   force_units [N, kN, mN, N.m, ...] (UCUM codes),
   disabled [check id or prefix.*, ...], severity {check id or prefix.*: note|warning|error}
 
-Each file is validated in a child process, so a file damaged badly enough to
-crash the HDF5 library is reported as unreadable and the run goes on.
+Files are validated in worker processes (restarted after a crash, reused
+otherwise), so a file damaged badly enough to crash the HDF5 library is
+reported as unreadable and the run goes on.
 Exit status: 0 clean or warnings only, 1 errors, 2 a file could not be read
 (or bad usage).`,
 	Args: func(cmd *cobra.Command, args []string) error {
@@ -71,9 +67,7 @@ func init() {
 	f.StringVar(&validateFlags.shardReport, "shard-report", "", "also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.BoolVar(&validateFlags.noChecksums, "no-checksums", false, "skip the Fletcher-32 scan of every stored chunk (faster, finds less)")
 	f.BoolVar(&validateFlags.listChecks, "list-checks", false, "list every check id with its default severity and exit")
-	f.BoolVar(&validateFlags.inProcess, "in-process", false, "validate in this process instead of one child process per file (a file damaged in its HDF5 metadata can then crash the run)")
-	f.BoolVar(&validateFlags.child, "child", false, "internal: validate one file and print its report as JSON")
-	f.MarkHidden("child")
+	f.BoolVar(&validateFlags.inProcess, "in-process", false, "validate in this process instead of in worker processes (a file damaged in its HDF5 metadata can then crash the run)")
 	rootCmd.AddCommand(validateCmd)
 }
 
@@ -95,17 +89,6 @@ func runValidate(cmd *cobra.Command, args []string) error {
 	shard, err := batch.ParseShard(validateFlags.shard)
 	if err != nil {
 		return withExit(2, err)
-	}
-	if validateFlags.child {
-		// The parent passes its options as JSON on standard input.
-		if len(args) != 1 {
-			return withExit(2, fmt.Errorf("--child takes one file"))
-		}
-		var copt validate.Options
-		if err := json.NewDecoder(cmd.InOrStdin()).Decode(&copt); err != nil {
-			return withExit(2, fmt.Errorf("--child: options on standard input: %w", err))
-		}
-		return printJSON(out, validate.File(args[0], copt))
 	}
 	paths, err := validateInputs(args)
 	if err != nil {
@@ -147,78 +130,6 @@ func runValidate(cmd *cobra.Command, args []string) error {
 		printSummary(out, reps)
 	}
 	return silentExit(validateExit(reps))
-}
-
-// isolatedValidator validates each file in a child muarc process, so that
-// a file whose HDF5 metadata is damaged badly enough to crash the HDF5 C
-// library (h5dump and h5py crash on such files too) ends as that file's
-// read error instead of ending the whole run. main installs it as
-// validate.Validator; pack, verify, report and the demo use it too.
-func isolatedValidator(path string, opt validate.Options) *validate.Report {
-	exe, err := os.Executable()
-	if err != nil {
-		return validate.File(path, opt)
-	}
-	return validateInChild(exe, path, opt)
-}
-
-func validateInChild(exe, path string, opt validate.Options) *validate.Report {
-	optJSON, err := json.Marshal(opt)
-	if err != nil {
-		return &validate.Report{File: path, Findings: []validate.Finding{}, ReadError: err.Error()}
-	}
-	cmd := exec.Command(exe, "validate", "--child", "--", path)
-	var stdout, stderr bytes.Buffer
-	cmd.Stdin = bytes.NewReader(optJSON)
-	cmd.Stdout, cmd.Stderr = &stdout, &stderr
-	err = cmd.Run()
-	var rep validate.Report
-	if err == nil && json.Unmarshal(stdout.Bytes(), &rep) == nil && rep.File == path {
-		return &rep
-	}
-	why := fmt.Sprint(err)
-	var ee *exec.ExitError
-	if errors.As(err, &ee) {
-		if ws, ok := ee.Sys().(syscall.WaitStatus); ok && ws.Signaled() {
-			why = "the HDF5 library crashed reading it (" + ws.Signal().String() + "); the file's HDF5 metadata is damaged: restore it from a copy"
-		}
-	}
-	// The Go runtime turns a fault inside C code into exit status 2 with
-	// the signal's name on the first lines of its dump.
-	if sig := crashSignal(stderr.String()); sig != "" {
-		why = "the HDF5 library crashed reading it (" + sig + "); the file's HDF5 metadata is damaged: restore it from a copy"
-	}
-	if msg := lastLine(stderr.String()); msg != "" && !strings.Contains(why, "HDF5 library crashed") {
-		why += ": " + msg
-	}
-	return &validate.Report{File: path, Findings: []validate.Finding{}, ReadError: why}
-}
-
-// crashSignal finds the signal in a Go runtime crash dump ("SIGSEGV:
-// segmentation violation", "signal arrived during cgo execution").
-func crashSignal(dump string) string {
-	if !strings.Contains(dump, "signal arrived during cgo execution") && !strings.Contains(dump, "fatal error: unexpected signal") {
-		return ""
-	}
-	for _, l := range strings.Split(dump, "\n") {
-		if strings.HasPrefix(l, "SIG") {
-			if name, _, ok := strings.Cut(l, ":"); ok {
-				return name
-			}
-		}
-	}
-	return "a fatal signal"
-}
-
-func lastLine(s string) string {
-	s = strings.TrimSpace(s)
-	if i := strings.LastIndexByte(s, '\n'); i >= 0 {
-		s = s[i+1:]
-	}
-	if len(s) > 300 {
-		s = s[:300] + "..."
-	}
-	return s
 }
 
 // validateInputs expands folders to the *.h5 files below them; files are

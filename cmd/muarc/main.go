@@ -57,9 +57,12 @@ func silentExit(code int) error { return &exitError{code, errSilent} }
 var errSilent = errors.New("")
 
 func main() {
+	// A worker process (internal/isolate) serves here and never returns.
+	validate.ServeWorker()
 	// Every validation in this program, whichever command asks for it, runs
-	// each file in a child process (see isolatedValidator).
-	validate.Validator = isolatedValidator
+	// in worker processes, so a file that crashes the HDF5 library is that
+	// file's read error (validate.Isolated).
+	validate.Validator = validate.Isolated
 	err := rootCmd.Execute()
 	if err == nil {
 		return
