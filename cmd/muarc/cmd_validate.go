@@ -18,8 +18,8 @@ import (
 
 var validateFlags struct {
 	json, strict, noChecksums, listChecks, inProcess bool
-	rules, shard, shardReport                               string
-	workers                                                 int
+	rules, shard, shardReport                        string
+	workers                                          int
 }
 
 var validateCmd = &cobra.Command{
