@@ -12,6 +12,7 @@ import (
 
 	"muarc/internal/reftest"
 	"muarc/recfile"
+	"muarc/schema"
 	"muarc/synth"
 )
 
@@ -140,7 +141,7 @@ func TestSchemaCommandPrintsEmbeddedDocuments(t *testing.T) {
 		t.Fatalf("schema: exit %d, %.200s", code, out)
 	}
 	out, _, code = runMuarc(t, ".", "schema", "--layout")
-	if code != 0 || !strings.HasPrefix(out, "# The muarc recording layout, version 1.0") {
+	if code != 0 || !strings.HasPrefix(out, "# The muarc recording layout, version "+schema.LayoutVersion) {
 		t.Fatalf("layout: exit %d, %.100s", code, out)
 	}
 }

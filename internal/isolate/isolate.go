@@ -358,6 +358,9 @@ func lastLine(s string) string {
 	// A Go crash dump's first line says what happened; elsewhere the last
 	// line is the message.
 	s = strings.TrimSpace(s)
+	if strings.HasPrefix(s, "panic: ") {
+		s, _, _ = strings.Cut(s, "\n")
+	}
 	if i := strings.Index(s, "\ngoroutine "); i >= 0 {
 		s = strings.TrimSpace(s[:i])
 	}
