@@ -35,6 +35,9 @@ type blockSpec struct {
 	mode  blockMode
 	all32 bool   // check every cell for float32 (forced float32: largest error wanted)
 	skip  []bool // columns read and checked but not kept (nil: keep all)
+	// allowRange stores infinity words and overflow as ±Inf and underflow
+	// as 0 instead of refusing them.
+	allowRange bool
 }
 
 // block is one run of whole lines and what parsing it gave.
@@ -248,6 +251,9 @@ func (sp *blockSpec) row(b *block, l []byte, line int) error {
 			}
 		}
 		n, kind := parseNumber(cell, comma)
+		if n.rng != rangeOK && (!sp.allowRange || col == sp.tcol) {
+			return perr(sp.file, line, col+1, hintOutOfRange, "%q is %s", clip(cell), n.rng)
+		}
 		switch kind {
 		case cellText:
 			return perr(sp.file, line, col+1, "fix the cell; write NaN or leave it empty for a missing value", "text %q in a numeric cell", clip(cell))
@@ -370,6 +376,9 @@ func (sp *blockSpec) countRow(b *block, l []byte, line int) error {
 		}
 	}
 	n, kind := parseNumber(cell, comma)
+	if n.rng != rangeOK {
+		return perr(sp.file, line, sp.tcol+1, "every row needs its time as a finite number", "time %q is %s", clip(cell), n.rng)
+	}
 	switch kind {
 	case cellText:
 		return perr(sp.file, line, sp.tcol+1, "fix the cell; every row needs its time as a number", "text %q in the time column", clip(cell))

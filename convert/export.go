@@ -391,14 +391,10 @@ func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
 					b = strconv.AppendFloat(b, v, 'g', -1, 64)
 				}
 			case c.Text != nil:
-				s := c.Text[i]
-				if strings.ContainsAny(s, ds+"\"\n") {
-					if strings.ContainsAny(s, "\"\n") {
-						return fmt.Errorf("unit %d column %s: text %q cannot be written in a delimited file; use --format json", u.ID, c.Name, s)
-					}
-					s = `"` + s + `"`
-				}
-				b = append(b, s...)
+				// Always quoted (RFC 4180 section 2.7): the reader keeps a
+				// column whose every cell is quoted as text, so "12" stays
+				// text and delimiters, quotes and line breaks read back.
+				b = appendQuoted(b, c.Text[i])
 			}
 		}
 		b = append(b, '\n')
@@ -453,4 +449,17 @@ func writeJSON(w *bufio.Writer, v any) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(v)
+}
+
+// appendQuoted writes s as an RFC 4180 quoted cell: in double quotes, each
+// quote inside written twice.
+func appendQuoted(b []byte, s string) []byte {
+	b = append(b, '"')
+	for i := 0; i < len(s); i++ {
+		if s[i] == '"' {
+			b = append(b, '"')
+		}
+		b = append(b, s[i])
+	}
+	return append(b, '"')
 }

@@ -317,12 +317,12 @@ func TestImportWidensToFloat64(t *testing.T) {
 // TestImportBadInputWritesNothing: a bad cell in the second pass leaves no
 // output and the input as it was.
 func TestImportBadInputWritesNothing(t *testing.T) {
-	text := "time [s],a\n0,1\n0.001,2\n0.002,zz\n"
+	text := "sampling rate: 1000 Hz\ntime [s],a\n0,1\n0.001,2\n0.002,zz\n"
 	p := writeTemp(t, "emg_a.csv", text)
 	out := filepath.Join(t.TempDir(), "x.h5")
 	_, err := ImportRecording(Inputs{EMG: []string{p}}, out, recfile.WriteOptions{})
 	pe := AsParseError(err)
-	if pe == nil || pe.Line != 4 || pe.Column != 2 {
+	if pe == nil || pe.Line != 5 || pe.Column != 2 {
 		t.Fatalf("%v", err)
 	}
 	if _, err := os.Stat(out); !os.IsNotExist(err) {

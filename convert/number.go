@@ -22,7 +22,37 @@ type number struct {
 	integer bool
 	// decimals is the number of digits written after the decimal point.
 	decimals int
+	// rng is not rangeOK when the cell is an infinity word or a number
+	// float64 cannot hold (v is then ±Inf or ±0).
+	rng rangeKind
 }
+
+// rangeKind says why a number cell does not hold a finite float64 of the
+// value written.
+type rangeKind uint8
+
+const (
+	rangeOK        rangeKind = iota
+	rangeInfinite            // "inf", "-Infinity" written out
+	rangeOverflow            // beyond ±1.8e308: reads as ±Inf
+	rangeUnderflow           // non-zero but below 4.9e-324: reads as 0
+)
+
+// String says what is wrong with the cell, in words for messages.
+func (r rangeKind) String() string {
+	switch r {
+	case rangeInfinite:
+		return "an infinity"
+	case rangeOverflow:
+		return "beyond the largest float64 (it would be stored as infinity)"
+	case rangeUnderflow:
+		return "a non-zero number below the smallest float64 (it would be stored as 0)"
+	}
+	return "in range"
+}
+
+// hintOutOfRange is the hint given with a refused out-of-range cell.
+const hintOutOfRange = "write a finite number (leave the cell empty when not known), or give --allow-out-of-range to store infinities and overflow as ±Inf and underflow as 0"
 
 // cellKind tells what a cell held.
 type cellKind uint8
@@ -108,6 +138,7 @@ func parseNumber(b []byte, comma bool) (number, cellKind) {
 	if !sawDigit {
 		if f, ok := infValue(b); ok {
 			n.v = f
+			n.rng = rangeInfinite
 			return n, cellNumber
 		}
 		return n, special(b)
@@ -167,6 +198,11 @@ func parseNumber(b []byte, comma bool) (number, cellKind) {
 		return n, cellNumber
 	}
 	n.v = slowParse(b, comma, 64)
+	if math.IsInf(n.v, 0) {
+		n.rng = rangeOverflow
+	} else if n.v == 0 {
+		n.rng = rangeUnderflow
+	}
 	return n, cellNumber
 }
 

@@ -57,6 +57,9 @@ type ProfileSignals struct {
 	RateHz       float64 `yaml:"rate_hz" json:"rate_hz"`
 	AllowGaps    bool    `yaml:"allow_gaps" json:"allow_gaps"`
 	DType        string  `yaml:"dtype" json:"dtype"`
+	// AllowOutOfRange stores infinity words and numbers beyond float64
+	// as ±Inf and non-zero numbers below it as 0 instead of refusing them.
+	AllowOutOfRange bool `yaml:"allow_out_of_range" json:"allow_out_of_range"`
 }
 
 // ProfileForce names the force and target columns of a force file.
@@ -198,7 +201,7 @@ func (p *Profile) signalOptions() SignalOptions {
 	return SignalOptions{
 		TextOptions: TextOptions{Delimiter: d, Header: p.Signals.Header, DecimalComma: p.Signals.DecimalComma},
 		TimeColumn:  p.Signals.TimeColumn, TimeUnit: p.Signals.TimeUnit, RateHz: p.Signals.RateHz,
-		AllowGaps: p.Signals.AllowGaps, DType: record.SampleType(p.Signals.DType),
+		AllowGaps: p.Signals.AllowGaps, DType: record.SampleType(p.Signals.DType), AllowOutOfRange: p.Signals.AllowOutOfRange,
 	}
 }
 

@@ -35,7 +35,7 @@ files:
   emg: "{trial}/{array}.txt"
   discharges: "{trial}/{array}-{decomposition}-spikes.txt"
   units: "{trial}/{array}-{decomposition}-quality.txt"
-signals: {delimiter: semicolon, decimal_comma: "yes"}
+signals: {delimiter: semicolon, decimal_comma: "yes", rate_hz: 1000}
 emg:
   skip: [Trigger]
   columns: {E03: R2C1}

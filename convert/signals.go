@@ -32,6 +32,16 @@ type SignalOptions struct {
 	Skip []string
 	// Rename maps column labels to the channel labels to store.
 	Rename map[string]string
+	// AllowOutOfRange stores infinity words ("inf", "-Infinity") and
+	// numbers beyond float64 as ±Inf and non-zero numbers below it as 0;
+	// without it such a cell is refused with its position.
+	AllowOutOfRange bool
+	// DefaultRateHz and DefaultStartS come from the metadata sidecar: the
+	// rate used when neither RateHz, a preamble line nor a time column
+	// gives one, and the start time of a file without a time column or a
+	// start line (NaN or 0 = not given).
+	DefaultRateHz float64
+	DefaultStartS float64
 }
 
 // Gap is a run of missing samples found in a time column.
@@ -91,10 +101,11 @@ type Signals struct {
 	// Notes says what was assumed and why.
 	Notes []string
 
-	lay  *layout
-	cols int
-	tcol int
-	skip []bool
+	lay        *layout
+	allowRange bool
+	cols       int
+	tcol       int
+	skip       []bool
 
 	forced             record.SampleType
 	lossy32, lossy64   int64
@@ -117,7 +128,7 @@ func ScanSignals(path string, opt SignalOptions) (*Signals, error) {
 	if err != nil {
 		return nil, err
 	}
-	s := &Signals{File: path, Dialect: lay.dialect, Meta: lay.meta, lay: lay, cols: lay.fields, tcol: -1}
+	s := &Signals{File: path, Dialect: lay.dialect, Meta: lay.meta, lay: lay, cols: lay.fields, tcol: -1, allowRange: opt.AllowOutOfRange}
 	s.Notes = append(s.Notes, lay.dialect.Why)
 	if lay.bom {
 		s.Notes = append(s.Notes, "UTF-8 byte order mark skipped")
@@ -246,87 +257,34 @@ func (s *Signals) columns(opt SignalOptions) error {
 }
 
 func (s *Signals) spec(mode blockMode, all32 bool) *blockSpec {
-	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32, skip: s.skip}
-}
-
-// timeTrack follows a time column row by row: order, gaps and a running
-// least-squares fit of time against grid index.
-type timeTrack struct {
-	file    string
-	col     int
-	nominal float64 // expected step in the time unit (0 = learn it)
-	allow   bool
-	n       int64
-	k       int64 // grid index of the next row
-	t0      float64
-	prev    float64
-	first   bool
-	// Welford sums for the fit of t against k.
-	mk, mt, ckt, ckk float64
-	gaps             []Gap
-}
-
-func (tt *timeTrack) add(t float64, line int) error {
-	if tt.n == 0 {
-		tt.t0, tt.prev = t, t
-		tt.push(0, 0)
-		tt.n, tt.k = 1, 1
-		return nil
-	}
-	d := t - tt.prev
-	if !(d > 0) {
-		return perr(tt.file, line, tt.col+1, "rows must be in time order with no repeats; if the time column is rounded coarser than the sampling step, read without it (--time-column none --rate R)", "time goes backwards or repeats (%g after %g)", t, tt.prev)
-	}
-	if tt.nominal == 0 {
-		tt.nominal = d
-	}
-	steps := int64(1)
-	if d > 1.5*tt.nominal {
-		steps = int64(math.Round(d / tt.nominal))
-		if !tt.allow {
-			return perr(tt.file, line, tt.col+1, "give --allow-gaps to fill missing samples with NaN", "gap in the time column: %g to %g, about %d samples missing", tt.prev, t, steps-1)
-		}
-		tt.gaps = append(tt.gaps, Gap{Row: tt.k, Missing: steps - 1, Line: line})
-	} else if d < 0.5*tt.nominal {
-		return perr(tt.file, line, tt.col+1, "samples must be evenly spaced; check the time column", "uneven time step: %g after a step of %g", d, tt.nominal)
-	}
-	tt.k += steps - 1
-	tt.push(float64(tt.k), t-tt.t0)
-	tt.k++
-	tt.n++
-	tt.prev = t
-	return nil
-}
-
-func (tt *timeTrack) push(k, t float64) {
-	n := float64(tt.n + 1)
-	dk := k - tt.mk
-	tt.mk += dk / n
-	tt.mt += (t - tt.mt) / n
-	tt.ckt += dk * (t - tt.mt)
-	tt.ckk += dk * (k - tt.mk)
-}
-
-// slope is the fitted step per sample in the time unit.
-func (tt *timeTrack) slope() float64 {
-	if tt.ckk == 0 {
-		return 0
-	}
-	return tt.ckt / tt.ckk
+	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32, skip: s.skip, allowRange: s.allowRange}
 }
 
 func (s *Signals) firstPass(opt SignalOptions) error {
 	rate, rateWhy := opt.RateHz, "as given"
 	if rate < 0 || math.IsNaN(rate) || math.IsInf(rate, 0) {
-		return perr(s.File, 0, 0, "give a positive rate in Hz", "rate %g not usable", rate)
+		return perr(s.File, 0, 0, "give --rate as a finite positive number of hertz", "--rate %g is not a usable sampling rate", rate)
 	}
 	if rate == 0 {
-		if v, line := metaRate(s.Meta); line > 0 {
-			if v <= 0 {
-				return perr(s.File, line, 0, "write the rate as a positive number in Hz", "sampling rate %q not usable", metaValue(s.Meta, rateKeys...))
-			}
+		v, line, err := metaRate(s.File, s.Meta)
+		if err != nil {
+			return err
+		}
+		if line > 0 {
 			rate, rateWhy = v, fmt.Sprintf("from the line %q above the table (line %d)", metaKeyOf(s.Meta, line)+": "+metaValue(s.Meta, rateKeys...), line)
 		}
+	}
+	startLine, startAt, err := metaStart(s.File, s.Meta)
+	if err != nil {
+		return err
+	}
+	defRate := opt.DefaultRateHz
+	if !(defRate > 0) || math.IsInf(defRate, 0) {
+		defRate = 0
+	}
+	timed := s.TimeUnit == "s" || s.TimeUnit == "ms"
+	if rate == 0 && defRate > 0 && !timed {
+		rate, rateWhy = defRate, "from the metadata (sampling_rate_hz)"
 	}
 	tt := &timeTrack{file: s.File, col: s.tcol, allow: opt.AllowGaps}
 	if s.TimeUnit == "samples" {
@@ -388,19 +346,35 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 			return perr(s.File, s.lay.headerLine, s.tcol+1, "give --rate in Hz (a sample-number column gives no rate)", "sampling rate not known")
 		}
 		s.StartS = 0
-		s.Notes = append(s.Notes, fmt.Sprintf("sample-number column starts at %g; that sample is taken as time 0 s", tt.t0))
+		if startAt > 0 {
+			s.StartS = startLine
+			s.Notes = append(s.Notes, fmt.Sprintf("sample-number column starts at %g; that sample is at %g s (start line %d)", tt.t0, startLine, startAt))
+		} else {
+			s.Notes = append(s.Notes, fmt.Sprintf("sample-number column starts at %g; that sample is taken as time 0 s", tt.t0))
+		}
 		s.TimeResolutionS = 1 / rate
 	case s.TimeUnit != "":
 		s.StartS = tt.t0 * scale
 		if s.Rows < 2 {
+			if rate == 0 && defRate > 0 {
+				rate, rateWhy = defRate, "from the metadata (sampling_rate_hz)"
+			}
 			if rate == 0 {
 				return perr(s.File, s.lay.firstRowLine, s.tcol+1, "give --rate in Hz", "one row only: the time column gives no rate")
 			}
 			break
 		}
 		step := tt.slope() * scale
-		if rate == 0 {
-			rate, rateWhy = snapRate(1/step, float64(s.Samples-1), s.TimeResolutionS)
+		if rate == 0 && defRate > 0 && tt.hull.fits(1/(defRate*scale), res) {
+			rate, rateWhy = defRate, fmt.Sprintf("from the metadata (sampling_rate_hz); each of the %d rows of the time column lies within half a written digit of its grid", s.Rows)
+		} else if rate == 0 && defRate > 0 {
+			return perr(s.File, s.lay.firstRowLine, s.tcol+1, "fix sampling_rate_hz in the metadata or the time column", "the metadata says %g Hz but the rows of the time column do not lie within half a written digit of that grid (they step %.9g s on average)", defRate, step)
+		} else if rate == 0 {
+			r, why, err := tt.fitRate(scale, res, s.Rows)
+			if err != nil {
+				return perr(s.File, s.lay.firstRowLine, s.tcol+1, rateChoices(err), "%v", err)
+			}
+			rate, rateWhy = r, why
 		} else {
 			// A rate given must agree with the time column to within half a
 			// step over the whole file.
@@ -414,11 +388,19 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 			return perr(s.File, s.lay.headerLine, 0, "give --rate in Hz, a time column, or a \"sampling rate: ... Hz\" line above the table", "sampling rate not known")
 		}
 		s.StartS = 0
-		if v, line := metaStart(s.Meta); line > 0 {
-			s.StartS = v
-		} else {
+		switch {
+		case startAt > 0:
+			s.StartS = startLine
+			s.Notes = append(s.Notes, fmt.Sprintf("first sample at %g s (start line %d)", startLine, startAt))
+		case opt.DefaultStartS != 0 && !math.IsNaN(opt.DefaultStartS):
+			s.StartS = opt.DefaultStartS
+			s.Notes = append(s.Notes, fmt.Sprintf("first sample at %g s (start_s in the metadata)", s.StartS))
+		default:
 			s.Notes = append(s.Notes, "no time column: first sample taken as time 0 s")
 		}
+	}
+	if timed && startAt > 0 && math.Abs(startLine-s.StartS) > 0.5/rate {
+		return perr(s.File, startAt, 0, "fix the start line or the time column", "the start line says %g s but the time column starts at %g s", startLine, s.StartS)
 	}
 	s.RateHz, s.RateWhy = rate, rateWhy
 	s.Notes = append(s.Notes, fmt.Sprintf("sampling rate %g Hz %s", rate, rateWhy))
@@ -487,19 +469,6 @@ func (s *Signals) Decide() error {
 	return nil
 }
 
-// snapRate rounds a rate estimated from a time column to the fewest decimals
-// that stay within half the time column's resolution over the whole file.
-func snapRate(est, span, res float64) (float64, string) {
-	for p := 0; p <= 6; p++ {
-		m := math.Pow(10, float64(p))
-		r := math.Round(est*m) / m
-		if r > 0 && math.Abs(1/r-1/est)*span <= res/2+1e-12 {
-			return r, fmt.Sprintf("derived from the time column (mean step %.9g s, %.9g Hz; the nearest rate with %d decimals fits every row to the digits written)", 1/est, est, p)
-		}
-	}
-	return est, fmt.Sprintf("derived from the time column (mean step %.9g s)", 1/est)
-}
-
 func (s *Signals) decideType(forced record.SampleType) {
 	switch forced {
 	case record.Float32:
@@ -526,134 +495,4 @@ func (s *Signals) decideType(forced record.SampleType) {
 		s.LossyCells, s.MaxAbsError = s.lossy64, s.maxErr64
 		s.DTypeWhy += fmt.Sprintf("; %d cells have more digits than float64 holds (first at line %d, column %d), largest error about %.3g", s.lossy64, s.first64.Line, s.first64.Column, s.maxErr64)
 	}
-}
-
-var rateKeys = []string{"sampling rate", "sampling_rate", "sampling rate hz", "sampling_rate_hz", "sample rate", "sample_rate", "rate", "fs", "sampling frequency", "sampling_frequency", "srate"}
-
-func normKey(k string) string {
-	l, _, _ := splitLabelUnit(k)
-	return strings.ToLower(strings.TrimSpace(l))
-}
-
-func metaValue(meta []MetaLine, keys ...string) string {
-	for _, m := range meta {
-		nk := normKey(m.Key)
-		for _, k := range keys {
-			if nk == k {
-				return m.Value
-			}
-		}
-	}
-	return ""
-}
-
-func metaLineOf(meta []MetaLine, keys ...string) int {
-	for _, m := range meta {
-		nk := normKey(m.Key)
-		for _, k := range keys {
-			if nk == k {
-				return m.Line
-			}
-		}
-	}
-	return 0
-}
-
-// metaRate reads a "sampling rate: 2048 Hz" line; line 0 when there is none.
-func metaRate(meta []MetaLine) (float64, int) {
-	line := metaLineOf(meta, rateKeys...)
-	if line == 0 {
-		return 0, 0
-	}
-	v := strings.TrimSpace(metaValue(meta, rateKeys...))
-	v = strings.TrimSpace(strings.TrimSuffix(strings.TrimSuffix(v, "Hz"), "hz"))
-	f, err := strconv.ParseFloat(v, 64)
-	if err != nil {
-		return -1, line
-	}
-	return f, line
-}
-
-var startKeys = []string{"start", "start_s", "start time", "start_time", "start time s"}
-
-func metaStart(meta []MetaLine) (float64, int) {
-	line := metaLineOf(meta, startKeys...)
-	if line == 0 {
-		return 0, 0
-	}
-	v := strings.TrimSpace(strings.TrimSuffix(metaValue(meta, startKeys...), "s"))
-	f, err := strconv.ParseFloat(v, 64)
-	if err != nil {
-		return 0, 0
-	}
-	return f, line
-}
-
-// MetaExtra turns the "key: value" lines into metadata fields: keys in
-// snake_case, numbers as int64 or float64 when the value is one, else text.
-// The keys the reader used itself (rate, start, unit) are left out.
-func MetaExtra(meta []MetaLine) record.Extra {
-	if len(meta) == 0 {
-		return nil
-	}
-	used := map[string]bool{"unit": true, "units": true}
-	for _, k := range rateKeys {
-		used[k] = true
-	}
-	for _, k := range startKeys {
-		used[k] = true
-	}
-	ex := record.Extra{}
-	for _, m := range meta {
-		if used[normKey(m.Key)] {
-			continue
-		}
-		ex[snakeKey(m.Key)] = metaScalar(m.Value)
-	}
-	if len(ex) == 0 {
-		return nil
-	}
-	return ex
-}
-
-func metaScalar(v string) any {
-	if i, err := strconv.ParseInt(v, 10, 64); err == nil {
-		return i
-	}
-	if f, err := strconv.ParseFloat(v, 64); err == nil && !math.IsInf(f, 0) && !math.IsNaN(f) {
-		return f
-	}
-	switch strings.ToLower(v) {
-	case "true", "yes":
-		return true
-	case "false", "no":
-		return false
-	}
-	return v
-}
-
-// snakeKey makes an attribute name: lower case, runs of other characters
-// turned into one '_' ("Amplifier Gain [V/V]" -> "amplifier_gain_v_v").
-func snakeKey(k string) string {
-	var b strings.Builder
-	us := false
-	for _, r := range strings.ToLower(strings.TrimSpace(k)) {
-		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
-			b.WriteRune(r)
-			us = false
-		} else if !us && b.Len() > 0 {
-			b.WriteByte('_')
-			us = true
-		}
-	}
-	return strings.TrimSuffix(b.String(), "_")
-}
-
-func metaKeyOf(meta []MetaLine, line int) string {
-	for _, m := range meta {
-		if m.Line == line {
-			return m.Key
-		}
-	}
-	return ""
 }

@@ -75,7 +75,15 @@ func TestSemicolonDecimalCommaBOMCRLF(t *testing.T) {
 func same(a, b float64) bool { return a == b || math.IsNaN(a) && math.IsNaN(b) }
 
 func TestForceMillisecondsRateDerived(t *testing.T) {
-	s, err := ScanSignals(td+"force_ms.csv", SignalOptions{})
+	// Four rows 0.5 ms apart written to 0.1 ms: every rate from 1936 to
+	// 2068 Hz puts row 3 (1.5 ms) within 0.05 ms of 3000/r ms (worked by
+	// hand: 3000/1.55 = 1935.5, 3000/1.45 = 2068.9), so the rows do not
+	// decide.
+	_, err := ScanSignals(td+"force_ms.csv", SignalOptions{})
+	if pe := AsParseError(err); pe == nil || !strings.Contains(pe.Msg, "every rate from 1936 to 2068 Hz fits the 4 rows") || !strings.Contains(pe.Hint, "--rate") {
+		t.Fatalf("got %v", err)
+	}
+	s, err := ScanSignals(td+"force_ms.csv", SignalOptions{DefaultRateHz: 2000})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -134,7 +142,7 @@ func TestGaps(t *testing.T) {
 	if pe == nil || pe.Line != 5 || pe.Column != 1 || !strings.Contains(pe.Hint, "--allow-gaps") {
 		t.Fatalf("got %v", err)
 	}
-	s, err := ScanSignals(td+"emg_gap.csv", SignalOptions{AllowGaps: true})
+	s, err := ScanSignals(td+"emg_gap.csv", SignalOptions{AllowGaps: true, RateHz: 1000})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -165,9 +173,9 @@ func TestSignalErrors(t *testing.T) {
 		line, col  int
 		msg        string
 	}{
-		{"ragged", "time [s],a,b\n0,1,2\n0.001,1\n", SignalOptions{}, 3, 2, "2 fields, expected 3"},
-		{"long", "time [s],a,b\n0,1,2\n0.001,1,2,3\n", SignalOptions{}, 3, 4, "more than 3"},
-		{"text", "time [s],a,b\n0,1,2\n0.001,1,abc\n", SignalOptions{}, 3, 3, `text "abc"`},
+		{"ragged", "time [s],a,b\n0,1,2\n0.001,1\n", SignalOptions{RateHz: 1000}, 3, 2, "2 fields, expected 3"},
+		{"long", "time [s],a,b\n0,1,2\n0.001,1,2,3\n", SignalOptions{RateHz: 1000}, 3, 4, "more than 3"},
+		{"text", "time [s],a,b\n0,1,2\n0.001,1,abc\n", SignalOptions{RateHz: 1000}, 3, 3, `text "abc"`},
 		{"unit", "time [s],a [furlong],b\n0,1,2\n", SignalOptions{}, 1, 2, "not a UCUM unit"},
 		{"backwards", "time [s],a\n0,1\n0.002,1\n0.001,1\n", SignalOptions{}, 4, 1, "backwards"},
 		{"repeat", "time [s],a\n0,1\n0.001,1\n0.001,1\n", SignalOptions{}, 4, 1, "repeats"},

@@ -149,40 +149,12 @@ func metaLine(l []byte) (key, value string, ok bool) {
 	return string(trimBlank(l[:k])), string(trimBlank(l[k+1:])), true
 }
 
-// splitFields splits one line into trimmed cells; quotes around a cell are
-// removed. For d == ' ' runs of blanks separate cells.
+// splitFields splits one line into cells (RFC 4180 quoting, see
+// splitRecords) for detection; a line that does not split cleanly gives
+// what it split into before the problem.
 func splitFields(l []byte, d byte) [][]byte {
-	if d == ' ' {
-		return bytes.Fields(l)
-	}
-	var out [][]byte
-	for {
-		var cell []byte
-		if t := trimBlank(l); len(t) > 0 && t[0] == '"' {
-			// A quoted cell may hold the delimiter.
-			start := bytes.IndexByte(l, '"')
-			end := bytes.IndexByte(l[start+1:], '"')
-			if end >= 0 {
-				end += start + 1
-				cell = l[start+1 : end]
-				rest := l[end+1:]
-				i := bytes.IndexByte(rest, d)
-				out = append(out, cell)
-				if i < 0 {
-					return out
-				}
-				l = rest[i+1:]
-				continue
-			}
-		}
-		i := bytes.IndexByte(l, d)
-		if i < 0 {
-			out = append(out, trimBlank(l))
-			return out
-		}
-		out = append(out, trimBlank(l[:i]))
-		l = l[i+1:]
-	}
+	cells, _ := splitLine(l, d)
+	return cells
 }
 
 // readLayout reads the start of a file: BOM, comments, the "key: value"
@@ -289,7 +261,14 @@ func (lay *layout) scan(buf []byte, whole bool, opt TextOptions) error {
 	if d.DecimalComma && d.Delimiter == ',' {
 		return perr(lay.file, table[0].line, 0, "give --delimiter semicolon or tab for files with a decimal comma", "a decimal comma cannot be read with a comma delimiter")
 	}
-	first := splitFields(lines[0], d.Delimiter)
+	first, err := splitLine(lines[0], d.Delimiter)
+	if pe := AsParseError(err); pe != nil {
+		pe.File, pe.Line = lay.file, table[0].line
+		if pe.Hint == "" {
+			pe.Hint = "keep the header on one line"
+		}
+		return pe
+	}
 	lay.fields = len(first)
 	switch opt.Header {
 	case "yes":
@@ -383,6 +362,10 @@ func isDigit(c byte) bool { return c >= '0' && c <= '9' }
 type textRow struct {
 	line  int
 	cells [][]byte
+	// quoted says, per cell, whether it was written in double quotes; raw
+	// is each cell as written (unquoted cells keep their blanks).
+	quoted []bool
+	raw    [][]byte
 }
 
 // readRows reads the whole body of a (small) table into memory: discharge
@@ -395,24 +378,12 @@ func readRows(lay *layout) ([]textRow, error) {
 	if int64(len(data)) < lay.bodyOffset {
 		return nil, perr(lay.file, 0, 0, "the file must not change while it is read", "file shrank while reading")
 	}
-	body := data[lay.bodyOffset:]
 	var rows []textRow
-	line := lay.bodyLine
-	for len(body) > 0 {
-		nl := bytes.IndexByte(body, '\n')
-		var l []byte
-		if nl < 0 {
-			l, body = body, nil
-		} else {
-			l, body = body[:nl], body[nl+1:]
-		}
-		t := trimLine(l, lay.dialect.Delimiter)
-		if len(trimBlank(t)) > 0 && !isComment(trimBlank(t)) {
-			rows = append(rows, textRow{line, splitFields(t, lay.dialect.Delimiter)})
-		}
-		line++
-	}
-	return rows, nil
+	err = splitRecords(lay.file, data[lay.bodyOffset:], lay.dialect.Delimiter, lay.bodyLine, func(r textRow) error {
+		rows = append(rows, r)
+		return nil
+	})
+	return rows, err
 }
 
 // eachRow streams the table rows of a file to fn without keeping them: the
@@ -442,7 +413,12 @@ func eachRow(lay *layout, fn func(line int, cells [][]byte) error) error {
 		if len(l) > 0 {
 			t := trimLine(bytes.TrimSuffix(l, []byte{'\n'}), lay.dialect.Delimiter)
 			if bt := trimBlank(t); len(bt) > 0 && !isComment(bt) {
-				if ferr := fn(line, splitFields(t, lay.dialect.Delimiter)); ferr != nil {
+				cells, serr := splitLine(t, lay.dialect.Delimiter)
+				if pe := AsParseError(serr); pe != nil {
+					pe.File, pe.Line = lay.file, line
+					return pe
+				}
+				if ferr := fn(line, cells); ferr != nil {
 					return ferr
 				}
 			}
@@ -469,7 +445,7 @@ func headRows(lay *layout, n int) (rows []textRow, complete bool, err error) {
 		for i, c := range cells {
 			cp[i] = append([]byte(nil), c...)
 		}
-		rows = append(rows, textRow{line, cp})
+		rows = append(rows, textRow{line: line, cells: cp})
 		return nil
 	})
 	if err == errStop {

@@ -68,6 +68,9 @@ type UnitTableOptions struct {
 	// Columns maps header labels (as written, without the unit) to layout
 	// fields; it comes first, before the built-in spellings.
 	Columns map[string]string
+	// AllowOutOfRange stores infinity words and numbers beyond float64 as
+	// ±Inf (underflow as 0) instead of refusing the cell.
+	AllowOutOfRange bool
 }
 
 // UnitTable is a unit table read into units and extra columns.
@@ -150,8 +153,19 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 	extraVals = make([][]float64, len(extraIdx))
 	extraText = make([][]string, len(extraIdx))
 	numeric := make([]bool, len(extraIdx))
+	quotedAll := make([]bool, len(extraIdx))
+	filled := make([]bool, len(extraIdx))
+	rangeErr := make([]error, len(extraIdx))
 	for k := range numeric {
-		numeric[k] = true
+		numeric[k], quotedAll[k] = true, true
+	}
+	idQuoted := false
+	// checkRange refuses a number float64 does not hold unless allowed.
+	checkRange := func(n number, line, col int, cell []byte) error {
+		if n.rng != rangeOK && !opt.AllowOutOfRange {
+			return perr(path, line, col, hintOutOfRange, "%q is %s", clip(cell), n.rng)
+		}
+		return nil
 	}
 	for _, r := range rows {
 		if len(r.cells) != len(fields) {
@@ -165,6 +179,7 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 			return nil, perr(path, r.line, idCol+1, "each unit id may appear once", "duplicate unit id %d (first on line %d)", id, l)
 		}
 		seen[id] = r.line
+		idQuoted = idQuoted || r.quoted[idCol]
 		u := record.NewUnit(id)
 		for i, f := range fields {
 			if f == "" || f == FieldID {
@@ -173,6 +188,9 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 			n, k := parseNumber(r.cells[i], lay.dialect.DecimalComma)
 			if k == cellText {
 				return nil, perr(path, r.line, i+1, "write a number, or leave the cell empty when not known", "text %q in a numeric cell", clip(r.cells[i]))
+			}
+			if err := checkRange(n, r.line, i+1, r.cells[i]); err != nil {
+				return nil, err
 			}
 			v := n.v
 			if k != cellNumber {
@@ -185,13 +203,19 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 			n, kind := parseNumber(c, lay.dialect.DecimalComma)
 			if kind == cellText {
 				numeric[k] = false
+			} else if err := checkRange(n, r.line, i+1, c); err != nil && rangeErr[k] == nil {
+				rangeErr[k] = err // refused only if the column stays numeric
+			}
+			if len(c) > 0 || r.quoted[i] {
+				filled[k] = true
+				quotedAll[k] = quotedAll[k] && r.quoted[i]
 			}
 			v := n.v
 			if kind != cellNumber {
 				v = math.NaN()
 			}
 			extraVals[k] = append(extraVals[k], v)
-			extraText[k] = append(extraText[k], string(c))
+			extraText[k] = append(extraText[k], string(r.raw[i]))
 		}
 		ut.Units = append(ut.Units, u)
 	}
@@ -207,6 +231,15 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 		}
 		names[name] = true
 		col := record.Column{Name: name, Unit: units[i]}
+		if numeric[k] && filled[k] && quotedAll[k] && !idQuoted {
+			// Every cell quoted where the ids are not: the writer marked
+			// the column as text (as muarc export and R's write.csv do).
+			numeric[k] = false
+			ut.Notes = append(ut.Notes, fmt.Sprintf("column %q kept as text: every cell is quoted", lay.header[i]))
+		}
+		if numeric[k] && rangeErr[k] != nil {
+			return nil, rangeErr[k]
+		}
 		if numeric[k] {
 			col.Values = extraVals[k]
 		} else {

@@ -20,7 +20,7 @@ import (
 type importFlags struct {
 	meta, profile, out, dtype, shard, shardReport string
 	force, emg, dis, units                        []string
-	overwrite, json, allowGaps                    bool
+	overwrite, json, allowGaps, allowRange        bool
 	rate                                          float64
 	workers                                       int
 	// Reading overrides (take precedence over the profile).
@@ -68,6 +68,7 @@ file is which and how to read it.`,
 	f.StringVar(&fl.dtype, "dtype", "", "force the EMG sample type: float32 or float64")
 	f.Float64Var(&fl.rate, "rate", 0, "sampling rate in Hz for signal files without a time column")
 	f.BoolVar(&fl.allowGaps, "allow-gaps", false, "accept gaps in time columns (missing samples become NaN)")
+	f.BoolVar(&fl.allowRange, "allow-out-of-range", false, "store inf/-Infinity cells and numbers beyond float64 as ±Inf, and non-zero numbers below it as 0 (default: refuse them)")
 	f.StringVar(&fl.shard, "shard", "", "study form: import only part i of n (i/n)")
 	f.StringVar(&fl.shardReport, "shard-report", "", "study form: also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.IntVar(&fl.workers, "workers", 0, "study form: recordings imported at once (0 = one per core)")
@@ -312,6 +313,7 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 	default:
 		return fmt.Errorf("--first-index %d: want 0 or 1", fl.firstIndex)
 	}
+	p.Signals.AllowOutOfRange = p.Signals.AllowOutOfRange || fl.allowRange
 	if fl.tolerance < 0 {
 		return fmt.Errorf("--tolerance %g: want a positive number of samples", fl.tolerance)
 	}
