@@ -10,7 +10,7 @@ DEMO    ?= demo-out
 # references the tests check against (h5dump, h5py, jsonschema, numpy/scipy,
 # pandas, headless Chromium for the report).
 DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
-	python3-jsonschema python3-numpy python3-scipy python3-pandas chromium
+	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium
 
 .PHONY: all deps build demo test bench fuzz vet clean
 

@@ -4,6 +4,8 @@ go 1.26
 
 require github.com/spf13/cobra v1.10.2
 
+require go.yaml.in/yaml/v3 v3.0.6
+
 require (
 	codeberg.org/go-fonts/liberation v0.5.0 // indirect
 	codeberg.org/go-latex/latex v0.2.0 // indirect
@@ -20,5 +22,4 @@ require (
 	golang.org/x/text v0.28.0 // indirect
 	gonum.org/v1/hdf5 v0.0.0-20210714002203-8c5d23bc6946
 	gonum.org/v1/plot v0.17.0
-	gopkg.in/yaml.v3 v3.0.1
 )

@@ -1,18 +1,14 @@
 package convert
 
 import (
-	"bytes"
 	_ "embed"
-	"encoding/json"
+	"errors"
 	"fmt"
-	"os"
-	"path/filepath"
 	"regexp"
 	"sort"
 	"strings"
 
-	"gopkg.in/yaml.v3"
-
+	"muarc/internal/docload"
 	"muarc/record"
 )
 
@@ -122,7 +118,7 @@ func DefaultProfile() *Profile {
 // LoadProfile reads a profile from YAML or JSON (by the file name's
 // extension). Members left out take the built-in profile's values.
 func LoadProfile(path string) (*Profile, error) {
-	data, err := os.ReadFile(path)
+	data, err := docload.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
@@ -136,22 +132,12 @@ func LoadProfile(path string) (*Profile, error) {
 
 func parseProfile(data []byte, path string) (*Profile, error) {
 	p := &Profile{}
-	if strings.EqualFold(filepath.Ext(path), ".json") {
-		dec := json.NewDecoder(bytes.NewReader(data))
-		dec.DisallowUnknownFields()
-		if err := dec.Decode(p); err != nil {
-			line := 0
-			if se, ok := err.(*json.SyntaxError); ok {
-				line, _ = offsetLine(data, int(se.Offset))
-			}
-			return nil, &ParseError{File: path, Line: line, Msg: "profile: " + err.Error(), Hint: "see convert/PROFILES.md for the members"}
+	if err := docload.Decode(path, data, p); err != nil {
+		var de *docload.Error
+		if errors.As(err, &de) {
+			return nil, &ParseError{File: path, Line: de.Line, Column: de.Column, Msg: "profile: " + de.Msg, Hint: "see convert/PROFILES.md for the members"}
 		}
-	} else {
-		dec := yaml.NewDecoder(bytes.NewReader(data))
-		dec.KnownFields(true)
-		if err := dec.Decode(p); err != nil {
-			return nil, &ParseError{File: path, Line: yamlErrLine(err), Msg: "profile: " + err.Error(), Hint: "see convert/PROFILES.md for the members"}
-		}
+		return nil, err
 	}
 	def := Profile{Files: ProfileFiles{Metadata: "metadata.json", Force: "{trial}/force.csv", EMG: "{trial}/emg_{array}.csv",
 		Discharges: "{trial}/discharges_{array}_{decomposition}.csv", Units: "{trial}/units_{array}_{decomposition}.csv"}}

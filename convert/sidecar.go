@@ -1,19 +1,14 @@
 package convert
 
 import (
-	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
-	"io"
 	"math"
-	"os"
-	"path/filepath"
 	"sort"
-	"strconv"
 	"strings"
 
-	"gopkg.in/yaml.v3"
-
+	"muarc/internal/docload"
 	"muarc/record"
 	"muarc/validate"
 )
@@ -59,32 +54,22 @@ func (e *SidecarError) Unwrap() []error {
 // JSON Schema (schema/recording.schema.json). Its format is JSON when the
 // file name ends in .json, else YAML.
 func ReadSidecar(path string) (*Sidecar, error) {
-	data, err := os.ReadFile(path)
+	data, err := docload.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
-	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
-	sc := &Sidecar{File: path, lines: map[string][2]int{}}
-	var v any
-	if strings.EqualFold(filepath.Ext(path), ".json") {
-		v, err = decodeJSONLines(data, sc.lines)
-		if err != nil {
-			line, col := offsetLine(data, jsonErrOffset(err, len(data)))
-			return nil, &ParseError{File: path, Line: line, Column: col, Msg: "not valid JSON: " + err.Error(), Hint: "check brackets, commas and quotes near this place"}
+	sc := &Sidecar{File: path}
+	v, places, err := docload.Tree(path, data)
+	if err != nil {
+		var de *docload.Error
+		if errors.As(err, &de) {
+			return nil, &ParseError{File: path, Line: de.Line, Column: de.Column, Msg: de.Msg, Hint: de.Hint}
 		}
-	} else {
-		var root yaml.Node
-		if err := yaml.Unmarshal(data, &root); err != nil {
-			return nil, &ParseError{File: path, Line: yamlErrLine(err), Msg: "not valid YAML: " + err.Error(), Hint: "check the indentation near this line"}
-		}
-		if len(root.Content) == 0 {
-			return nil, perr(path, 1, 0, "write study, subject, session and trials", "empty metadata file")
-		}
-		budget := 1 << 16
-		v, err = yamlValue(root.Content[0], "", sc.lines, &budget)
-		if err != nil {
-			return nil, &ParseError{File: path, Msg: err.Error(), Hint: "write plain values: text, numbers, true/false, lists and maps"}
-		}
+		return nil, err
+	}
+	sc.lines = places
+	if v == nil {
+		return nil, perr(path, 1, 0, "write study, subject, session and trials", "empty metadata file")
 	}
 	m, ok := v.(map[string]any)
 	if !ok {
@@ -132,203 +117,6 @@ func (sc *Sidecar) Where(ptr string) (int, int) {
 		}
 		ptr = ptr[:i]
 	}
-}
-
-func escapePtr(s string) string {
-	return strings.ReplaceAll(strings.ReplaceAll(s, "~", "~0"), "/", "~1")
-}
-
-// yamlValue turns a YAML node into plain values (strings, int64, float64,
-// bool, nil, []any, map[string]any), recording each node's line.
-func yamlValue(n *yaml.Node, ptr string, lines map[string][2]int, budget *int) (any, error) {
-	// Aliases may repeat (or contain) a node; a budget of nodes keeps an
-	// alias bomb or a cycle from running away.
-	if *budget--; *budget < 0 {
-		return nil, fmt.Errorf("line %d: too many values (aliases repeat nodes too often)", n.Line)
-	}
-	lines[ptr] = [2]int{n.Line, n.Column}
-	switch n.Kind {
-	case yaml.DocumentNode:
-		if len(n.Content) == 0 {
-			return nil, nil
-		}
-		return yamlValue(n.Content[0], ptr, lines, budget)
-	case yaml.AliasNode:
-		return yamlValue(n.Alias, ptr, lines, budget)
-	case yaml.MappingNode:
-		m := map[string]any{}
-		for i := 0; i+1 < len(n.Content); i += 2 {
-			k := n.Content[i].Value
-			if _, dup := m[k]; dup {
-				return nil, fmt.Errorf("line %d: key %q given twice", n.Content[i].Line, k)
-			}
-			v, err := yamlValue(n.Content[i+1], ptr+"/"+escapePtr(k), lines, budget)
-			if err != nil {
-				return nil, err
-			}
-			m[k] = v
-		}
-		return m, nil
-	case yaml.SequenceNode:
-		out := make([]any, 0, len(n.Content))
-		for i, c := range n.Content {
-			v, err := yamlValue(c, ptr+"/"+strconv.Itoa(i), lines, budget)
-			if err != nil {
-				return nil, err
-			}
-			out = append(out, v)
-		}
-		return out, nil
-	case yaml.ScalarNode:
-		switch n.ShortTag() {
-		case "!!int":
-			if i, err := strconv.ParseInt(strings.ReplaceAll(n.Value, "_", ""), 0, 64); err == nil {
-				return i, nil
-			}
-			var f float64
-			if err := n.Decode(&f); err == nil {
-				return f, nil
-			}
-		case "!!float":
-			var f float64
-			if err := n.Decode(&f); err != nil {
-				return nil, fmt.Errorf("line %d: %v", n.Line, err)
-			}
-			if math.IsNaN(f) || math.IsInf(f, 0) {
-				return nil, fmt.Errorf("line %d: %s is not a finite number; leave unknown values out", n.Line, n.Value)
-			}
-			return f, nil
-		case "!!bool":
-			var b bool
-			if err := n.Decode(&b); err == nil {
-				return b, nil
-			}
-		case "!!null":
-			return nil, nil
-		}
-		// Strings, and timestamps kept as the text written.
-		return n.Value, nil
-	}
-	return nil, fmt.Errorf("line %d: unsupported YAML node", n.Line)
-}
-
-// decodeJSONLines decodes JSON with integers kept as int64, recording the
-// line of every value.
-func decodeJSONLines(data []byte, lines map[string][2]int) (any, error) {
-	dec := json.NewDecoder(bytes.NewReader(data))
-	dec.UseNumber()
-	v, err := jsonValue(dec, data, "", lines)
-	if err != nil {
-		return nil, err
-	}
-	if _, err := dec.Token(); err != io.EOF {
-		return nil, fmt.Errorf("text after the end of the JSON value")
-	}
-	return v, nil
-}
-
-func jsonValue(dec *json.Decoder, data []byte, ptr string, lines map[string][2]int) (any, error) {
-	off := skipJSONSpace(data, int(dec.InputOffset()))
-	line, col := offsetLine(data, off)
-	lines[ptr] = [2]int{line, col}
-	tok, err := dec.Token()
-	if err != nil {
-		return nil, err
-	}
-	switch t := tok.(type) {
-	case json.Delim:
-		switch t {
-		case '{':
-			m := map[string]any{}
-			for dec.More() {
-				kt, err := dec.Token()
-				if err != nil {
-					return nil, err
-				}
-				k, _ := kt.(string)
-				if _, dup := m[k]; dup {
-					return nil, fmt.Errorf("key %q given twice", k)
-				}
-				v, err := jsonValue(dec, data, ptr+"/"+escapePtr(k), lines)
-				if err != nil {
-					return nil, err
-				}
-				m[k] = v
-			}
-			if _, err := dec.Token(); err != nil {
-				return nil, err
-			}
-			return m, nil
-		case '[':
-			out := []any{}
-			for i := 0; dec.More(); i++ {
-				v, err := jsonValue(dec, data, ptr+"/"+strconv.Itoa(i), lines)
-				if err != nil {
-					return nil, err
-				}
-				out = append(out, v)
-			}
-			if _, err := dec.Token(); err != nil {
-				return nil, err
-			}
-			return out, nil
-		}
-	case json.Number:
-		if i, err := t.Int64(); err == nil {
-			return i, nil
-		}
-		f, err := t.Float64()
-		if err != nil {
-			return nil, err
-		}
-		return f, nil
-	}
-	return tok, nil
-}
-
-// skipJSONSpace moves past blanks, ':' and ',' to the start of a value.
-func skipJSONSpace(data []byte, off int) int {
-	for off < len(data) {
-		switch data[off] {
-		case ' ', '\t', '\r', '\n', ':', ',':
-			off++
-		default:
-			return off
-		}
-	}
-	return off
-}
-
-// offsetLine gives the 1-based line and column of a byte offset.
-func offsetLine(data []byte, off int) (int, int) {
-	off = min(max(off, 0), len(data))
-	line := 1 + bytes.Count(data[:off], []byte{'\n'})
-	col := off - bytes.LastIndexByte(data[:off], '\n')
-	return line, col
-}
-
-func jsonErrOffset(err error, n int) int {
-	if se, ok := err.(*json.SyntaxError); ok {
-		return int(se.Offset)
-	}
-	if ue, ok := err.(*json.UnmarshalTypeError); ok {
-		return int(ue.Offset)
-	}
-	return n
-}
-
-func yamlErrLine(err error) int {
-	s := err.Error()
-	if i := strings.Index(s, "line "); i >= 0 {
-		j := i + 5
-		for j < len(s) && s[j] >= '0' && s[j] <= '9' {
-			j++
-		}
-		if n, err := strconv.Atoi(s[i+5 : j]); err == nil {
-			return n
-		}
-	}
-	return 0
 }
 
 // Apply copies the sidecar's metadata into rec: study, subject, session,

@@ -153,7 +153,7 @@ func TestApplyDefault(t *testing.T) {
 }
 
 func TestApplyUnlistedReported(t *testing.T) {
-	pol, err := ParsePolicy([]byte(`{"name":"tiny","fields":{"subject.id":"pseudonymize","trials[].name":"keep","trials[].arrays[].name":"keep","trials[].arrays[].decompositions[].name":"keep"}}`), "tiny")
+	pol, err := ParsePolicy([]byte(`{"name":"tiny","fields":{"subject.id":"pseudonymize","trials[].name":"keep","trials[].arrays[].name":"keep","trials[].arrays[].decompositions[].name":"keep"}}`), "tiny.json")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -179,7 +179,7 @@ func TestApplyRefusesLeakyKeptField(t *testing.T) {
 	if err == nil || !strings.Contains(err.Error(), "trials[0].name") || strings.Contains(err.Error(), "Quarnstrom") {
 		t.Fatalf("kept trial name with the subject's name: %v", err)
 	}
-	pol, _ := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].name":"pseudonymize"}}`), "p")
+	pol, _ := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].name":"pseudonymize"}}`), "p.json")
 	res, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)})
 	if err != nil {
 		t.Fatal(err)
@@ -193,7 +193,7 @@ func TestApplyRefusesLeakyKeptField(t *testing.T) {
 		t.Fatalf("kept unit column with the operator's name: %v", err)
 	}
 	in = identifiable()
-	pol, _ = ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"provenance.history[].details":"keep"}}`), "p")
+	pol, _ = ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"provenance.history[].details":"keep"}}`), "p.json")
 	if _, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)}); err == nil || !strings.Contains(err.Error(), "provenance.history[0].details") {
 		t.Fatalf("absolute path kept: %v", err)
 	}
@@ -220,7 +220,7 @@ func TestApplyOver89(t *testing.T) {
 }
 
 func TestApplyScrubAndYear(t *testing.T) {
-	pol, err := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].notes":"scrub","session.date":"year","trials[].arrays[].decompositions[].units[].extra.rater":"drop"}}`), "p")
+	pol, err := ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].notes":"scrub","session.date":"year","trials[].arrays[].decompositions[].units[].extra.rater":"drop"}}`), "p.json")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,19 +1,16 @@
 package deid
 
 import (
-	"bytes"
 	"crypto/sha256"
 	_ "embed"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
-	"io"
-	"os"
 	"sort"
 	"strings"
 
-	"gopkg.in/yaml.v3"
+	"muarc/internal/docload"
 )
 
 // Action is what a policy does to one metadata field.
@@ -87,7 +84,7 @@ type Policy struct {
 
 // Default returns the built-in policy.
 func Default() *Policy {
-	p, err := ParsePolicy(defaultPolicyJSON, "built-in policy")
+	p, err := ParsePolicy(defaultPolicyJSON, "default_policy.json")
 	if err != nil {
 		panic("deid: built-in policy: " + err.Error()) // a build defect, caught by tests
 	}
@@ -96,40 +93,24 @@ func Default() *Policy {
 
 // LoadPolicy reads a policy file (YAML or JSON).
 func LoadPolicy(path string) (*Policy, error) {
-	b, err := os.ReadFile(path)
+	b, err := docload.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
 	return ParsePolicy(b, path)
 }
 
-// ParsePolicy parses a policy, JSON when the text starts with "{", else
-// YAML, and checks every path and action; name is used in error messages.
-// Errors give the line (and for JSON the column).
+// ParsePolicy parses a policy read from the file name (JSON when it ends
+// in .json, YAML when in .yaml or .yml, as every muarc document) and checks
+// every path and action. Errors give the file, line and column.
 func ParsePolicy(data []byte, name string) (*Policy, error) {
 	var p Policy
-	if t := bytes.TrimSpace(data); len(t) > 0 && t[0] == '{' {
-		dec := json.NewDecoder(bytes.NewReader(data))
-		dec.DisallowUnknownFields()
-		if err := dec.Decode(&p); err != nil {
-			return nil, jsonPosError(name, data, dec.InputOffset(), err)
+	if err := docload.Decode(name, data, &p); err != nil {
+		var de *docload.Error
+		if errors.As(err, &de) && de.Hint == "" {
+			de.Hint = "a policy has \"name\" and \"fields\"; see deid/POLICY.md"
 		}
-		if dec.More() {
-			return nil, fmt.Errorf("%s: more than one JSON value; a policy is one object", name)
-		}
-	} else {
-		dec := yaml.NewDecoder(bytes.NewReader(data))
-		dec.KnownFields(true)
-		if err := dec.Decode(&p); err != nil {
-			if errors.Is(err, io.EOF) {
-				return nil, fmt.Errorf("%s: empty policy (a policy has \"name\" and \"fields\"; see deid/POLICY.md)", name)
-			}
-			return nil, fmt.Errorf("%s: %v (a policy has \"name\" and \"fields\"; see deid/POLICY.md)", name, strings.TrimPrefix(err.Error(), "yaml: "))
-		}
-		var extra yaml.Node
-		if err := dec.Decode(&extra); !errors.Is(err, io.EOF) {
-			return nil, fmt.Errorf("%s: more than one YAML document; a policy is one", name)
-		}
+		return nil, err
 	}
 	if p.Base != "" {
 		if p.Base != DefaultPolicyName {
@@ -202,31 +183,6 @@ func ParsePolicy(data []byte, name string) (*Policy, error) {
 	}
 	p.sum = p.computeSum()
 	return &p, nil
-}
-
-// jsonPosError turns a JSON decoding error into one with line and column.
-func jsonPosError(name string, data []byte, off int64, err error) error {
-	var se *json.SyntaxError
-	var te *json.UnmarshalTypeError
-	switch {
-	case errors.As(err, &se):
-		off = se.Offset
-	case errors.As(err, &te):
-		off = te.Offset
-	}
-	if off > int64(len(data)) {
-		off = int64(len(data))
-	}
-	line, col := 1, 1
-	for _, c := range data[:off] {
-		if c == '\n' {
-			line++
-			col = 1
-		} else {
-			col++
-		}
-	}
-	return fmt.Errorf("%s:%d:%d: %v (a policy is a JSON object with \"name\" and \"fields\"; see deid/POLICY.md)", name, line, col, err)
 }
 
 // SHA256 is the lower-case hex SHA-256 of the policy's canonical JSON (the

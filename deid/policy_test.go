@@ -92,18 +92,22 @@ func TestParsePolicyErrors(t *testing.T) {
 		{`{"name": "x", "fields": {"trials[].name": "drop"}}`, `choose keep, pseudonymize`},
 		{`{"name": "x", "fields": {}}`, `no fields`},
 		{`{"fields": {"subject.name": "drop"}}`, `no name`},
-		{`{"name": "x", "colour": 1, "fields": {"subject.name": "drop"}}`, `unknown field "colour"`},
+		{`{"name": "x", "colour": 1, "fields": {"subject.name": "drop"}}`, `p.json:1:15: unknown member "colour"`},
 		{"{\"name\": \"x\",\n \"fields\": {\"subject.name\" \"drop\"}}", `:2:`},
 		{`{"name": "x", "base": "other", "fields": {"subject.name": "drop"}}`, `base "other" unknown`},
-		{`{"name": "x", "k": 0.5, "fields": {"subject.name": "drop"}}`, `cannot unmarshal`},
-		{"name: x\nfields:\n  subject.name: [drop]\n", `line 3`},
-		{"name: x\nwho: me\nfields:\n  subject.name: drop\n", `field who not found`},
+		{`{"name": "x", "k": 0.5, "fields": {"subject.name": "drop"}}`, `p.json:1:23: k: a number 0.5 where int is expected`},
+		{"name: x\nfields:\n  subject.name: [drop]\n", `p.yaml:3:`},
+		{"name: x\nwho: me\nfields:\n  subject.name: drop\n", `p.yaml:2: unknown member "who"`},
 		{`{"name": "x", "age_band_years": 200, "fields": {"subject.name": "drop"}}`, `age_band_years 200`},
-		{``, `empty policy`},
+		{``, `no name`},
 		{`{"name": "x", "fields": {"subject.extra.a[]": "drop"}}`, `not a metadata field`},
 	}
 	for _, c := range cases {
-		_, err := ParsePolicy([]byte(c.text), "p")
+		name := "p.yaml"
+		if strings.HasPrefix(c.text, "{") {
+			name = "p.json"
+		}
+		_, err := ParsePolicy([]byte(c.text), name)
 		if err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%q: error %v, want it to contain %q", c.text, err, c.want)
 		}
@@ -120,7 +124,7 @@ func FuzzParsePolicy(f *testing.F) {
 	f.Add([]byte("- a\n- b\n"))
 	f.Add([]byte("name: [\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		p, err := ParsePolicy(data, "fuzz")
+		p, err := ParsePolicy(data, "fuzz.yaml")
 		if err != nil {
 			return
 		}
@@ -133,7 +137,7 @@ func FuzzParsePolicy(f *testing.F) {
 			t.Fatal("hash")
 		}
 		b, _ := p.CanonicalJSON()
-		q, err := ParsePolicy(b, "again")
+		q, err := ParsePolicy(b, "again.json")
 		if err != nil || q.SHA256() != p.SHA256() {
 			t.Fatalf("canonical form does not round-trip: %v", err)
 		}

@@ -304,7 +304,7 @@ func TestOutputsValidate(t *testing.T) {
 	src, _ := studyDir(t)
 	out := filepath.Join(t.TempDir(), "shared")
 	key, _ := KeyFromBytes(make([]byte, 32))
-	pol, _ := ParsePolicy([]byte(`{"name":"y","base":"muarc-safe-harbor-1","fields":{"session.date":"year","trials[].notes":"scrub"}}`), "y")
+	pol, _ := ParsePolicy([]byte(`{"name":"y","base":"muarc-safe-harbor-1","fields":{"session.date":"year","trials[].notes":"scrub"}}`), "y.json")
 	for _, p := range []*Policy{nil, pol} {
 		os.RemoveAll(out)
 		rep, err := DeidentifyStudy(src, out, StudyOptions{Key: key, Policy: p})

@@ -9,6 +9,7 @@ import (
 
 	"github.com/xeipuuv/gojsonschema"
 
+	"muarc/internal/docload"
 	"muarc/schema"
 )
 
@@ -82,11 +83,15 @@ func CheckMetadata(view map[string]any) []Finding {
 
 // CheckMetadataJSON is CheckMetadata on JSON text (a sidecar file's bytes).
 func CheckMetadataJSON(b []byte) ([]Finding, error) {
-	var v map[string]any
-	if err := json.Unmarshal(b, &v); err != nil {
-		return nil, jsonPosError(b, err)
+	v, _, err := docload.Tree("metadata.json", b)
+	if err != nil {
+		return nil, err
 	}
-	return CheckMetadata(v), nil
+	m, ok := v.(map[string]any)
+	if !ok {
+		return nil, fmt.Errorf("the metadata is not a JSON object")
+	}
+	return CheckMetadata(m), nil
 }
 
 // fieldPointer turns gojsonschema's "trials.0.name" into "/trials/0/name".

@@ -1,17 +1,11 @@
 package validate
 
 import (
-	"bytes"
-	"encoding/json"
 	"errors"
 	"fmt"
-	"io"
 	"math"
-	"os"
-	"path/filepath"
+	"muarc/internal/docload"
 	"strings"
-
-	"gopkg.in/yaml.v3"
 )
 
 // Rules are the thresholds of the content checks and the checks switched
@@ -133,64 +127,29 @@ func (r Rules) Check() error {
 }
 
 // LoadRules reads a rules file over DefaultRules: JSON when the name ends in
-// ".json", YAML otherwise. Fields the file leaves out keep their defaults;
+// ".json", YAML when in ".yaml" or ".yml" (internal/docload). Fields the file leaves out keep their defaults;
 // unknown fields are an error (a misspelt threshold must not pass silently).
 func LoadRules(path string) (Rules, error) {
-	b, err := os.ReadFile(path)
+	b, err := docload.ReadFile(path)
 	if err != nil {
 		return Rules{}, err
 	}
-	r, err := parseRules(b, strings.EqualFold(filepath.Ext(path), ".json"))
-	if err != nil {
+	return parseRules(b, path)
+}
+
+func parseRules(b []byte, path string) (Rules, error) {
+	r := DefaultRules()
+	if err := docload.Decode(path, b, &r); err != nil {
+		var de *docload.Error
+		if errors.As(err, &de) && strings.HasPrefix(de.Msg, "unknown member") {
+			de.Hint = "known fields: the json/yaml names in `muarc validate --help`"
+		}
+		return Rules{}, err
+	}
+	if err := r.Check(); err != nil {
 		return Rules{}, fmt.Errorf("%s: %w", path, err)
 	}
 	return r, nil
-}
-
-func parseRules(b []byte, isJSON bool) (Rules, error) {
-	r := DefaultRules()
-	if isJSON {
-		dec := json.NewDecoder(bytes.NewReader(b))
-		dec.DisallowUnknownFields()
-		if err := dec.Decode(&r); err != nil {
-			return Rules{}, jsonPosError(b, err)
-		}
-	} else if len(bytes.TrimSpace(b)) > 0 {
-		dec := yaml.NewDecoder(bytes.NewReader(b))
-		dec.KnownFields(true)
-		if err := dec.Decode(&r); err != nil && !errors.Is(err, io.EOF) {
-			return Rules{}, errors.New(strings.ReplaceAll(err.Error(), " in type validate.Rules", " (known fields: the json/yaml names in `muarc validate --help`)"))
-		}
-	}
-	if err := r.Check(); err != nil {
-		return Rules{}, err
-	}
-	return r, nil
-}
-
-// jsonPosError adds line and column to a JSON syntax or type error.
-func jsonPosError(b []byte, err error) error {
-	var off int64 = -1
-	switch e := err.(type) {
-	case *json.SyntaxError:
-		off = e.Offset
-	case *json.UnmarshalTypeError:
-		off = e.Offset
-	}
-	if off < 1 || off > int64(len(b)) {
-		return err
-	}
-	// Offset counts the offending byte; report that byte's position.
-	line, col := 1, 1
-	for _, c := range b[:off-1] {
-		if c == '\n' {
-			line++
-			col = 1
-		} else {
-			col++
-		}
-	}
-	return fmt.Errorf("line %d, column %d: %w", line, col, err)
 }
 
 // disabled reports whether findings of check id are dropped.

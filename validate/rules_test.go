@@ -59,15 +59,15 @@ func TestLoadRulesRefusesBadFiles(t *testing.T) {
 	for _, c := range []struct{ name, text, want string }{
 		{"r.yaml", "silhouete_min: 0.8\n", "silhouete_min"},
 		{"r.json", `{"silhouete_min": 0.8}`, "silhouete_min"},
-		{"r.json", "{\n  \"pnr_min_db\": \"high\"\n}", "line 2"},
-		{"r.json", "{\n  \"pnr_min_db\": 3,,\n}", "line 2, column 19"},
+		{"r.json", "{\n  \"pnr_min_db\": \"high\"\n}", "r.json:2:"},
+		{"r.json", "{\n  \"pnr_min_db\": 3,,\n}", "r.json:2:19"},
 		{"r.yaml", "silhouette_min: 1.5\n", "above 1"},
 		{"r.yaml", "doublet_isi_ms: -1\n", "negative"},
 		{"r.yaml", "sustained_isis: 0\n", "sustained_isis"},
 		{"r.yaml", "disabled: [discharge.sortd]\n", "discharge.sortd"},
 		{"r.yaml", "severity: {discharge.sorted: fatal}\n", "fatal"},
 		{"r.yaml", "severity: {nothing.*: note}\n", "nothing.*"},
-		{"r.yaml", "max_rate_pps: [1, 2]\n", "line 1"},
+		{"r.yaml", "max_rate_pps: [1, 2]\n", "r.yaml:1:"},
 	} {
 		_, err := LoadRules(writeFile(t, c.name, c.text))
 		if err == nil || !strings.Contains(err.Error(), c.want) {
@@ -125,7 +125,11 @@ func FuzzLoadRules(f *testing.F) {
 	f.Add([]byte("severity: [1]\n"), false)
 	f.Add([]byte("{"), true)
 	f.Fuzz(func(t *testing.T, b []byte, isJSON bool) {
-		r, err := parseRules(b, isJSON)
+		name := "fuzz.yaml"
+		if isJSON {
+			name = "fuzz.json"
+		}
+		r, err := parseRules(b, name)
 		if err == nil {
 			if cerr := r.Check(); cerr != nil {
 				t.Fatalf("parsed rules fail Check: %v", cerr)
