@@ -1,8 +1,11 @@
 package analysis
 
 import (
+	"encoding/json"
 	"math"
+	"strings"
 	"testing"
+	"time"
 
 	"muarc/record"
 )
@@ -164,28 +167,37 @@ func TestSmoothedRateSteadyTrain(t *testing.T) {
 	near(t, "before the train", r[50], 0, 1e-12)
 }
 
-func TestApplyStoresFigures(t *testing.T) {
+func TestStoreDerivedKeepsTheLabsFigures(t *testing.T) {
 	tr := trapezoidTrial(40, 0)
 	arr := record.Array{Name: "grid", SamplingRateHz: 2000}
 	u := record.NewUnit(3)
 	u.Discharges = steadyTrain(4, 18, 12.5, 2000)
-	arr.Decompositions = []record.Decomposition{{Name: "auto", Units: []record.Unit{u}}}
+	u.MeanRatePPS, u.RecruitPctMVC = 12.3, 15.9 // the lab's own figures
+	arr.Decompositions = []record.Decomposition{{Name: "auto", Units: []record.Unit{u}}, {Name: "empty"}}
 	tr.Arrays = []record.Array{arr}
 	rec := &record.Recording{Trials: []record.Trial{tr}}
 	st := Recording(rec)
-	if n := Apply(rec, st); n != 1 {
-		t.Fatalf("Apply updated %d units", n)
+	if _, err := StoreDerived(rec, st, nil, time.Date(2026, 3, 14, 9, 30, 0, 0, time.UTC)); err != nil {
+		t.Fatal(err)
 	}
 	got := rec.Trials[0].Arrays[0].Decompositions[0]
-	near(t, "stored recruit", got.Units[0].RecruitPctMVC, 16, 1e-6)
-	near(t, "stored mean rate", got.Units[0].MeanRatePPS, 12.5, 1e-6)
-	if len(got.ExtraColumns) != 3 || got.ExtraColumns[0].Name != ColumnRecruitForce || got.ExtraColumns[0].Unit != "N" {
-		t.Fatalf("extra columns %+v", got.ExtraColumns)
+	if got.Units[0].MeanRatePPS != 12.3 || got.Units[0].RecruitPctMVC != 15.9 || len(got.ExtraColumns) != 0 {
+		t.Errorf("the lab's unit table changed: %+v, extra %v", got.Units[0], got.ExtraColumns)
 	}
-	near(t, "stored recruit force", got.ExtraColumns[0].Values[0], 64, 1e-6)
-	// A second Apply replaces the columns rather than adding more.
-	Apply(rec, st)
-	if n := len(rec.Trials[0].Arrays[0].Decompositions[0].ExtraColumns); n != 3 {
-		t.Errorf("after a second Apply %d extra columns", n)
+	d := got.Derived
+	if d == nil || len(d.Units) != 1 || d.Units[0].ID != 3 || d.ForceUnit != "N" {
+		t.Fatalf("derived %+v", d)
+	}
+	near(t, "derived recruit", d.Units[0].RecruitPctMVC, 16, 1e-6)
+	near(t, "derived plateau rate", d.Units[0].PlateauRatePPS, 12.5, 1e-6)
+	near(t, "derived recruit force", d.Units[0].RecruitForce, 64, 1e-6)
+	if !json.Valid([]byte(d.Method)) || !strings.Contains(d.Method, "plateau_rate") {
+		t.Errorf("method %q", d.Method)
+	}
+	if e := rec.Trials[0].Arrays[0].Decompositions[1].Derived; e == nil || len(e.Units) != 0 {
+		t.Errorf("the empty decomposition's derived figures: %+v", e)
+	}
+	if h := rec.Provenance.History; len(h) != 1 || h[0].Action != "stats" {
+		t.Errorf("history %+v", h)
 	}
 }

@@ -23,13 +23,13 @@ const PlateauMinISIs = 3
 // it goes into a file's provenance when the figures are stored.
 func Method() map[string]any {
 	return map[string]any{
-		"recruit":        "force (linearly interpolated) at the first discharge; derecruit: at the last discharge",
-		"initial_rate":   fmt.Sprintf("1 / mean of the first %d inter-discharge intervals", InitialISIs),
-		"plateau":        fmt.Sprintf("longest run of the force target within %g %% of its peak (no target: of the force smoothed by a %g s moving mean, within %g %% of its peak)", 100*PlateauTargetTol, PlateauForceSmoothS, 100*PlateauForceTol),
-		"mean_rate":      fmt.Sprintf("1 / mean of the intervals whose both discharges lie on the plateau (at least %d intervals)", PlateauMinISIs),
-		"isi_cov":        "sample standard deviation / mean of the plateau intervals",
-		"regression":     "ordinary least squares of plateau mean rate and of initial rate on recruitment threshold (% MVC), per decomposition",
-		"muap_window_ms": 1000 * MUAPHalfWindowS,
+		"recruit":         "force (linearly interpolated) at the first discharge; derecruit: at the last discharge",
+		"initial_rate":    fmt.Sprintf("1 / mean of the first %d inter-discharge intervals", InitialISIs),
+		"plateau":         fmt.Sprintf("longest run of the force target within %g %% of its peak (no target: of the force smoothed by a %g s moving mean, within %g %% of its peak)", 100*PlateauTargetTol, PlateauForceSmoothS, 100*PlateauForceTol),
+		"plateau_rate":    fmt.Sprintf("1 / mean of the intervals whose both discharges lie on the plateau (at least %d intervals)", PlateauMinISIs),
+		"plateau_isi_cov": "sample standard deviation / mean of the plateau intervals",
+		"regression":      "ordinary least squares of plateau mean rate and of initial rate on recruitment threshold (% MVC), per decomposition",
+		"muap_window_ms":  1000 * MUAPHalfWindowS,
 	}
 }
 
@@ -56,8 +56,8 @@ type UnitStats struct {
 	// standard deviation / mean (dimensionless); both NaN with fewer than
 	// PlateauMinISIs intervals.
 	PlateauISIs    int     `json:"plateau_isi_count"`
-	PlateauRatePPS float64 `json:"mean_rate_pps"`
-	PlateauISICoV  float64 `json:"isi_cov"`
+	PlateauRatePPS float64 `json:"plateau_rate_pps"`
+	PlateauISICoV  float64 `json:"plateau_isi_cov"`
 }
 
 // DecompositionStats are the figures of one decomposition of one array of
@@ -184,63 +184,6 @@ func unitStats(tr *record.Trial, arr *record.Array, u record.Unit, sc ForceScale
 		}
 	}
 	return us, outside
-}
-
-// Extra column names written by Apply beside the layout's fixed unit
-// columns.
-const (
-	ColumnRecruitForce   = "recruit_force"
-	ColumnDerecruitForce = "derecruit_force"
-	ColumnPlateauISIs    = "plateau_isi_count"
-)
-
-// Apply stores the figures of st into the unit tables of rec (matched by
-// trial, array, decomposition name and unit id): RecruitPctMVC,
-// DerecruitPctMVC, InitialRatePPS, MeanRatePPS (the plateau mean rate) and
-// ISICoV (over the plateau), and the extra columns recruit_force and
-// derecruit_force (in the force unit) and plateau_isi_count. It returns the
-// number of units updated.
-func Apply(rec *record.Recording, st []DecompositionStats) int {
-	n := 0
-	for _, ds := range st {
-		dec := find(rec, ds.Trial, ds.Array, ds.Decomposition)
-		if dec == nil {
-			continue
-		}
-		byID := map[int64]UnitStats{}
-		for _, u := range ds.Units {
-			byID[u.ID] = u
-		}
-		rf := make([]float64, len(dec.Units))
-		df := make([]float64, len(dec.Units))
-		pc := make([]float64, len(dec.Units))
-		for i := range dec.Units {
-			u := &dec.Units[i]
-			s, ok := byID[u.ID]
-			if !ok {
-				rf[i], df[i], pc[i] = math.NaN(), math.NaN(), math.NaN()
-				continue
-			}
-			u.RecruitPctMVC, u.DerecruitPctMVC = s.RecruitPctMVC, s.DerecruitPctMVC
-			u.InitialRatePPS, u.MeanRatePPS, u.ISICoV = s.InitialRatePPS, s.PlateauRatePPS, s.PlateauISICoV
-			rf[i], df[i], pc[i] = s.RecruitForce, s.DerecruitForce, float64(s.PlateauISIs)
-			n++
-		}
-		setColumn(dec, record.Column{Name: ColumnRecruitForce, Unit: ds.ForceUnit, Values: rf})
-		setColumn(dec, record.Column{Name: ColumnDerecruitForce, Unit: ds.ForceUnit, Values: df})
-		setColumn(dec, record.Column{Name: ColumnPlateauISIs, Unit: "1", Values: pc})
-	}
-	return n
-}
-
-func setColumn(dec *record.Decomposition, c record.Column) {
-	for i := range dec.ExtraColumns {
-		if dec.ExtraColumns[i].Name == c.Name {
-			dec.ExtraColumns[i] = c
-			return
-		}
-	}
-	dec.ExtraColumns = append(dec.ExtraColumns, c)
 }
 
 func find(rec *record.Recording, trial, array, decomp string) *record.Decomposition {

@@ -17,6 +17,7 @@ import (
 	"muarc/archive/bagit"
 	"muarc/internal/batch"
 	"muarc/recfile"
+	"muarc/record"
 )
 
 var testDate = time.Date(2026, 5, 4, 0, 0, 0, 0, time.UTC)
@@ -91,7 +92,7 @@ func TestIndexRowsAndFilters(t *testing.T) {
 					row.Muscle != a.Muscle || row.LevelPctMVC != tr.TargetPctMVC || row.Subject != rec.Subject.ID {
 					t.Errorf("row %+v disagrees with the file", *row)
 				}
-				d := a.Decompositions[chosenDecomposition(a.Decompositions)]
+				d := a.Decompositions[record.ReportedDecomposition(a.Decompositions)]
 				var dis int64
 				low := 0
 				for _, u := range d.Units {

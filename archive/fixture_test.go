@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"muarc/analysis"
 	"muarc/deid"
 	"muarc/recfile"
 	"muarc/record"
@@ -56,6 +57,10 @@ func makeFixture(dir string) error {
 	for i, g := range gen {
 		raw := filepath.Join(dir, "identified", fmt.Sprintf("subject%d.h5", i+1))
 		if err := writeRec(raw, g.Recording, now); err != nil {
+			return err
+		}
+		// Derived figures and templates, as muarc stats --write stores them.
+		if _, err := analysis.StatsFile(raw, true, true); err != nil {
 			return err
 		}
 		// De-identify a copy read back from the file (Apply changes its

@@ -13,6 +13,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"muarc/internal/batch"
 	"muarc/record"
@@ -50,20 +51,33 @@ type IndexRow struct {
 	Units              int   `json:"units"`
 	Discharges         int64 `json:"discharges"`
 	LowConfidenceUnits int   `json:"low_confidence_units"`
+	// LabMeanRatePPS is the mean over units of the lab's own mean_rate_pps
+	// (units/); DerivedPlateauRatePPS the mean over units of muarc's
+	// plateau_rate_pps (derived/units/); NaN when none (omitted from JSON).
+	// DerivedComputed is when the derived figures were computed (RFC 3339),
+	// "" when there are none.
+	LabMeanRatePPS        float64 `json:"-"`
+	DerivedPlateauRatePPS float64 `json:"-"`
+	DerivedComputed       string  `json:"derived_computed,omitempty"`
 }
 
 // MarshalJSON writes the row with level_pct_mvc omitted when unknown.
 func (r IndexRow) MarshalJSON() ([]byte, error) {
 	type plain IndexRow
-	var lvl *float64
-	if !math.IsNaN(r.LevelPctMVC) {
-		v := r.LevelPctMVC
-		lvl = &v
-	}
 	return json.Marshal(struct {
 		plain
-		LevelPctMVC *float64 `json:"level_pct_mvc,omitempty"`
-	}{plain(r), lvl})
+		LevelPctMVC           *float64 `json:"level_pct_mvc,omitempty"`
+		LabMeanRatePPS        *float64 `json:"lab_mean_rate_pps,omitempty"`
+		DerivedPlateauRatePPS *float64 `json:"derived_plateau_rate_pps,omitempty"`
+	}{plain(r), known(r.LevelPctMVC), known(r.LabMeanRatePPS), known(r.DerivedPlateauRatePPS)})
+}
+
+// known is &v, or nil when v is NaN.
+func known(v float64) *float64 {
+	if math.IsNaN(v) {
+		return nil
+	}
+	return &v
 }
 
 // UnmarshalJSON reads a row written by MarshalJSON (level absent -> NaN).
@@ -71,17 +85,24 @@ func (r *IndexRow) UnmarshalJSON(b []byte) error {
 	type plain IndexRow
 	var v struct {
 		plain
-		LevelPctMVC *float64 `json:"level_pct_mvc"`
+		LevelPctMVC           *float64 `json:"level_pct_mvc"`
+		LabMeanRatePPS        *float64 `json:"lab_mean_rate_pps"`
+		DerivedPlateauRatePPS *float64 `json:"derived_plateau_rate_pps"`
 	}
 	if err := json.Unmarshal(b, &v); err != nil {
 		return err
 	}
 	*r = IndexRow(v.plain)
-	r.LevelPctMVC = math.NaN()
-	if v.LevelPctMVC != nil {
-		r.LevelPctMVC = *v.LevelPctMVC
-	}
+	r.LevelPctMVC, r.LabMeanRatePPS, r.DerivedPlateauRatePPS = orNaN(v.LevelPctMVC), orNaN(v.LabMeanRatePPS), orNaN(v.DerivedPlateauRatePPS)
 	return nil
+}
+
+// orNaN is *p, or NaN when p is nil.
+func orNaN(p *float64) float64 {
+	if p == nil {
+		return math.NaN()
+	}
+	return *p
 }
 
 // IndexOptions select and tune an index run.
@@ -259,8 +280,14 @@ func summaryOf(rec *record.Recording, rel string, size int64, lowConf func(recor
 			if a.Samples != nil {
 				_, r.Channels = a.Samples.Shape()
 			}
-			if k := chosenDecomposition(a.Decompositions); k >= 0 {
+			r.LabMeanRatePPS, r.DerivedPlateauRatePPS = math.NaN(), math.NaN()
+			if k := record.ReportedDecomposition(a.Decompositions); k >= 0 {
 				d := a.Decompositions[k]
+				r.LabMeanRatePPS = meanOf(len(d.Units), func(i int) float64 { return d.Units[i].MeanRatePPS })
+				if d.Derived != nil {
+					r.DerivedComputed = d.Derived.Computed.UTC().Format(time.RFC3339)
+					r.DerivedPlateauRatePPS = meanOf(len(d.Derived.Units), func(i int) float64 { return d.Derived.Units[i].PlateauRatePPS })
+				}
 				r.Decomposition = d.Name
 				r.Units = len(d.Units)
 				for _, u := range d.Units {
@@ -276,21 +303,25 @@ func summaryOf(rec *record.Recording, rel string, size int64, lowConf func(recor
 	return s
 }
 
-// chosenDecomposition picks the decomposition the index counts: the last
-// one edited by hand, else the last one; -1 when there is none.
-func chosenDecomposition(ds []record.Decomposition) int {
-	for k := len(ds) - 1; k >= 0; k-- {
-		if ds[k].EditedByHand {
-			return k
+// meanOf is the mean of the known values of get(0..n-1); NaN when none.
+func meanOf(n int, get func(int) float64) float64 {
+	sum, k := 0.0, 0
+	for i := 0; i < n; i++ {
+		if v := get(i); !math.IsNaN(v) && !math.IsInf(v, 0) {
+			sum += v
+			k++
 		}
 	}
-	return len(ds) - 1
+	if k == 0 {
+		return math.NaN()
+	}
+	return sum / float64(k)
 }
 
 // IndexColumns are the TSV header names, in order.
 var IndexColumns = []string{"file", "bytes", "subject", "session", "trial", "array", "muscle", "side",
 	"level_pct_mvc", "duration_s", "channels", "decomposition", "decompositions", "units", "discharges",
-	"low_confidence_units"}
+	"low_confidence_units", "lab_mean_rate_pps", "derived_plateau_rate_pps", "derived_computed"}
 
 // WriteIndexTSV writes rows as tab-separated values with a header line.
 // Unknown numbers are empty cells.
@@ -301,7 +332,7 @@ func WriteIndexTSV(w io.Writer, rows []IndexRow) error {
 		cells := []string{r.File, strconv.FormatInt(r.Bytes, 10), r.Subject, r.Session, r.Trial, r.Array,
 			r.Muscle, r.Side, num(r.LevelPctMVC), num(r.DurationS), strconv.Itoa(r.Channels), r.Decomposition,
 			strconv.Itoa(r.Decompositions), strconv.Itoa(r.Units), strconv.FormatInt(r.Discharges, 10),
-			strconv.Itoa(r.LowConfidenceUnits)}
+			strconv.Itoa(r.LowConfidenceUnits), num(r.LabMeanRatePPS), num(r.DerivedPlateauRatePPS), r.DerivedComputed}
 		for i := range cells {
 			cells[i] = tsvCell(cells[i])
 		}

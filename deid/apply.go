@@ -704,6 +704,25 @@ func (a *applier) decomposition(p string, in *record.Decomposition) record.Decom
 	if a.present(p+".muaps", in.MUAPs != nil) {
 		out.MUAPs = in.MUAPs
 	}
+	if in.Derived != nil {
+		// Derived figures are carried; the time they were computed follows
+		// the policy as history times do.
+		dv := *in.Derived
+		if !dv.Computed.IsZero() {
+			act, named := a.action(p + ".derived.computed")
+			switch act {
+			case Keep:
+			case Shift:
+				dv.Computed = dv.Computed.AddDate(0, 0, a.shift)
+			case Year:
+				dv.Computed = time.Date(dv.Computed.Year(), 1, 1, 0, 0, 0, 0, time.UTC)
+			default:
+				act, dv.Computed = Drop, time.Time{}
+			}
+			a.note(p+".derived.computed", act, named, "")
+		}
+		out.Derived = &dv
+	}
 	for _, c := range in.ExtraColumns {
 		path := p + ".units[].extra." + c.Name
 		act, named := a.action(path)
@@ -987,6 +1006,10 @@ func walkStrings(r *record.Recording, fn func(path, s string)) {
 				}
 				if d.MUAPs != nil {
 					fn(dp+".muaps.unit", d.MUAPs.Unit)
+				}
+				if d.Derived != nil {
+					fn(dp+".derived.software", d.Derived.Software)
+					fn(dp+".derived.method", d.Derived.Method)
 				}
 			}
 		}

@@ -72,13 +72,14 @@ var catalogue = map[string]kind{
 	"trials[].arrays[].montage": kindValue, "trials[].arrays[].reference": kindValue,
 	"trials[].arrays[].unit": kindValue,
 
-	"trials[].arrays[].decompositions[].name":           kindName,
-	"trials[].arrays[].decompositions[].method":         kindValue,
-	"trials[].arrays[].decompositions[].method_version": kindValue,
-	"trials[].arrays[].decompositions[].parameters":     kindValue,
-	"trials[].arrays[].decompositions[].edited_by_hand": kindFixed,
-	"trials[].arrays[].decompositions[].notes":          kindText,
-	"trials[].arrays[].decompositions[].muaps":          kindData,
+	"trials[].arrays[].decompositions[].name":             kindName,
+	"trials[].arrays[].decompositions[].method":           kindValue,
+	"trials[].arrays[].decompositions[].method_version":   kindValue,
+	"trials[].arrays[].decompositions[].parameters":       kindValue,
+	"trials[].arrays[].decompositions[].edited_by_hand":   kindFixed,
+	"trials[].arrays[].decompositions[].notes":            kindText,
+	"trials[].arrays[].decompositions[].muaps":            kindData,
+	"trials[].arrays[].decompositions[].derived.computed": kindTime,
 
 	"provenance.sources[].name": kindSource, "provenance.sources[].role": kindValue,
 	"provenance.sources[].sha256": kindValue, "provenance.sources[].bytes": kindValue,
@@ -94,6 +95,7 @@ var carried = []string{
 	"trials[].arrays[].channels",
 	"trials[].arrays[].decompositions[].units (id and figures)",
 	"trials[].arrays[].decompositions[].discharges",
+	"trials[].arrays[].decompositions[].derived (figures, method, templates)",
 }
 
 // extraGroups are the groups that may carry extra fields, in policy form.

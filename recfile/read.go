@@ -712,27 +712,12 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 		dec.ExtraColumns = append(dec.ExtraColumns, col)
 	}
 	if g.Has(dsMUAPs) {
-		d, err := g.OpenDataset(dsMUAPs, 0)
-		if err != nil {
+		if dec.MUAPs, err = f.readMUAPs(g, dsMUAPs, n, channels); err != nil {
 			return dec, err
 		}
-		defer d.Close()
-		if len(d.Shape) != 3 || d.Shape[0] != n || d.Shape[1] != channels {
-			return dec, formatErr(f.path, d.Path(), "muaps are [unit, channel, lag]", "shape %v for %d units and %d channels", d.Shape, n, channels)
-		}
-		das, err := d.Attrs()
-		if err != nil {
-			return dec, err
-		}
-		ma := newAttrGet(f.path, d.Path(), das)
-		m := &record.MUAPs{Units: n, Channels: channels, Lags: d.Shape[2], FirstLag: ma.int("first_lag"), Unit: ma.str("unit")}
-		if ma.err != nil {
-			return dec, ma.err
-		}
-		if m.Data, err = d.Float32s(); err != nil {
-			return dec, err
-		}
-		dec.MUAPs = m
+	}
+	if dec.Derived, err = f.readDerived(g, ids, channels); err != nil {
+		return dec, err
 	}
 	return dec, nil
 }

@@ -74,8 +74,14 @@ func fixture() *record.Recording {
 							{Name: "auto", Method: "blind source separation", MethodVersion: "2.1", Parameters: `{"iterations":50}`,
 								Units:        []record.Unit{u1, u2, u3},
 								ExtraColumns: []record.Column{{Name: "twitch_ms", Unit: "ms", Values: []float64{55, nan, 70}}, {Name: "comment", Text: []string{"a", "", "ç"}}},
-								MUAPs:        &record.MUAPs{Units: 3, Channels: 6, Lags: 4, FirstLag: -2, Unit: "uV", Data: ramp(72)}},
-							{Name: "edited", Method: "manual", EditedByHand: true, Parameters: "{}", Units: nil},
+								MUAPs:        &record.MUAPs{Units: 3, Channels: 6, Lags: 4, FirstLag: -2, Unit: "uV", Data: ramp(72)},
+								Derived: &record.Derived{Software: "muarc test", Computed: time.Date(2026, 3, 16, 8, 0, 0, 0, time.UTC), Method: `{"plateau":"x"}`, ForceUnit: "N",
+									Units: []record.DerivedUnit{{ID: 1, RecruitPctMVC: 4.5, DerecruitPctMVC: 3, RecruitForce: 14, DerecruitForce: nan, InitialRatePPS: 8, PlateauRatePPS: 14.5, PlateauISICoV: 0.12, PlateauISIs: 20},
+										{ID: 7, RecruitPctMVC: nan, DerecruitPctMVC: nan, RecruitForce: nan, DerecruitForce: nan, InitialRatePPS: nan, PlateauRatePPS: nan, PlateauISICoV: nan},
+										{ID: 3, RecruitPctMVC: 20, DerecruitPctMVC: 18, RecruitForce: 62.5, DerecruitForce: 56.25, InitialRatePPS: nan, PlateauRatePPS: nan, PlateauISICoV: nan, PlateauISIs: 1}},
+									MUAPs: &record.MUAPs{Units: 3, Channels: 6, Lags: 3, FirstLag: -1, Unit: "uV", Data: ramp(54)}}},
+							{Name: "edited", Method: "manual", EditedByHand: true, Parameters: "{}", Units: nil,
+								Derived: &record.Derived{Software: "muarc test", Method: "{}"}},
 						},
 						Extra: record.Extra{"electrode_gel": "yes"},
 					},
@@ -118,6 +124,23 @@ func equalRec(t *testing.T, want, got *record.Recording) {
 			for di := range wa.Decompositions {
 				if !reflect.DeepEqual(wa.Decompositions[di].MUAPs, ga.Decompositions[di].MUAPs) {
 					t.Fatalf("trial %d array %d decomposition %d MUAPs differ", ti, ai, di)
+				}
+				wd, gd := wa.Decompositions[di].Derived, ga.Decompositions[di].Derived
+				if (wd == nil) != (gd == nil) {
+					t.Fatalf("trial %d array %d decomposition %d derived: %v, read back %v", ti, ai, di, wd, gd)
+				}
+				if wd != nil {
+					w, g := *wd, *gd
+					if w.Units == nil {
+						w.Units = []record.DerivedUnit{}
+					}
+					if !reflect.DeepEqual(w.MUAPs, g.MUAPs) {
+						t.Fatalf("trial %d array %d decomposition %d derived MUAPs differ", ti, ai, di)
+					}
+					w.MUAPs, g.MUAPs = nil, nil
+					if nanless(w) != nanless(g) {
+						t.Fatalf("derived figures differ:\nwant %s\n got %s", nanless(w), nanless(g))
+					}
 				}
 			}
 		}
@@ -163,7 +186,7 @@ func strip(r *record.Recording) any {
 			a2.Decompositions = nil
 			for _, d := range a.Decompositions {
 				d2 := d
-				d2.MUAPs = nil
+				d2.MUAPs, d2.Derived = nil, nil
 				if d2.Units == nil {
 					d2.Units = []record.Unit{}
 				}

@@ -190,22 +190,54 @@ func viewDecomposition(g *h5.Group, m map[string]any) error {
 			return err
 		}
 	}
-	if g.Has(dsMUAPs) {
-		d, err := g.OpenDataset(dsMUAPs, 0)
-		if err != nil {
-			return err
-		}
-		mu := map[string]any{}
-		err = attrsInto(mu, d)
-		if len(d.Shape) == 3 {
-			mu["units"], mu["channels"], mu["lags"] = d.Shape[0], d.Shape[1], d.Shape[2]
-		}
-		d.Close()
-		if err != nil {
-			return err
-		}
-		m["muaps"] = mu
+	if err := viewMUAPs(g, m); err != nil {
+		return err
 	}
+	if g.Has(grpDerived) {
+		dv := map[string]any{}
+		if err := subgroup(g, grpDerived, func(d *h5.Group) error {
+			if err := attrsInto(dv, d); err != nil {
+				return err
+			}
+			parseJSONField(dv, attrMethod)
+			if d.Has(grpUnits) {
+				if err := subgroup(d, grpUnits, func(u *h5.Group) error {
+					rows, err := tableRows(u)
+					dv["units"] = rows
+					return err
+				}); err != nil {
+					return err
+				}
+			}
+			return viewMUAPs(d, dv)
+		}); err != nil {
+			return err
+		}
+		m["derived"] = dv
+	}
+	return nil
+}
+
+// viewMUAPs puts the shape and attributes of g's muaps dataset, if any, into
+// m["muaps"].
+func viewMUAPs(g *h5.Group, m map[string]any) error {
+	if !g.Has(dsMUAPs) {
+		return nil
+	}
+	d, err := g.OpenDataset(dsMUAPs, 0)
+	if err != nil {
+		return err
+	}
+	mu := map[string]any{}
+	err = attrsInto(mu, d)
+	if len(d.Shape) == 3 {
+		mu["units"], mu["channels"], mu["lags"] = d.Shape[0], d.Shape[1], d.Shape[2]
+	}
+	d.Close()
+	if err != nil {
+		return err
+	}
+	m["muaps"] = mu
 	return nil
 }
 
@@ -383,7 +415,7 @@ func hdf5Path(view map[string]any, pointer string) string {
 				return p + "[" + toks[i+1] + "]"
 			}
 			return p
-		case "study", "subject", "session", "provenance", "force", "force_target", "muaps":
+		case "study", "subject", "session", "provenance", "force", "force_target", "muaps", "derived":
 			p += "/" + t
 			cur = m[t]
 		case "name":

@@ -135,10 +135,11 @@ func check(rec *record.Recording) error {
 						return invalid(where, "extra column %q has %d values for %d units", c.Name, len(c.Values)+len(c.Text), len(d.Units))
 					}
 				}
-				if m := d.MUAPs; m != nil {
-					if m.Units != len(d.Units) || m.Channels != ch || m.Lags <= 0 || len(m.Data) != m.Units*m.Channels*m.Lags || m.Units == 0 {
-						return invalid(where, "MUAPs %dx%dx%d with %d values do not fit %d units x %d channels", m.Units, m.Channels, m.Lags, len(m.Data), len(d.Units), ch)
-					}
+				if err := checkMUAPs(where, d.MUAPs, len(d.Units), ch); err != nil {
+					return err
+				}
+				if err := checkDerived(where, &d, ch); err != nil {
+					return err
 				}
 			}
 		}
@@ -628,22 +629,11 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition) error {
 		return err
 	}
 	if m := d.MUAPs; m != nil {
-		if err := g.WriteFloat32Array(dsMUAPs, []int{m.Units, m.Channels, m.Lags}, m.Data); err != nil {
-			return err
-		}
-		ds, err := g.OpenDataset(dsMUAPs, 0)
-		if err != nil {
-			return err
-		}
-		defer ds.Close()
-		var ma attrs
-		ma.any("first_lag", int64(m.FirstLag))
-		ma.str("unit", m.Unit)
-		if err := ma.write(ds, nil); err != nil {
+		if err := writeMUAPs(g, dsMUAPs, m); err != nil {
 			return err
 		}
 	}
-	return nil
+	return writeDerived(g, d)
 }
 
 // unitFigures lists a unit's figures in unitColumns order.

@@ -236,6 +236,58 @@ type Decomposition struct {
 	// MUAPs holds optional motor unit action potential templates.
 	MUAPs *MUAPs
 	Notes string
+	// Derived holds the figures muarc computed from this decomposition
+	// (muarc stats --write), kept apart from the lab's own unit table and
+	// templates, which they never replace; nil when none were stored.
+	Derived *Derived
+}
+
+// Derived are the figures a program derived from one decomposition, with
+// how they were computed. Units follow the decomposition's unit order.
+type Derived struct {
+	// Software is the program and version that computed them.
+	Software string
+	// Computed is when they were computed (UTC).
+	Computed time.Time
+	// Method is a JSON object text naming the method and its parameters.
+	Method string
+	// ForceUnit is the unit of RecruitForce and DerecruitForce.
+	ForceUnit string
+	Units     []DerivedUnit
+	// MUAPs are spike-triggered average templates computed from the
+	// array's samples; nil when not computed.
+	MUAPs *MUAPs
+}
+
+// DerivedUnit holds one unit's derived figures; NaN is unknown.
+type DerivedUnit struct {
+	// ID is the unit's id in the decomposition.
+	ID int64
+	// RecruitPctMVC and DerecruitPctMVC are the force at the first and the
+	// last discharge in % MVC; RecruitForce and DerecruitForce the same in
+	// Derived.ForceUnit.
+	RecruitPctMVC, DerecruitPctMVC float64
+	RecruitForce, DerecruitForce   float64
+	// InitialRatePPS is the discharge rate at recruitment, pps.
+	InitialRatePPS float64
+	// PlateauRatePPS is the mean discharge rate on the force plateau, pps,
+	// and PlateauISICoV the coefficient of variation of its intervals.
+	PlateauRatePPS float64
+	PlateauISICoV  float64
+	// PlateauISIs is the number of intervals wholly on the plateau.
+	PlateauISIs int64
+}
+
+// ReportedDecomposition is the index of the decomposition that summaries
+// (inspect, index, report, study analysis) speak for: the last one edited
+// by hand, else the last one (the latest made); -1 when there is none.
+func ReportedDecomposition(ds []Decomposition) int {
+	for k := len(ds) - 1; k >= 0; k-- {
+		if ds[k].EditedByHand {
+			return k
+		}
+	}
+	return len(ds) - 1
 }
 
 // Unit is one motor unit: its discharges and its quality figures. A figure

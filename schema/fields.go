@@ -112,6 +112,8 @@ var Groups = []Group{
 	{Name: "decomposition", Prefix: "trials[].arrays[].decompositions[]", HDF5: "/trials/<trial>/arrays/<array>/decompositions/<name>"},
 	{Name: "unit", Prefix: "trials[].arrays[].decompositions[].units[]", HDF5: "/trials/<trial>/arrays/<array>/decompositions/<name>/units", Table: true, Extras: true},
 	{Name: "muaps", Prefix: "trials[].arrays[].decompositions[].muaps", HDF5: "/trials/<trial>/arrays/<array>/decompositions/<name>/muaps"},
+	{Name: "derived", Prefix: "trials[].arrays[].decompositions[].derived", HDF5: "/trials/<trial>/arrays/<array>/decompositions/<name>/derived"},
+	{Name: "derived_unit", Prefix: "trials[].arrays[].decompositions[].derived.units[]", HDF5: "/trials/<trial>/arrays/<array>/decompositions/<name>/derived/units", Table: true},
 	{Name: "source", Prefix: "provenance.sources[]", HDF5: "/provenance/sources", Table: true},
 	{Name: "history", Prefix: "provenance.history[]", HDF5: "/provenance/history", Table: true},
 }
@@ -333,7 +335,23 @@ var Fields = []Field{
 	{Group: "unit", Name: "recruit_pct_mvc", Kind: KindNumber, Storage: "float64", Unit: "%", Class: ClassCarried, Since: "1.0", Meaning: "force at the first discharge, % MVC"},
 	{Group: "unit", Name: "derecruit_pct_mvc", Kind: KindNumber, Storage: "float64", Unit: "%", Class: ClassCarried, Since: "1.0", Meaning: "force at the last discharge, % MVC"},
 	{Group: "unit", Name: "initial_rate_pps", Kind: KindNumber, Storage: "float64", Unit: "/s", Class: ClassCarried, Since: "1.0", Meaning: "discharge rate at recruitment, pulses per second"},
-	{Group: "unit", Name: "mean_rate_pps", Kind: KindNumber, Storage: "float64", Unit: "/s", Class: ClassCarried, Since: "1.0", Meaning: "mean discharge rate, pulses per second"},
+	{Group: "unit", Name: "mean_rate_pps", Kind: KindNumber, Storage: "float64", Unit: "/s", Class: ClassCarried, Since: "1.0", Meaning: "mean discharge rate, pulses per second, as the lab's method gives it (muarc's own figures go to `derived/`)"},
+
+	{Group: "derived", Name: "software", Kind: KindString, Class: ClassCarried, Since: "1.1", Meaning: "program and version that computed the figures"},
+	{Group: "derived", Name: "computed", Kind: KindTime, Class: ClassTime, Default: ActShift, Since: "1.1", Meaning: "when they were computed"},
+	{Group: "derived", Name: "method", Kind: KindJSON, Required: true, Class: ClassCarried, Since: "1.1", Meaning: "a JSON object naming the method and its parameters (plateau rule, intervals of the initial rate, MUAP window)"},
+	{Group: "derived", Name: "force_unit", Kind: KindUnit, Class: ClassCarried, Since: "1.1", Meaning: "unit of `recruit_force` and `derecruit_force`"},
+	{Group: "derived", Name: "muaps", Kind: KindData, Class: ClassCarried, ViewOnly: true, Since: "1.1", Meaning: "spike-triggered average templates of the array's samples, shaped and described as `muaps`"},
+
+	{Group: "derived_unit", Name: "id", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.1", Meaning: "unit identifier, as in `units/` (same row order)"},
+	{Group: "derived_unit", Name: "recruit_pct_mvc", Kind: KindNumber, Storage: "float64", Unit: "%", Class: ClassCarried, Since: "1.1", Meaning: "force (linearly interpolated) at the first discharge, % MVC"},
+	{Group: "derived_unit", Name: "derecruit_pct_mvc", Kind: KindNumber, Storage: "float64", Unit: "%", Class: ClassCarried, Since: "1.1", Meaning: "force at the last discharge, % MVC"},
+	{Group: "derived_unit", Name: "recruit_force", Kind: KindNumber, Storage: "float64", Class: ClassCarried, Since: "1.1", Meaning: "force at the first discharge, in `force_unit` (the column's `unit` attribute)"},
+	{Group: "derived_unit", Name: "derecruit_force", Kind: KindNumber, Storage: "float64", Class: ClassCarried, Since: "1.1", Meaning: "force at the last discharge, in `force_unit`"},
+	{Group: "derived_unit", Name: "initial_rate_pps", Kind: KindNumber, Storage: "float64", Unit: "/s", Class: ClassCarried, Since: "1.1", Meaning: "1 / mean of the first 3 inter-discharge intervals"},
+	{Group: "derived_unit", Name: "plateau_rate_pps", Kind: KindNumber, Storage: "float64", Unit: "/s", Class: ClassCarried, Since: "1.1", Meaning: "1 / mean of the intervals wholly on the force plateau (at least 3)"},
+	{Group: "derived_unit", Name: "plateau_isi_cov", Kind: KindNumber, Storage: "float64", Unit: "1", Class: ClassCarried, Since: "1.1", Meaning: "standard deviation / mean of those intervals"},
+	{Group: "derived_unit", Name: "plateau_isi_count", Kind: KindInteger, Storage: "int64", Class: ClassCarried, Since: "1.1", Meaning: "number of those intervals"},
 
 	{Group: "muaps", Name: "first_lag", Kind: KindInteger, Unit: "sample", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "lag of index 0 relative to the discharge (negative: before it)"},
 	{Group: "muaps", Name: "unit", Kind: KindUnit, Class: ClassCarried, Since: "1.0", Meaning: "unit of the values"},

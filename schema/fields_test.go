@@ -41,6 +41,7 @@ var schemaDefinition = map[string]string{
 	"root": "", "study": "study", "subject": "subject", "session": "session",
 	"trial": "trial", "signal": "signal", "array": "array", "channel": "channel",
 	"decomposition": "decomposition", "unit": "unit", "muaps": "muaps",
+	"derived": "derived", "derived_unit": "derived_unit",
 	"source": "source", "history": "operation",
 }
 
@@ -49,7 +50,8 @@ var containers = map[string][]string{
 	"":              {"study", "subject", "session", "trials", "provenance"},
 	"array":         {"channels", "decompositions"},
 	"trial":         {"arrays"},
-	"decomposition": {"units"},
+	"decomposition": {"units", "derived"},
+	"derived":       {"units"},
 	"signal":        {"samples"},
 	"muaps":         {"units", "channels", "lags"},
 }

@@ -51,6 +51,7 @@ var checks = []CheckInfo{
 	{"discharge.range", Error, "a discharge lies outside the array's samples"},
 	{"discharge.doublet", Note, "an inter-discharge interval shorter than doublet_isi_ms"},
 	{"discharge.rate_high", Warning, "a sustained discharge rate above max_rate_pps"},
+	{"decomposition.empty", Note, "a decomposition without motor units (kept; nothing to analyse)"},
 	{"discharge.few", Warning, "a unit with fewer than min_discharges discharges"},
 	{"rate.positive", Error, "a sampling rate is zero, negative or not a number"},
 	{"emg.rate_low", Warning, "surface EMG sampled below emg_min_rate_hz"},

@@ -171,6 +171,10 @@ func checkArray(a *record.Array, ah, aj string, r Rules, add addFunc) {
 
 func checkDecomposition(d *record.Decomposition, a *record.Array, rows int, dh, dj string, r Rules, add addFunc) {
 	fs := a.SamplingRateHz
+	if len(d.Units) == 0 {
+		add("decomposition.empty", dh+"/units", dj+"/units", "an empty decomposition is valid; check that the units were not lost on export",
+			"decomposition %q has no motor units", d.Name)
+	}
 	ids := map[int64]int{}
 	for ui := range d.Units {
 		u := &d.Units[ui]

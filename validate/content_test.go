@@ -85,6 +85,10 @@ var contentBreaks = []struct {
 		u := unitOf(r, 0)
 		u.Discharges = append([]int64{-1}, u.Discharges...)
 	}},
+	{"empty decomposition", "decomposition.empty", Note, "/trials/0/arrays/0/decompositions/0/units", func(r *record.Recording) {
+		d := &r.Trials[0].Arrays[0].Decompositions[0]
+		d.Units, d.MUAPs, d.ExtraColumns = nil, nil, nil
+	}},
 	{"doublet", "discharge.doublet", Note, "/trials/0/arrays/0/decompositions/0/units/0/discharges", func(r *record.Recording) {
 		u := unitOf(r, 0)
 		// 20 samples at 2048 Hz = 9.8 ms, under the 20 ms doublet gate.

@@ -15,13 +15,14 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"strconv"
 	"strings"
 
 	gplot "gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/plotutil"
+	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
@@ -138,8 +139,69 @@ func (r raster) DataRange() (xmin, xmax, ymin, ymax float64) {
 	return r.t0, r.t1, 0.4, float64(len(r.rows)) + 0.6
 }
 
+// palette holds 12 colours told apart in print and by most colour-vision
+// deficiencies (the qualitative "Paired" scheme reordered, common
+// practice); series beyond 12 repeat them and are keyed by text labels.
+var palette = []color.Color{
+	color.RGBA{31, 120, 180, 255}, color.RGBA{227, 26, 28, 255}, color.RGBA{51, 160, 44, 255},
+	color.RGBA{255, 127, 0, 255}, color.RGBA{106, 61, 154, 255}, color.RGBA{177, 89, 40, 255},
+	color.RGBA{166, 206, 227, 255}, color.RGBA{251, 154, 153, 255}, color.RGBA{178, 223, 138, 255},
+	color.RGBA{253, 191, 111, 255}, color.RGBA{202, 178, 214, 255}, color.RGBA{90, 90, 90, 255},
+}
+
 // unitColor is the colour of the i-th unit in recruitment order.
-func unitColor(i int) color.Color { return plotutil.Color(i) }
+func unitColor(i int) color.Color { return palette[i%len(palette)] }
+
+// message is a plot element that writes a line of text in the middle of
+// the data area (e.g. "no units").
+type message struct{ text string }
+
+func (m message) Plot(c draw.Canvas, p *gplot.Plot) {
+	st := text.Style{Color: color.RGBA{90, 90, 90, 255}, Font: font.From(gplot.DefaultFont, 14), Handler: gplot.DefaultTextHandler,
+		XAlign: draw.XCenter, YAlign: draw.YCenter}
+	c.FillText(st, vg.Point{X: (c.Min.X + c.Max.X) / 2, Y: (c.Min.Y + c.Max.Y) / 2}, m.text)
+}
+
+// endLabels writes each unit's id at the right end of its rate curve, in
+// its colour: the key of the rate panel, however many units there are.
+type endLabels struct {
+	at     plotter.XYs
+	labels []string
+	colors []color.Color
+}
+
+func (e endLabels) Plot(c draw.Canvas, p *gplot.Plot) {
+	trX, trY := p.Transforms(&c)
+	// Labels ending close together are pushed apart vertically (8 points).
+	type lab struct {
+		x, y vg.Length
+		i    int
+	}
+	ls := make([]lab, len(e.at))
+	for i, xy := range e.at {
+		ls[i] = lab{trX(xy.X), trY(xy.Y), i}
+	}
+	sort.Slice(ls, func(a, b int) bool { return ls[a].y < ls[b].y })
+	for k := 1; k < len(ls); k++ {
+		for j := 0; j < k; j++ {
+			if vgAbs(ls[k].x-ls[j].x) < vg.Points(14) && ls[k].y-ls[j].y < vg.Points(8) {
+				ls[k].y = ls[j].y + vg.Points(8)
+			}
+		}
+	}
+	for _, l := range ls {
+		st := text.Style{Color: e.colors[l.i], Font: font.From(gplot.DefaultFont, 8), Handler: gplot.DefaultTextHandler,
+			XAlign: draw.XLeft, YAlign: draw.YCenter}
+		c.FillText(st, vg.Point{X: l.x + vg.Points(2), Y: l.y}, e.labels[l.i])
+	}
+}
+
+func vgAbs(v vg.Length) vg.Length {
+	if v < 0 {
+		return -v
+	}
+	return v
+}
 
 // Overview draws the trial's force and target (% MVC when the MVC is known,
 // else force units) with the plateau shaded, the discharge raster of every
@@ -218,25 +280,36 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 	addTrace(tr.ForceTarget, "target", true, color.RGBA{R: 200, G: 60, B: 40, A: 255})
 	addTrace(tr.Force, "force", false, color.Black)
 	if legend {
+		// The key sits top left in headroom above the traces, never on them.
 		pf.Legend.Top = true
 		pf.Legend.Left = true
+		pf.Legend.XOffs = vg.Points(4)
+		pf.Y.Min = math.Min(0, pf.Y.Min)
+		pf.Y.Max = pf.Y.Max + 0.35*(pf.Y.Max-pf.Y.Min)
 	}
 
-	// Raster.
+	// Raster: one row per unit in recruitment order, labelled by unit id
+	// (the numbering of the unit table, the MUAP panels and the stats).
 	pr := gplot.New()
-	pr.Y.Label.Text = "unit (by recruitment)"
+	pr.Y.Label.Text = "unit id (by recruitment)"
 	rs := raster{t0: t0, t1: t1}
+	ids := make([]string, len(units))
 	for i, u := range units {
 		rs.rows = append(rs.rows, u.times)
 		rs.colors = append(rs.colors, unitColor(i))
+		ids[i] = strconv.FormatInt(u.id, 10)
 	}
 	pr.Add(rs)
-	pr.Y.Tick.Marker = unitTicks{len(units)}
+	pr.Y.Tick.Marker = unitTicks{ids}
+	if len(units) == 0 {
+		pr.Add(message{"no units in this decomposition"})
+	}
 
 	// Smoothed rates.
 	pq := gplot.New()
 	pq.X.Label.Text = "time from trial start (s)"
 	pq.Y.Label.Text = "smoothed rate (pps)"
+	var ends endLabels
 	for i, u := range units {
 		a, b := u.times[0], u.times[len(u.times)-1]
 		r := analysis.SmoothedRatePPS(u.times, a, b+rateStepS, rateStepS, analysis.SmoothedRateWindowS)
@@ -254,6 +327,14 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 		l.Color = unitColor(i)
 		l.Width = vg.Points(1)
 		pq.Add(l)
+		ends.at = append(ends.at, xy[len(xy)-1])
+		ends.labels = append(ends.labels, ids[i])
+		ends.colors = append(ends.colors, unitColor(i))
+	}
+	pq.Add(ends)
+	if len(units) == 0 {
+		pq.Add(message{"no units: no discharge rates"})
+		pq.Y.Max = 1
 	}
 	for _, p := range []*gplot.Plot{pf, pr, pq} {
 		p.X.Min, p.X.Max = t0, t1
@@ -284,31 +365,56 @@ func (p *plateauBand) Plot(c draw.Canvas, pl *gplot.Plot) {
 		{X: x0, Y: c.Min.Y}, {X: x1, Y: c.Min.Y}, {X: x1, Y: c.Max.Y}, {X: x0, Y: c.Max.Y}})
 }
 
-// plainTicks are gonum's default tick positions labelled in the shortest
-// decimal form ("25", not "25.00").
+// plainTicks put labelled ticks at a round step (1, 2, 2.5 or 5 times a
+// power of ten) giving about six labels over the range, with unlabelled
+// minor ticks between, labelled in the shortest decimal form ("25", not
+// "25.00", never "-0").
 type plainTicks struct{}
 
 func (plainTicks) Ticks(lo, hi float64) []gplot.Tick {
-	ts := gplot.DefaultTicks{}.Ticks(lo, hi)
-	for i := range ts {
-		if ts[i].Label != "" {
-			ts[i].Label = strconv.FormatFloat(ts[i].Value, 'g', 6, 64)
+	if !(hi > lo) || math.IsInf(hi-lo, 0) {
+		return gplot.DefaultTicks{}.Ticks(lo, hi)
+	}
+	raw := (hi - lo) / 6
+	mag := math.Pow(10, math.Floor(math.Log10(raw)))
+	step := 10 * mag
+	for _, f := range []float64{1, 2, 2.5, 5, 10} {
+		if f*mag >= raw {
+			step = f * mag
+			break
 		}
+	}
+	minor := step / 5
+	var ts []gplot.Tick
+	k0 := math.Ceil(lo/minor - 1e-9)
+	for k := k0; k*minor <= hi+1e-9*minor; k++ {
+		v := k * minor
+		t := gplot.Tick{Value: v}
+		if r := math.Round(v / step); math.Abs(v/step-r) < 1e-6 {
+			v = r * step
+			if v == 0 {
+				v = 0 // no "-0"
+			}
+			t.Value = v
+			t.Label = strconv.FormatFloat(v, 'g', 6, 64)
+		}
+		ts = append(ts, t)
 	}
 	return ts
 }
 
-// unitTicks label whole unit ranks 1..n, every k-th one so that at most
-// about ten labels show.
-type unitTicks struct{ n int }
+// unitTicks label raster rows 1..n with the units' ids, every k-th one so
+// that at most about 25 labels show.
+type unitTicks struct{ ids []string }
 
 func (u unitTicks) Ticks(lo, hi float64) []gplot.Tick {
-	k := max(1, (u.n+9)/10)
+	n := len(u.ids)
+	k := max(1, (n+24)/25)
 	var ts []gplot.Tick
-	for i := 1; i <= u.n; i++ {
+	for i := 1; i <= n; i++ {
 		t := gplot.Tick{Value: float64(i)}
 		if i == 1 || i%k == 0 {
-			t.Label = strconv.Itoa(i)
+			t.Label = u.ids[i-1]
 		}
 		ts = append(ts, t)
 	}

@@ -238,19 +238,12 @@ func statsTable(st []analysis.DecompositionStats) Table {
 	return t
 }
 
-// chosenDecomposition is the one the index counts: the last edited by hand,
-// else the last.
+// chosenDecomposition is the one the index counts (record.ReportedDecomposition).
 func chosenDecomposition(arr *record.Array) []int {
 	if len(arr.Decompositions) == 0 {
 		return nil
 	}
-	pick := len(arr.Decompositions) - 1
-	for i, d := range arr.Decompositions {
-		if d.EditedByHand {
-			pick = i
-		}
-	}
-	return []int{pick}
+	return []int{record.ReportedDecomposition(arr.Decompositions)}
 }
 
 func figures(rec *record.Recording, st []analysis.DecompositionStats) ([]Figure, []string, error) {

@@ -10,6 +10,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"muarc/analysis"
+	"muarc/internal/jsonclean"
 	"muarc/recfile"
 	"muarc/record"
 )
@@ -127,7 +128,7 @@ func runCompare(cmd *cobra.Command, args []string) error {
 		return withExit(2, fmt.Errorf("--tolerance-ms must be > 0, --max-lag-ms >= 0 and --min-roa in 0..1"))
 	}
 	for _, f := range []string{ra.File, rb.File} {
-		if err := checkInputFile(f); err != nil {
+		if err := analysis.CheckInputFile(f); err != nil {
 			return withExit(2, err)
 		}
 	}
@@ -182,7 +183,7 @@ func runCompare(cmd *cobra.Command, args []string) error {
 	}
 	w := cmd.OutOrStdout()
 	if compareFlags.json {
-		return printJSON(w, jsonClean(map[string]any{"a": res.A, "b": res.B, "units_a": res.UnitsA, "units_b": res.UnitsB,
+		return printJSON(w, jsonclean.Clean(map[string]any{"a": res.A, "b": res.B, "units_a": res.UnitsA, "units_b": res.UnitsB,
 			"lag_step_s": res.LagStepS, "tolerance_s": res.Comparison.ToleranceS, "max_lag_s": res.Comparison.MaxLagS,
 			"min_roa": res.Comparison.MinRoA, "pairs": res.Comparison.Pairs,
 			"unmatched_a": res.Comparison.UnmatchedA, "unmatched_b": res.Comparison.UnmatchedB}))

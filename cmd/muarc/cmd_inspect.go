@@ -65,8 +65,10 @@ type trialSummary struct {
 	DurationS    float64 `json:"duration_s"`
 	Channels     int     `json:"channels"`
 	RateHz       float64 `json:"sampling_rate_hz"`
-	Units        int     `json:"units"`
-	Discharges   int     `json:"discharges"`
+	// Decomposition is the one summarised (record.ReportedDecomposition).
+	Decomposition string `json:"decomposition,omitempty"`
+	Units         int    `json:"units"`
+	Discharges    int    `json:"discharges"`
 }
 
 func inspectFile(path string) (*inspection, error) {
@@ -118,10 +120,11 @@ func summarize(rec *record.Recording) []trialSummary {
 			_, ch := a.Samples.Shape()
 			s := trialSummary{Trial: t.Name, Array: a.Name, Muscle: a.Muscle, TargetPctMVC: t.TargetPctMVC,
 				DurationS: a.DurationS(), Channels: ch, RateHz: a.SamplingRateHz}
-			if len(a.Decompositions) > 0 {
-				// The first decomposition is the one summarised; inspect's
-				// tree lists every one.
-				d := a.Decompositions[0]
+			if k := record.ReportedDecomposition(a.Decompositions); k >= 0 {
+				// The decomposition summarised is the one index and report
+				// count (record.ReportedDecomposition); the tree lists every one.
+				d := a.Decompositions[k]
+				s.Decomposition = d.Name
 				s.Units = len(d.Units)
 				for _, u := range d.Units {
 					s.Discharges += len(u.Discharges)
@@ -164,9 +167,9 @@ func printInspection(w io.Writer, ins *inspection) {
 		return
 	}
 	fmt.Fprintln(w)
-	tw := newTable(w, "trial", "array", "muscle", "%MVC", "s", "channels", "Hz", "units", "discharges")
+	tw := newTable(w, "trial", "array", "muscle", "%MVC", "s", "channels", "Hz", "decomposition", "units", "discharges")
 	for _, s := range ins.Trials {
-		tw.row(s.Trial, s.Array, s.Muscle, fmtNum(s.TargetPctMVC), fmt.Sprintf("%.2f", s.DurationS), s.Channels, fmtNum(s.RateHz), s.Units, s.Discharges)
+		tw.row(s.Trial, s.Array, s.Muscle, fmtNum(s.TargetPctMVC), fmt.Sprintf("%.2f", s.DurationS), s.Channels, fmtNum(s.RateHz), s.Decomposition, s.Units, s.Discharges)
 	}
 	tw.flush()
 }

@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"muarc/analysis"
 	"path/filepath"
 )
 
@@ -20,7 +21,7 @@ func demoStats(ctx *demoContext) error {
 	bar := newProgress("stats", int64(len(ctx.Recordings)))
 	units := 0
 	for _, path := range ctx.Recordings {
-		res, err := statsFile(path, true, true)
+		res, err := analysis.StatsFile(path, true, true)
 		if err != nil {
 			bar.Finish()
 			return fmt.Errorf("stats: %w", err)
