@@ -9,8 +9,11 @@ DEMO    ?= demo-out
 # Debian packages: HDF5 and the compressor for building, and the outside
 # references the tests check against (h5dump, h5py, jsonschema, numpy/scipy,
 # pandas, headless Chromium for the report).
+# EDF+/BDF+ references: EDFlib (libedf-dev, compiled with gcc in a test),
+# MNE-Python and biosig's save2gdf.
 DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
-	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium
+	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium \
+	gcc libedf-dev python3-mne biosig-tools
 
 .PHONY: all deps build demo test bench fuzz vet clean
 
