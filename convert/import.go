@@ -177,6 +177,13 @@ func Read(in Inputs) (*Plan, error) {
 		}
 		arrays = append(arrays, it.array)
 		files = append(files, it)
+		if IsEDF(p) { // EDF/BDF(+): arrays, force and annotations of a trial (edf.go)
+			if err := pl.edfFile(it, prof); err != nil {
+				pl.Close()
+				return nil, err
+			}
+			continue
+		}
 		o := sopt
 		o.Unit = prof.EMG.Unit
 		o.Skip, o.Rename = prof.EMG.Skip, prof.EMG.Columns

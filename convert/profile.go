@@ -29,6 +29,8 @@ type Profile struct {
 	EMG        ProfileEMG        `yaml:"emg" json:"emg"`
 	Discharges ProfileDischarges `yaml:"discharges" json:"discharges"`
 	Units      ProfileUnits      `yaml:"units" json:"units"`
+	// EDF maps the signals of EDF/BDF files (edf.go).
+	EDF ProfileEDF `yaml:"edf" json:"edf"`
 
 	// File is the profile's own path ("" when built in).
 	File string `yaml:"-" json:"-"`

@@ -1,0 +1,507 @@
+package convert
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strconv"
+	"strings"
+
+	"muarc/edfplus"
+	"muarc/record"
+)
+
+// ProfileEDF maps the signals of EDF, EDF+, BDF and BDF+ files onto arrays
+// and force (PROFILES.md, "EDF and BDF files").
+type ProfileEDF struct {
+	// Arrays maps an array name to the labels of its channels, in order.
+	// Empty: every signal in a voltage unit goes to one array named by the
+	// file (the {array} of the template, else the file name).
+	Arrays map[string][]string `yaml:"arrays" json:"arrays"`
+	// Force and ForceTarget are the labels of the force and target
+	// signals. Empty: the one signal in N or N.m is the force.
+	Force       string `yaml:"force" json:"force"`
+	ForceTarget string `yaml:"force_target" json:"force_target"`
+	// Skip lists labels that are not read (trigger, status channels).
+	Skip []string `yaml:"skip" json:"skip"`
+}
+
+// IsEDF reports whether a file name ends in .edf or .bdf (any case).
+func IsEDF(path string) bool {
+	e := strings.ToLower(filepath.Ext(path))
+	return e == ".edf" || e == ".bdf"
+}
+
+// Calibration keys: the header values of each channel of an array read
+// from EDF/BDF, kept in the array's extra attributes so that an export
+// writes the same digital values (LAYOUT.md, "Arrays read from EDF or BDF").
+const (
+	ExtraEDFPhysicalMin = "edf_physical_min"
+	ExtraEDFPhysicalMax = "edf_physical_max"
+	ExtraEDFDigitalMin  = "edf_digital_min"
+	ExtraEDFDigitalMax  = "edf_digital_max"
+	ExtraEDFFormat      = "edf_format"
+	ExtraEDFPrefilter   = "edf_prefiltering"
+	ExtraEDFTransducer  = "edf_transducer"
+	// ExtraEDFAnnotations holds a trial's annotations that are not
+	// discharges, as a JSON array of {onset_s, duration_s, text}.
+	ExtraEDFAnnotations = "edf_annotations"
+	// ExtraEDFStart is the file's start date and clock time as written
+	// (local time, no zone: EDF stores none), "YYYY-MM-DDThh:mm:ss".
+	ExtraEDFStart = "edf_start_local"
+)
+
+// DischargeAnnotation is the annotation text of one discharge: "discharge
+// ARRAY/DECOMPOSITION unit ID". Its onset is the discharge time in seconds
+// from the file start.
+func DischargeAnnotation(array, decomposition string, unit int64) string {
+	return fmt.Sprintf("discharge %s/%s unit %d", array, decomposition, unit)
+}
+
+var dischargeText = regexp.MustCompile(`^discharge ([A-Za-z0-9_.-]+)/([A-Za-z0-9_.-]+) unit (-?[0-9]+)$`)
+
+// edfAnnotation is one annotation kept in ExtraEDFAnnotations.
+type edfAnnotation struct {
+	OnsetS    float64  `json:"onset_s"`
+	DurationS *float64 `json:"duration_s,omitempty"`
+	Text      string   `json:"text"`
+}
+
+func isVoltage(u string) bool {
+	switch u {
+	case "uV", "mV", "V", "nV":
+		return true
+	}
+	return false
+}
+
+func isForce(u string) bool { return u == "N" || u == "N.m" || u == "kN" || u == "Nm" }
+
+// edfFile reads one EDF/BDF file of a trial in a first pass (header,
+// annotations, force) and sets up its arrays to stream in the second.
+func (pl *Plan) edfFile(it input, prof *Profile) error {
+	r, err := edfplus.Open(it.path)
+	if err != nil {
+		return err
+	}
+	defer r.Close()
+	h := r.Header
+	if h.Discontinuous {
+		// Allowed only when the records turn out contiguous (checked below).
+		pl.Report.Notes = append(pl.Report.Notes, it.rel+": EDF+D/BDF+D file; its records are checked to be contiguous")
+	}
+	t := trialNamed(pl.Rec, it.trial)
+	bad := func(sig int, hint, format string, a ...any) error {
+		msg := fmt.Sprintf(format, a...)
+		if sig >= 0 {
+			msg = fmt.Sprintf("signal %d (%q): %s", sig+1, h.Signals[sig].Label, msg)
+		}
+		return &ParseError{File: it.path, Msg: msg, Hint: hint}
+	}
+	units := make([]string, len(h.Signals))
+	skip := map[string]bool{}
+	for _, l := range prof.EDF.Skip {
+		skip[l] = true
+	}
+	byLabel := map[string]int{}
+	for i, s := range h.Signals {
+		byLabel[s.Label] = i
+		if s.Annotations || skip[s.Label] {
+			continue
+		}
+		u, err := NormalizeUnit(s.PhysicalDimension)
+		if err != nil {
+			return bad(i, "fix the physical dimension or list the signal under edf.skip in the profile", "%v", err)
+		}
+		units[i] = u
+	}
+	// Which signal goes where.
+	arrays := map[string][]int{}
+	var order []string
+	force, target := -1, -1
+	taken := map[int]bool{}
+	pick := func(label, role string) (int, error) {
+		i, ok := byLabel[label]
+		if !ok {
+			return -1, bad(-1, "name a signal label of the file in the profile", "the profile's %s %q is not a signal of this file", role, label)
+		}
+		if taken[i] {
+			return -1, bad(i, "give each signal one role in the profile", "named twice in the profile")
+		}
+		taken[i] = true
+		return i, nil
+	}
+	if prof.EDF.Force != "" {
+		if force, err = pick(prof.EDF.Force, "edf.force"); err != nil {
+			return err
+		}
+	}
+	if prof.EDF.ForceTarget != "" {
+		if target, err = pick(prof.EDF.ForceTarget, "edf.force_target"); err != nil {
+			return err
+		}
+	}
+	// Channel lists: the profile's, else the metadata's arrays of this trial
+	// (matched by label), else every voltage signal in one array.
+	lists := prof.EDF.Arrays
+	if len(lists) == 0 {
+		for _, a := range t.Arrays {
+			if len(a.Channels) > 0 && a.Samples == nil {
+				if lists == nil {
+					lists = map[string][]string{}
+				}
+				for _, c := range a.Channels {
+					lists[a.Name] = append(lists[a.Name], c.Label)
+				}
+			}
+		}
+	}
+	if len(lists) > 0 {
+		for name := range lists {
+			order = append(order, name)
+		}
+		sort.Strings(order)
+		for _, name := range order {
+			for _, l := range lists[name] {
+				i, err := pick(l, "edf.arrays."+name)
+				if err != nil {
+					return err
+				}
+				arrays[name] = append(arrays[name], i)
+			}
+		}
+	} else {
+		name := it.array
+		if name == "" {
+			name = strings.TrimSuffix(filepath.Base(it.path), filepath.Ext(it.path))
+		}
+		order = []string{name}
+		for i, s := range h.Signals {
+			if !s.Annotations && !skip[s.Label] && !taken[i] && isVoltage(units[i]) {
+				arrays[name] = append(arrays[name], i)
+				taken[i] = true
+			}
+		}
+	}
+	for i, s := range h.Signals {
+		if s.Annotations || skip[s.Label] || taken[i] {
+			continue
+		}
+		if prof.EDF.Force == "" && force < 0 && isForce(units[i]) {
+			force, taken[i] = i, true
+			continue
+		}
+		return bad(i, "give it a role in the profile (edf.arrays, edf.force, edf.force_target) or list it under edf.skip",
+			"in unit %q, not taken by any array or as the force", s.PhysicalDimension)
+	}
+	// First pass: annotations, record continuity, force values.
+	var rec edfplus.Record
+	var anns []edfplus.Annotation
+	var fvals, tvals []float64
+	start := math.NaN()
+	for i := 0; i < h.Records; i++ {
+		if err := r.ReadRecord(i, &rec); err != nil {
+			return err
+		}
+		if i == 0 {
+			start = rec.OnsetS
+		} else if want := start + float64(i)*h.RecordDurationS; math.Abs(rec.OnsetS-want) > 1e-7 {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("data record %d starts at %.9g s, not %.9g s: the records are not contiguous", i, rec.OnsetS, want),
+				Hint: "muarc stores evenly sampled signals; split the file at the gap"}
+		}
+		anns = append(anns, rec.Annotations...)
+		if force >= 0 {
+			for _, d := range rec.Digital[force] {
+				fvals = append(fvals, h.Signals[force].Physical(d))
+			}
+		}
+		if target >= 0 {
+			for _, d := range rec.Digital[target] {
+				tvals = append(tvals, h.Signals[target].Physical(d))
+			}
+		}
+	}
+	if t.Extra == nil {
+		t.Extra = record.Extra{}
+	}
+	t.Extra[ExtraEDFStart] = h.Start.Format("2006-01-02T15:04:05")
+	if pl.Rec.Session.Date == "" {
+		pl.Rec.Session.Date = h.Start.Format("2006-01-02")
+	}
+	if force >= 0 {
+		t.Force = record.Signal{SamplingRateHz: h.SamplingRateHz(force), StartS: start, Unit: units[force], Values: fvals}
+		if t.MVCUnit == "" {
+			t.MVCUnit = units[force]
+		}
+	}
+	if target >= 0 {
+		t.ForceTarget = record.Signal{SamplingRateHz: h.SamplingRateHz(target), StartS: start, Unit: units[target], Values: tvals}
+	}
+	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, DType: "float64",
+		DTypeWhy: fmt.Sprintf("%s samples are kept as float64 physical values, which give every %d-bit digital value back exactly", h.Format, 8*h.Format.BytesPerSample())}
+	for _, name := range order {
+		sigs := arrays[name]
+		if len(sigs) == 0 {
+			continue
+		}
+		a := arrayNamed(t, name)
+		if err := pl.edfArray(it, prof, h, a, sigs, units, start); err != nil {
+			return err
+		}
+		fr.Array = strings.Join(order, ",")
+		fr.Channels += len(sigs)
+		fr.Rows = h.Records * h.Signals[sigs[0]].SamplesPerRecord
+		fr.RateHz = a.SamplingRateHz
+	}
+	// Discharges and other annotations.
+	var kept []edfAnnotation
+	count := 0
+	for _, an := range anns {
+		m := dischargeText.FindStringSubmatch(an.Text)
+		if m == nil {
+			ea := edfAnnotation{OnsetS: an.OnsetS, Text: an.Text}
+			if !math.IsNaN(an.DurationS) {
+				d := an.DurationS
+				ea.DurationS = &d
+			}
+			kept = append(kept, ea)
+			continue
+		}
+		var a *record.Array
+		for ai := range t.Arrays {
+			if t.Arrays[ai].Name == m[1] {
+				a = &t.Arrays[ai]
+			}
+		}
+		if a == nil || a.SamplingRateHz <= 0 {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("annotation %q at %s s names array %q, which this file does not hold", an.Text, an.OnsetText, m[1]),
+				Hint: "map the array's signals in the profile (edf.arrays)"}
+		}
+		x := (an.OnsetS - a.StartS) * a.SamplingRateHz
+		idx := math.Round(x)
+		rows, _ := a.Samples.Shape()
+		if math.Abs(x-idx) > 0.1 || idx < 0 || int(idx) >= rows {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("discharge annotation %q at %s s is %.3f samples into array %s, not on a sample inside the recording", an.Text, an.OnsetText, x, a.Name),
+				Hint: "discharge annotations must fall on the array's samples (0.1-sample tolerance)"}
+		}
+		id, _ := strconv.ParseInt(m[3], 10, 64)
+		d := decompNamed(a, m[2])
+		ui := -1
+		for k := range d.Units {
+			if d.Units[k].ID == id {
+				ui = k
+			}
+		}
+		if ui < 0 {
+			d.Units = append(d.Units, record.NewUnit(id))
+			ui = len(d.Units) - 1
+		}
+		d.Units[ui].Discharges = append(d.Units[ui].Discharges, int64(idx))
+		count++
+	}
+	for ai := range t.Arrays {
+		for di := range t.Arrays[ai].Decompositions {
+			for ui := range t.Arrays[ai].Decompositions[di].Units {
+				u := &t.Arrays[ai].Decompositions[di].Units[ui]
+				sort.Slice(u.Discharges, func(p, q int) bool { return u.Discharges[p] < u.Discharges[q] })
+			}
+		}
+	}
+	if len(kept) > 0 {
+		b, _ := json.Marshal(kept)
+		t.Extra[ExtraEDFAnnotations] = string(b)
+	}
+	fr.Discharges = count
+	fr.Notes = append(fr.Notes, fmt.Sprintf("%s%s, %d records of %s s, %d annotations (%d discharges)", h.Format, map[bool]string{true: "+", false: ""}[h.Plus], h.Records, h.RecordDurationText, len(anns), count))
+	if force >= 0 {
+		fr.Notes = append(fr.Notes, fmt.Sprintf("force from signal %q (%s)", h.Signals[force].Label, units[force]))
+	}
+	pl.Report.Files = append(pl.Report.Files, fr)
+	return nil
+}
+
+// edfArray fills one array from signals sigs of the file.
+func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.Array, sigs []int, units []string, start float64) error {
+	first := h.Signals[sigs[0]]
+	for _, i := range sigs {
+		s := h.Signals[i]
+		if s.SamplesPerRecord != first.SamplesPerRecord {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("signals %q and %q of array %s have different rates (%g and %g Hz)", first.Label, s.Label, a.Name, h.SamplingRateHz(sigs[0]), h.SamplingRateHz(i)),
+				Hint: "one array holds channels of one rate; map them to different arrays in the profile (edf.arrays)"}
+		}
+		if units[i] != units[sigs[0]] {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("signals %q and %q of array %s have different units (%s and %s)", first.Label, s.Label, a.Name, units[sigs[0]], units[i]),
+				Hint: "one array holds channels of one unit"}
+		}
+	}
+	rate := h.SamplingRateHz(sigs[0])
+	if a.SamplingRateHz > 0 && math.Abs(a.SamplingRateHz-rate) > 1e-9*rate {
+		return &ParseError{File: it.path, Msg: fmt.Sprintf("EMG rate %g Hz, the metadata says %g Hz for array %s", rate, a.SamplingRateHz, a.Name), Hint: "fix the rate in the metadata"}
+	}
+	if a.Unit != "" && a.Unit != units[sigs[0]] {
+		return &ParseError{File: it.path, Msg: fmt.Sprintf("EMG unit %q, the metadata says %q for array %s", units[sigs[0]], a.Unit, a.Name), Hint: "fix the unit in the metadata"}
+	}
+	a.SamplingRateHz, a.StartS, a.Unit, a.SampleType = rate, start, units[sigs[0]], record.Float64
+	if len(a.Channels) > 0 {
+		if len(a.Channels) != len(sigs) {
+			return &ParseError{File: it.path, Msg: fmt.Sprintf("array %s: %d signals, the metadata lists %d channels", a.Name, len(sigs), len(a.Channels)), Hint: "the metadata's channel list and the file's signals must match"}
+		}
+		for k, i := range sigs {
+			if a.Channels[k].Label != h.Signals[i].Label {
+				return &ParseError{File: it.path, Msg: fmt.Sprintf("array %s channel %d: the metadata says %q, the file's signal is %q", a.Name, k+1, a.Channels[k].Label, h.Signals[i].Label), Hint: "list the channels in the metadata in the file's signal order"}
+			}
+		}
+	} else {
+		for _, i := range sigs {
+			a.Channels = append(a.Channels, record.Channel{Label: h.Signals[i].Label, Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true})
+		}
+	}
+	for k := range a.Channels {
+		c := &a.Channels[k]
+		if pos, ok := prof.EMG.Channels[c.Label]; ok {
+			if pos.Row != nil {
+				c.Row = *pos.Row
+			}
+			if pos.Column != nil {
+				c.Column = *pos.Column
+			}
+			if pos.XMm != nil {
+				c.XMm = *pos.XMm
+			}
+			if pos.YMm != nil {
+				c.YMm = *pos.YMm
+			}
+			if pos.Usable != nil {
+				c.Usable = *pos.Usable
+			}
+		}
+	}
+	if a.Extra == nil {
+		a.Extra = record.Extra{}
+	}
+	var pmin, pmax, dmin, dmax []float64
+	pre, tr := first.Prefiltering, first.Transducer
+	for _, i := range sigs {
+		s := h.Signals[i]
+		pmin, pmax = append(pmin, s.PhysicalMin), append(pmax, s.PhysicalMax)
+		dmin, dmax = append(dmin, float64(s.DigitalMin)), append(dmax, float64(s.DigitalMax))
+		if s.Prefiltering != pre {
+			pre = ""
+		}
+		if s.Transducer != tr {
+			tr = ""
+		}
+	}
+	a.Extra[ExtraEDFPhysicalMin], a.Extra[ExtraEDFPhysicalMax] = pmin, pmax
+	a.Extra[ExtraEDFDigitalMin], a.Extra[ExtraEDFDigitalMax] = dmin, dmax
+	a.Extra[ExtraEDFFormat] = h.Format.String()
+	if pre != "" {
+		a.Extra[ExtraEDFPrefilter] = pre
+		lo, hi := parsePrefilter(pre)
+		if math.IsNaN(a.FilterLowHz) {
+			a.FilterLowHz = lo
+		}
+		if math.IsNaN(a.FilterHighHz) {
+			a.FilterHighHz = hi
+		}
+	}
+	if tr != "" {
+		a.Extra[ExtraEDFTransducer] = tr
+	}
+	if a.ADCBits == 0 {
+		a.ADCBits = 8 * h.Format.BytesPerSample()
+	}
+	src := &edfSource{path: it.path, sigs: sigs, rows: h.Records * first.SamplesPerRecord, spr: first.SamplesPerRecord, cur: -1}
+	a.Samples = src
+	return nil
+}
+
+var prefilterRe = regexp.MustCompile(`(?i)\b(HP|LP):\s*([0-9.]+)\s*(k?Hz)`)
+
+// parsePrefilter reads the EDF+ prefiltering convention "HP:0.1Hz LP:75Hz"
+// (EDF+ 2.1.3.5); NaN for a corner not given.
+func parsePrefilter(s string) (lowHz, highHz float64) {
+	lowHz, highHz = math.NaN(), math.NaN()
+	for _, m := range prefilterRe.FindAllStringSubmatch(s, -1) {
+		v, err := strconv.ParseFloat(m[2], 64)
+		if err != nil {
+			continue
+		}
+		if strings.EqualFold(m[3], "kHz") {
+			v *= 1000
+		}
+		if strings.EqualFold(m[1], "HP") {
+			lowHz = v
+		} else {
+			highHz = v
+		}
+	}
+	return lowHz, highHz
+}
+
+// edfSource streams an array's physical values from the file, record by
+// record: one record's digital values in memory whatever the length.
+type edfSource struct {
+	path       string
+	sigs       []int
+	rows, spr  int
+	r          *edfplus.Reader
+	rec        edfplus.Record
+	cur        int
+	calibrated []edfplus.Signal
+}
+
+func (s *edfSource) Shape() (int, int) { return s.rows, len(s.sigs) }
+
+func (s *edfSource) ReadFloat64(start int, dst []float64) error {
+	ch := len(s.sigs)
+	if len(dst)%ch != 0 {
+		return errors.New("convert: block is not a whole number of rows")
+	}
+	n := len(dst) / ch
+	if start < 0 || start+n > s.rows {
+		return fmt.Errorf("convert: rows [%d,%d) outside 0..%d", start, start+n, s.rows)
+	}
+	if s.r == nil {
+		r, err := edfplus.Open(s.path)
+		if err != nil {
+			return err
+		}
+		s.r = r
+		for _, i := range s.sigs {
+			s.calibrated = append(s.calibrated, r.Header.Signals[i])
+		}
+	}
+	for row := 0; row < n; row++ {
+		ri, k := (start+row)/s.spr, (start+row)%s.spr
+		if ri != s.cur {
+			if err := s.r.ReadRecord(ri, &s.rec); err != nil {
+				return err
+			}
+			s.cur = ri
+		}
+		for c, i := range s.sigs {
+			dst[row*ch+c] = s.calibrated[c].Physical(s.rec.Digital[i][k])
+		}
+	}
+	if start+n == s.rows {
+		s.r.Close()
+		s.r, s.cur, s.calibrated = nil, -1, nil
+	}
+	return nil
+}
+
+func (s *edfSource) ReadFloat32(start int, dst []float32) error {
+	buf := make([]float64, len(dst))
+	if err := s.ReadFloat64(start, buf); err != nil {
+		return err
+	}
+	for i, v := range buf {
+		dst[i] = float32(v)
+	}
+	return nil
+}
