@@ -238,20 +238,18 @@ func StatsFile(path string, muaps, write bool) (*FileStats, error) {
 	if _, err := StoreDerived(rec, st, tpl, time.Now()); err != nil {
 		return nil, err
 	}
-	tmp, err := atomicfile.TempPath(path)
+	t, err := atomicfile.Create(path, true)
 	if err != nil {
 		return nil, err
 	}
-	if err := recfile.Write(tmp, rec, recfile.WriteOptions{Overwrite: true}); err != nil {
-		os.Remove(tmp)
-		return nil, fmt.Errorf("%s: writing the figures: %w (the file is unchanged)", path, err)
+	if err := recfile.WriteInto(t.Path, rec, recfile.WriteOptions{Overwrite: true}); err != nil {
+		return nil, t.Abandon(fmt.Errorf("%s: writing the figures: %w (the file is unchanged)", path, err))
 	}
 	closed = true
 	if err := f.Close(); err != nil {
-		os.Remove(tmp)
-		return nil, err
+		return nil, t.Abandon(err)
 	}
-	if err := atomicfile.Publish(tmp, path, true); err != nil {
+	if err := t.Publish(); err != nil {
 		return nil, fmt.Errorf("%s: replacing the file: %w (the file is unchanged)", path, err)
 	}
 	out.Written = true

@@ -133,9 +133,14 @@ func StagingPath(out string) string {
 // The bag is built in StagingPath(out) and renamed into place at the end,
 // so out never holds half a deposit. The staging folder keeps a resume
 // cache (.pack-cache.jsonl: one JSON FileRecord per line, keyed by path,
-// size and modification time); an interrupted run, started again, copies
-// and hashes only what is new or changed. The cache is removed before the
-// rename, so the deposit carries no trace of the source folder's paths.
+// size and modification time); an interrupted run, started again, skips the
+// checks and the copy of what is unchanged in the source, but re-hashes
+// every staged copy it reuses and copies again any whose sums no longer
+// match. The cache is removed before the rename, so the deposit carries no
+// trace of the source folder's paths.
+//
+// A full file system stops the run with an *atomicfile.NoSpaceError naming
+// out; what was staged is kept for the next run.
 func Pack(src, out string, opt PackOptions) (*PackResult, error) {
 	p, err := newPacker(src, out, opt)
 	if err != nil {
@@ -153,6 +158,7 @@ type packer struct {
 	known    *fixityCache
 	mu       sync.Mutex
 	total    int64
+	fatal    error // a failure that ends the run (a full disk), not one file
 
 	study       studyInfo
 	identified  []string        // recordings packed with identifying fields
@@ -224,16 +230,17 @@ func (p *packer) run() (*PackResult, error) {
 	}
 	folder := !p.opt.Tar && !p.shardMode()
 	if folder {
+		p.oldDeposits()
 		p.staging = StagingPath(p.out)
 		if err := os.MkdirAll(filepath.Join(p.staging, bagit.PayloadDir, RecordingsDir), 0o755); err != nil {
-			return nil, err
+			return nil, atomicfile.NoSpace(p.out, err)
 		}
 		cp := filepath.Join(p.staging, cacheFile)
 		if err := p.cache.load(cp); err != nil {
 			return nil, fmt.Errorf("%s: %w (delete the staging folder to start over)", cp, err)
 		}
 		if err := p.cache.openAppend(cp); err != nil {
-			return nil, err
+			return nil, atomicfile.NoSpace(p.out, err)
 		}
 		defer p.cache.close()
 	}
@@ -258,6 +265,9 @@ func (p *packer) run() (*PackResult, error) {
 		return nil
 	}, nil)
 	p.res.HashSeconds = time.Since(start).Seconds()
+	if p.fatal != nil {
+		return p.res, p.fatal
+	}
 	for _, s := range skipped {
 		files = append(files, FileRecord{Path: s, Status: StatusSkipped, Message: "not a muarc recording (*.h5, *.hdf5); left out of the deposit"})
 	}
@@ -311,7 +321,7 @@ func (p *packer) run() (*PackResult, error) {
 	if err != nil {
 		return p.res, err
 	}
-	return p.res, p.finishFolder(files, docs)
+	return p.res, atomicfile.NoSpace(p.out, p.finishFolder(files, docs))
 }
 
 func (p *packer) abs(rel string) string { return filepath.Join(p.src, filepath.FromSlash(rel)) }
@@ -337,6 +347,10 @@ func (p *packer) progress(n int64) {
 // one checks, copies and hashes one recording (as far as the mode asks).
 func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 	fr := FileRecord{Path: rel}
+	if p.stopped() {
+		fr.Status, fr.Message = StatusError, "not packed: the run stopped on a full disk"
+		return fr, nil
+	}
 	path := p.abs(rel)
 	st, err := os.Stat(path)
 	if err != nil {
@@ -373,7 +387,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 	}
 	p.decide(&fr)
 	if fr.Status != StatusOK {
-		p.cache.putSync(&p.mu, fr)
+		p.record(fr)
 		p.progress(fr.Bytes) // not copied, but done with
 		return fr, sum
 	}
@@ -390,24 +404,96 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 		}
 	case p.opt.Tar:
 		// Hashed while the tar is written.
-	case fromCache && p.hasAll(fr) && sizeIs(p.dest(rel), fr.Bytes):
+	case fromCache && p.hasAll(fr) && p.stagedIntact(&fr):
 		p.count(false, 0)
-		p.progress(fr.Bytes)
 	case fromKnown && p.hasAll(fr):
-		if err := p.copyFile(&fr, path, false); err != nil {
+		err := p.copyFile(&fr, path)
+		if errors.Is(err, errSumsDiffer) {
+			// The shard report's facts are for other bytes: check again.
+			p.note("%s: %v of the shard report given with --known; checked, copied and hashed again", rel, err)
+			fr = FileRecord{Path: rel, Bytes: fr.Bytes, MtimeNs: fr.MtimeNs}
+			return p.checkAndCopy(fr, path, sum)
+		}
+		if err != nil {
+			p.stopOnNoSpace(err)
 			return fr, sum
 		}
 		p.count(false, 0)
 	default:
-		if err := p.copyFile(&fr, path, true); err != nil {
+		if fromCache && p.hasAll(fr) {
+			p.note("%s: the staged copy in %s no longer has the sums recorded when it was copied (changed or damaged since); copied and hashed again",
+				rel, p.staging)
+		}
+		fr.SHA256, fr.SHA512 = "", ""
+		if err := p.copyFile(&fr, path); err != nil {
+			p.stopOnNoSpace(err)
 			return fr, sum
 		}
 		p.count(true, fr.Bytes)
 	}
-	if err := p.cache.putSync(&p.mu, fr); err != nil {
-		p.note("resume cache not updated for %s: %v", rel, err)
-	}
+	p.record(fr)
 	return fr, sum
+}
+
+// checkAndCopy checks, copies and hashes one recording with no earlier
+// facts.
+func (p *packer) checkAndCopy(fr FileRecord, path string, sum *RecordingSummary) (FileRecord, *RecordingSummary) {
+	n, first, ident, err := checkRecording(path)
+	if err != nil {
+		fr.Status, fr.Message = StatusError, err.Error()
+		return fr, nil
+	}
+	fr.ValidationErrors, fr.Identifying = n, ident
+	if n > 0 {
+		fr.Message = "fails validation: " + strings.Join(first, "; ")
+	}
+	p.decide(&fr)
+	if fr.Status == StatusOK {
+		if err := p.copyFile(&fr, path); err != nil {
+			p.stopOnNoSpace(err)
+			return fr, sum
+		}
+		p.count(true, fr.Bytes)
+	}
+	p.record(fr)
+	return fr, sum
+}
+
+// record adds fr to the resume cache; a full disk ends the run.
+func (p *packer) record(fr FileRecord) {
+	if err := p.cache.putSync(&p.mu, fr); err != nil {
+		if !p.stopOnNoSpace(err) {
+			p.note("resume cache not updated for %s: %v", fr.Path, err)
+		}
+	}
+}
+
+// stopOnNoSpace ends the run when err says the disk is full (every further
+// file would fail the same way) and reports whether it did.
+func (p *packer) stopOnNoSpace(err error) bool {
+	err = atomicfile.NoSpace(p.out, err)
+	var ns *atomicfile.NoSpaceError
+	if !errors.As(err, &ns) {
+		return false
+	}
+	if ns.Path != p.out {
+		err = &atomicfile.NoSpaceError{Path: p.out, Err: err} // name the deposit, not a staged file
+	}
+	p.mu.Lock()
+	if p.fatal == nil {
+		p.fatal = err
+		if p.staging != "" {
+			p.fatal = fmt.Errorf("%w (what was staged is kept in %s; the next run continues from there)", err, p.staging)
+		}
+	}
+	p.mu.Unlock()
+	return true
+}
+
+func (p *packer) stopped() bool {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	return p.fatal != nil
 }
 
 func (p *packer) count(hashed bool, n int64) {

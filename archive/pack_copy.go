@@ -3,12 +3,14 @@
 package archive
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"os"
 	"path/filepath"
 
 	"muarc/archive/bagit"
+	"muarc/internal/atomicfile"
 )
 
 func sizeIs(path string, n int64) bool {
@@ -61,14 +63,15 @@ func (r progressReader) Read(b []byte) (int, error) {
 	return n, err
 }
 
-// copyFile copies the source into the staging folder (temp name, sync,
-// rename), hashing the bytes as they pass when hash is true.
-func (p *packer) copyFile(fr *FileRecord, path string, hash bool) error {
+// copyFile copies the source into the staging folder (a temporary file
+// from atomicfile, synced and renamed), hashing the bytes as they pass.
+// When fr already carries sums (from a shard report), the copy must give
+// the same: otherwise the source changed since those were made, and
+// errSumsDiffer is returned with fr left as it was.
+func (p *packer) copyFile(fr *FileRecord, path string) error {
 	fail := func(err error) error {
+		err = atomicfile.NoSpace(p.out, err)
 		fr.Status, fr.Message = StatusError, err.Error()
-		if hash {
-			fr.SHA256, fr.SHA512 = "", ""
-		}
 		return err
 	}
 	dst := p.dest(fr.Path)
@@ -80,53 +83,62 @@ func (p *packer) copyFile(fr *FileRecord, path string, hash bool) error {
 		return fail(err)
 	}
 	defer in.Close()
-	tmp := dst + ".copying"
-	out, err := os.OpenFile(tmp, os.O_WRONLY|os.O_CREATE|os.O_TRUNC, 0o644)
+	t, err := atomicfile.Create(dst, true)
 	if err != nil {
 		return fail(err)
 	}
-	h := newMultiHash(p.algs())
-	buf := make([]byte, bagit.BufferSize)
-	var n int64
-	for {
-		k, rerr := in.Read(buf)
-		if k > 0 {
-			if _, err := out.Write(buf[:k]); err != nil {
-				out.Close()
-				os.Remove(tmp)
-				return fail(err)
-			}
-			if hash {
-				h.Write(buf[:k])
-			}
-			n += int64(k)
-			p.progress(int64(k))
-		}
-		if rerr == io.EOF {
-			break
-		}
-		if rerr != nil {
-			out.Close()
-			os.Remove(tmp)
-			return fail(rerr)
-		}
+	out, err := t.Open()
+	if err != nil {
+		return fail(t.Abandon(err))
 	}
-	err = out.Sync()
+	h := newMultiHash(p.algs())
+	n, err := io.CopyBuffer(io.MultiWriter(out, h), progressReader{in, p.progress}, make([]byte, bagit.BufferSize))
 	if cerr := out.Close(); err == nil {
 		err = cerr
 	}
 	if err == nil {
 		err = unchanged(path, fr, n)
 	}
-	if err == nil {
-		err = os.Rename(tmp, dst)
-	}
 	if err != nil {
-		os.Remove(tmp)
+		return fail(t.Abandon(err))
+	}
+	var got FileRecord
+	h.set(&got)
+	if p.hasAll(*fr) && (got.SHA256 != fr.SHA256 || p.opt.SHA512 && got.SHA512 != fr.SHA512) {
+		os.Remove(t.Path)
+		return errSumsDiffer
+	}
+	if err := t.Publish(); err != nil {
 		return fail(err)
 	}
-	if hash {
-		h.set(fr)
-	}
+	fr.SHA256, fr.SHA512 = got.SHA256, got.SHA512
 	return nil
+}
+
+// errSumsDiffer: a copy's sums differ from those recorded for the same
+// path, size and modification time.
+var errSumsDiffer = errors.New("the content differs from the recorded sums although size and modification time match")
+
+// stagedIntact re-hashes the staged copy of a recording that the resume
+// cache says was copied, and reports whether it still has the recorded
+// sums. Size and modification time prove nothing about the bytes: a copy
+// damaged in the staging folder (a flipped bit, an edit) keeps both.
+func (p *packer) stagedIntact(fr *FileRecord) bool {
+	dst := p.dest(fr.Path)
+	if !sizeIs(dst, fr.Bytes) {
+		return false
+	}
+	f, err := os.Open(dst)
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	h := newMultiHash(p.algs())
+	n, err := io.CopyBuffer(h, progressReader{f, p.progress}, make([]byte, bagit.BufferSize))
+	if err != nil || n != fr.Bytes {
+		return false
+	}
+	var got FileRecord
+	h.set(&got)
+	return got.SHA256 == fr.SHA256 && (!p.opt.SHA512 || got.SHA512 == fr.SHA512)
 }

@@ -10,6 +10,7 @@ import (
 	"path"
 	"path/filepath"
 	"sort"
+	"strings"
 	"time"
 
 	"muarc/archive/bagit"
@@ -35,7 +36,7 @@ func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 		count++
 	}
 	for _, d := range docs {
-		if err := writeSynced(filepath.Join(p.staging, filepath.FromSlash(d.path)), d.data); err != nil {
+		if err := writeStaged(filepath.Join(p.staging, filepath.FromSlash(d.path)), d.data); err != nil {
 			return err
 		}
 		keep[d.path] = true
@@ -65,7 +66,7 @@ func (p *packer) finishFolder(files []FileRecord, docs []doc) error {
 	p.res.PayloadFiles, p.res.PayloadBytes = count, octets
 
 	for _, t := range p.tagFiles(entries, p.info(octets, count)) {
-		if err := writeSynced(filepath.Join(p.staging, t.path), t.data); err != nil {
+		if err := writeStaged(filepath.Join(p.staging, t.path), t.data); err != nil {
 			return err
 		}
 	}
@@ -96,23 +97,14 @@ func removeEmptyDirs(root string) {
 	}
 }
 
-func writeSynced(path string, data []byte) error {
+// writeStaged writes a generated file into the staging folder through
+// atomicfile (temporary file, sync, rename), replacing what an earlier run
+// left there.
+func writeStaged(path string, data []byte) error {
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
 		return err
 	}
-	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_TRUNC, 0o644)
-	if err != nil {
-		return err
-	}
-	if _, err := f.Write(data); err != nil {
-		f.Close()
-		return err
-	}
-	if err := f.Sync(); err != nil {
-		f.Close()
-		return err
-	}
-	return f.Close()
+	return atomicfile.WriteFile(path, data, true)
 }
 
 // publishDir renames the finished staging folder to out. With overwrite an
@@ -142,4 +134,33 @@ func publishDir(staging, out string, overwrite bool) error {
 		return os.RemoveAll(old)
 	}
 	return nil
+}
+
+// oldDeposits deals with the folders publishDir moves an existing deposit
+// to (".<name>.old-<time>") when a run stops before removing them. When
+// out exists the replacement finished and they are removed; when it does
+// not, one of them is the only copy of the earlier deposit, so they are
+// kept and listed with the command that puts the deposit back.
+func (p *packer) oldDeposits() {
+	dir, prefix := filepath.Dir(p.out), "."+filepath.Base(p.out)+".old-"
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return
+	}
+	_, err = os.Lstat(p.out)
+	outThere := err == nil
+	for _, e := range ents {
+		if !e.IsDir() || !strings.HasPrefix(e.Name(), prefix) {
+			continue
+		}
+		old := filepath.Join(dir, e.Name())
+		if outThere {
+			if err := os.RemoveAll(old); err == nil {
+				p.note("removed %s, the earlier deposit an interrupted --overwrite run had replaced", old)
+				continue
+			}
+		}
+		p.note("%s holds an earlier deposit that an interrupted --overwrite run moved aside; put it back with: mv -- %s %s (or remove it: rm -rf -- %s)",
+			old, atomicfile.ShellQuote(old), atomicfile.ShellQuote(p.out), atomicfile.ShellQuote(old))
+	}
 }

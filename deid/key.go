@@ -5,11 +5,8 @@ import (
 	"crypto/rand"
 	"crypto/sha256"
 	"encoding/hex"
-	"errors"
 	"fmt"
-	"io/fs"
 	"os"
-	"path/filepath"
 	"strings"
 
 	"muarc/internal/atomicfile"
@@ -43,46 +40,7 @@ func NewKeyFile(path string) (*Key, error) {
 // writeNew0600 writes data to a new file at path, mode 0600, never replacing
 // an existing file and never leaving a partial one.
 func writeNew0600(path string, data []byte) error {
-	if _, err := os.Lstat(path); err == nil {
-		return fmt.Errorf("%s: %w (refusing to overwrite; choose a new name)", path, atomicfile.ErrExists)
-	} else if !errors.Is(err, fs.ErrNotExist) {
-		return err
-	}
-	tmp, err := atomicfile.TempPath(path) // created empty, mode 0600
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp)
-	f, err := os.OpenFile(tmp, os.O_WRONLY|os.O_TRUNC, 0)
-	if err != nil {
-		return err
-	}
-	if err := f.Chmod(0o600); err != nil {
-		f.Close()
-		return err
-	}
-	if _, err := f.Write(data); err != nil {
-		f.Close()
-		return err
-	}
-	if err := f.Sync(); err != nil {
-		f.Close()
-		return err
-	}
-	if err := f.Close(); err != nil {
-		return err
-	}
-	if err := os.Link(tmp, path); err != nil {
-		if errors.Is(err, fs.ErrExist) {
-			return fmt.Errorf("%s: %w (refusing to overwrite; choose a new name)", path, atomicfile.ErrExists)
-		}
-		return err
-	}
-	if d, err := os.Open(filepath.Dir(path)); err == nil {
-		d.Sync()
-		d.Close()
-	}
-	return nil
+	return atomicfile.WriteNew(path, data, 0o600)
 }
 
 // LoadKey reads a key file: 64 hex digits (as NewKeyFile writes, surrounding

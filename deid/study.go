@@ -70,6 +70,7 @@ type FileOutcome struct {
 	// Error says why the file was not written ("" when it was).
 	Error string `json:"error,omitempty"`
 
+	err   error
 	rec   *Result
 	quasi QuasiIDs
 	pseud string // the subject's pseudonym, even when the policy drops the id
@@ -375,7 +376,7 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		fo, err := doFile(jobs[i], outDir, pol, ps, opt)
 		fo.Input = jobs[i].rel
 		if err != nil {
-			fo.Error = err.Error()
+			fo.Error, fo.err = err.Error(), err
 		}
 		rep.Files[i] = fo
 		return err
@@ -422,6 +423,18 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 	return rep, nil
 }
 
+// NoSpace returns the first failure that was a full disk (an
+// *atomicfile.NoSpaceError naming the output), or nil.
+func (r *StudyReport) NoSpace() error {
+	for _, f := range r.Files {
+		var ns *atomicfile.NoSpaceError
+		if errors.As(f.err, &ns) {
+			return ns
+		}
+	}
+	return nil
+}
+
 func viewString(view map[string]any, group, key string) string {
 	g, _ := view[group].(map[string]any)
 	s, _ := g[key].(string)
@@ -451,24 +464,17 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 		return fo, nil
 	}
 	final := filepath.Join(outDir, j.out)
-	if err := atomicfile.CheckTarget(final, opt.Overwrite); err != nil {
-		return fo, err
-	}
-	tmp, err := atomicfile.TempPath(final)
+	t, err := atomicfile.Create(final, opt.Overwrite)
 	if err != nil {
 		return fo, err
 	}
-	keepTmp := false
-	defer func() {
-		if !keepTmp {
-			os.Remove(tmp)
-		}
-	}()
 	// Hash the input's samples as the writer streams them (it reads each
-	// array once, in order), so the input need not be read twice.
+	// array once, in order), so the input need not be read twice. The
+	// output stays mode 0600 under its temporary name until it has passed
+	// the scan.
 	hashed := wrapSamples(res.Recording)
-	if err := recfile.Write(tmp, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
-		return fo, err
+	if err := recfile.WriteInto(t.Path, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
+		return fo, t.Abandon(fmt.Errorf("%s: %w", final, err))
 	}
 	known := map[string]string{}
 	for path, hs := range hashed {
@@ -477,16 +483,12 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 			known[path] = d
 		}
 	}
-	scan, n, err := verifyOutput(tmp, res, pol, known)
+	scan, n, err := verifyOutput(t.Path, res, pol, known)
 	fo.Scan, fo.DataChecked = scan, n
 	if err != nil {
-		return fo, err
+		return fo, t.Abandon(err)
 	}
-	if err := atomicfile.Publish(tmp, final, opt.Overwrite); err != nil {
-		return fo, err
-	}
-	keepTmp = true // renamed into place
-	return fo, nil
+	return fo, t.Publish()
 }
 
 // verifyOutput scans a written output for the original identifying values

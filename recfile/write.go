@@ -4,7 +4,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"os"
 	"regexp"
 	"slices"
 	"time"
@@ -47,7 +46,8 @@ type WriteOptions struct {
 // Write stores rec at path in layout v1. It writes a temporary file beside
 // path and renames it into place after a sync, so path is either the old
 // file (or absent) or the complete new one. It refuses an existing path
-// unless opt.Overwrite.
+// unless opt.Overwrite. A full file system gives an
+// *atomicfile.NoSpaceError naming path.
 func Write(path string, rec *record.Recording, opt WriteOptions) error {
 	if err := atomicfile.CheckTarget(path, opt.Overwrite); err != nil {
 		return err
@@ -55,15 +55,26 @@ func Write(path string, rec *record.Recording, opt WriteOptions) error {
 	if err := check(rec); err != nil {
 		return fmt.Errorf("%s: %w", path, err)
 	}
-	tmp, err := atomicfile.TempPath(path)
+	t, err := atomicfile.Create(path, opt.Overwrite)
 	if err != nil {
 		return err
 	}
-	if err := writeFile(tmp, rec, opt); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("%s: %w", path, err)
+	if err := writeFile(t.Path, rec, opt); err != nil {
+		return t.Abandon(fmt.Errorf("%s: %w", path, err))
 	}
-	return atomicfile.Publish(tmp, path, opt.Overwrite)
+	return t.Publish()
+}
+
+// WriteInto stores rec in the file at tmp directly, replacing what it
+// holds, with no temporary file of its own: for callers that hold an
+// atomicfile.Temp and publish it themselves after further checks
+// (de-identification scans its output first). The file keeps its mode
+// (0600 for a Temp). Anything else should call Write.
+func WriteInto(tmp string, rec *record.Recording, opt WriteOptions) error {
+	if err := check(rec); err != nil {
+		return err
+	}
+	return writeFile(tmp, rec, opt)
 }
 
 var nameRE = regexp.MustCompile(`^[A-Za-z0-9_][A-Za-z0-9_.\-]*$`)

@@ -167,6 +167,9 @@ func runDeidentify(cmd *cobra.Command, args []string) error {
 	} else {
 		printDeidReport(out, rep, deidFlags.out)
 	}
+	if err := rep.NoSpace(); err != nil {
+		return withExit(2, err)
+	}
 	if rep.Failed > 0 {
 		return silentExit(1)
 	}

@@ -180,6 +180,7 @@ type studyResult struct {
 	Output    string          `json:"output,omitempty"`
 	Report    *convert.Report `json:"report,omitempty"`
 	Error     string          `json:"error,omitempty"`
+	err       error
 }
 
 // importStudyDir imports every recording of a study folder into outDir and
@@ -212,7 +213,7 @@ func importStudyDir(src, outDir string, prof *convert.Profile, dtype record.Samp
 		rep, err := convert.ImportRecording(r.Inputs, out, recfile.WriteOptions{Overwrite: overwrite})
 		res[i].Report = rep
 		if err != nil {
-			res[i].Error = err.Error()
+			res[i].Error, res[i].err = err.Error(), err
 			return err
 		}
 		res[i].Output = out
@@ -263,6 +264,12 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 			fmt.Fprintf(w, "%d of %d recordings failed: %s\n", len(failed), len(res), strings.Join(failed, ", "))
 		} else {
 			fmt.Fprintf(w, "imported %d recordings into %s\n", len(res), fl.out)
+		}
+	}
+	for _, r := range res {
+		var ns *atomicfile.NoSpaceError
+		if errors.As(r.err, &ns) {
+			return withExit(2, ns)
 		}
 	}
 	if len(failed) > 0 {

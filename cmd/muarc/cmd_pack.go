@@ -42,8 +42,10 @@ data-protection law decide what may be shared.
 The bag is built in .DEPOSIT.partial beside DEPOSIT and renamed into place when
 complete. An interrupted run, started again with the same arguments, continues:
 the staging folder's .pack-cache.jsonl (path, size, modification time, SHA-256,
-check results; one JSON line per file) lets it skip files already copied and
-hashed. Delete the staging folder to start over.
+check results; one JSON line per file) lets it skip the checks and the copy of
+unchanged files; every staged copy it reuses is hashed again, and one whose
+sums no longer match is copied again. Delete the staging folder to start over.
+A full disk stops the run (exit 2) with what was staged kept.
 
 --tar writes one POSIX tar (ustar; pax where a name needs it) instead of a
 folder, hashing while it streams; -o - streams it to standard output.
@@ -51,8 +53,9 @@ folder, hashing while it streams; -o - streams it to standard output.
 --shard i/n checks and hashes only shard i of n of the recordings, in place,
 and writes a shard report (JSON) to -o; combine the reports with
 muarc merge-reports and give the merged report to the final run with --known,
-which then copies without checking or hashing again the files whose path, size
-and modification time match.`,
+which then copies without checking again the files whose path, size and
+modification time match (the copy is hashed, and a file whose sums differ from
+the report's is checked again).`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if out == "" {

@@ -13,6 +13,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"muarc/internal/atomicfile"
 	"muarc/schema"
 	"muarc/validate"
 )
@@ -63,6 +64,8 @@ func main() {
 	// in worker processes, so a file that crashes the HDF5 library is that
 	// file's read error (validate.Isolated).
 	validate.Validator = validate.Isolated
+	// Temporary files left by interrupted runs are cleaned or listed.
+	atomicfile.Notice = func(msg string) { fmt.Fprintln(os.Stderr, "muarc: note:", msg) }
 	err := rootCmd.Execute()
 	if err == nil {
 		return
@@ -71,6 +74,12 @@ func main() {
 	var ee *exitError
 	if errors.As(err, &ee) {
 		code = ee.code
+	}
+	// A full disk is never a finding about the inputs: exit 2 whatever the
+	// command classified it as.
+	var ns *atomicfile.NoSpaceError
+	if errors.As(err, &ns) {
+		code = 2
 	}
 	if !errors.Is(err, errSilent) {
 		fmt.Fprintln(os.Stderr, "muarc:", err)
