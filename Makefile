@@ -10,10 +10,11 @@ DEMO    ?= demo-out
 # references the tests check against (h5dump, h5py, jsonschema, numpy/scipy,
 # pandas, headless Chromium for the report).
 # EDF+/BDF+ references: EDFlib (libedf-dev, compiled with gcc in a test),
-# MNE-Python and biosig's save2gdf.
+# MNE-Python and biosig's save2gdf. R's hdf5r and npm's h5wasm (installed
+# into scripts/h5wasm from its package-lock.json) run LAYOUT.md's snippets.
 DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
 	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium \
-	gcc libedf-dev python3-mne biosig-tools
+	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r
 
 .PHONY: all deps build demo test bench fuzz vet clean
 
@@ -43,6 +44,7 @@ vet: deps
 # race detector off (cgo HDF5 calls are serialised by design) and CI=true so
 # a missing outside reference fails instead of skipping.
 test: deps
+	cd scripts/h5wasm && npm ci --silent --no-audit --no-fund
 	gofmt -l . | (! grep .) || (echo "gofmt would change the files above" && exit 1)
 	$(GO) vet ./...
 	CI=true $(GO) test -count=1 -timeout 30m ./...

@@ -29,6 +29,10 @@ const (
 	colDischargeN  = "discharge_count"
 	colID          = "id"
 	attrColumnUnit = "unit"
+	// attrListPosition is the 0-based place of a trial, array or
+	// decomposition among its siblings (layout 1.1), for readers that list
+	// group members alphabetically.
+	attrListPosition = "list_position"
 )
 
 // unitColumns are the fixed unit-table figure columns after id and

@@ -334,6 +334,7 @@ func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
 		return t, err
 	}
 	a := newAttrGet(f.path, g.Path(), as)
+	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	t.Task = a.str("task")
 	t.TargetPctMVC = a.num("target_pct_mvc")
 	t.MVC = a.num("mvc")
@@ -414,6 +415,7 @@ func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 		return ar, err
 	}
 	a := newAttrGet(f.path, g.Path(), as)
+	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	a.required("sampling_rate_hz")
 	ar.Muscle, ar.Side = a.str("muscle"), a.str("side")
 	ar.Rows, ar.Columns = a.int("rows"), a.int("columns")
@@ -595,6 +597,7 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 		return dec, err
 	}
 	a := newAttrGet(f.path, g.Path(), as)
+	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	dec.Method, dec.MethodVersion = a.str("method"), a.str("method_version")
 	dec.Parameters = a.str("parameters")
 	dec.EditedByHand = a.boolean("edited_by_hand")

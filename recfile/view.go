@@ -106,6 +106,8 @@ func childList(parent *h5.Group, name string, fn func(*h5.Group, map[string]any)
 				if err := attrsInto(m, c); err != nil {
 					return err
 				}
+				// The list's order in the view states the position.
+				delete(m, attrListPosition)
 				return fn(c, m)
 			}); err != nil {
 				return err

@@ -171,7 +171,7 @@ func checkName(where, name string, seen map[string]bool) error {
 
 func checkExtra(where string, x record.Extra, reserved []string) error {
 	for k, v := range x {
-		if !nameRE.MatchString(k) || slices.Contains(reserved, k) {
+		if !nameRE.MatchString(k) || slices.Contains(reserved, k) || k == attrListPosition {
 			return invalid(where, "extra field %q is not a plain name or is a layout field", k)
 		}
 		switch v.(type) {
@@ -313,7 +313,7 @@ func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error)
 	}
 	defer trials.Close()
 	for i := range rec.Trials {
-		if err := w.trial(trials, &rec.Trials[i]); err != nil {
+		if err := w.trial(trials, &rec.Trials[i], i); err != nil {
 			return err
 		}
 	}
@@ -337,13 +337,13 @@ func group(parent *h5.Group, name string, a attrs, extra record.Extra) error {
 	return a.write(g, extra)
 }
 
-func (w *writer) trial(parent *h5.Group, t *record.Trial) error {
+func (w *writer) trial(parent *h5.Group, t *record.Trial, pos int) error {
 	g, err := parent.CreateGroup(t.Name)
 	if err != nil {
 		return err
 	}
 	defer g.Close()
-	var a attrs
+	a := attrs{{attrListPosition, int64(pos)}}
 	a.str("task", t.Task)
 	a.num("target_pct_mvc", t.TargetPctMVC)
 	a.num("mvc", t.MVC)
@@ -369,7 +369,7 @@ func (w *writer) trial(parent *h5.Group, t *record.Trial) error {
 	}
 	defer arrays.Close()
 	for i := range t.Arrays {
-		if err := w.array(arrays, &t.Arrays[i]); err != nil {
+		if err := w.array(arrays, &t.Arrays[i], i); err != nil {
 			return err
 		}
 	}
@@ -395,13 +395,13 @@ func writeSignal(g *h5.Group, name string, s record.Signal) error {
 	return a.write(d, nil)
 }
 
-func (w *writer) array(parent *h5.Group, ar *record.Array) error {
+func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
 	g, err := parent.CreateGroup(ar.Name)
 	if err != nil {
 		return err
 	}
 	defer g.Close()
-	var a attrs
+	a := attrs{{attrListPosition, int64(pos)}}
 	a.str("muscle", ar.Muscle)
 	a.str("side", ar.Side)
 	a.any("rows", int64(ar.Rows))
@@ -433,7 +433,7 @@ func (w *writer) array(parent *h5.Group, ar *record.Array) error {
 	}
 	defer decs.Close()
 	for i := range ar.Decompositions {
-		if err := writeDecomposition(decs, &ar.Decompositions[i]); err != nil {
+		if err := writeDecomposition(decs, &ar.Decompositions[i], i); err != nil {
 			return err
 		}
 	}
@@ -549,14 +549,39 @@ func writeChannels(parent *h5.Group, chs []record.Channel) error {
 		name string
 		v    any
 	}{{"label", label}, {"row", row}, {"column", col}, {"x_mm", x}, {"y_mm", y}, {"usable", ok}} {
-		if err := g.WriteColumn(c.name, c.v); err != nil {
+		if err := writeColumn(g, "channel", c.name, c.v); err != nil {
 			return err
 		}
 	}
 	return nil
 }
 
-func writeDecomposition(parent *h5.Group, d *record.Decomposition) error {
+// writeColumn writes a table column of one of the registry's table groups
+// with a `unit` attribute when the registry gives the column a unit
+// (layout 1.1), so a reader finds every column's unit beside its values.
+func writeColumn(g *h5.Group, group, name string, v any) error {
+	if err := g.WriteColumn(name, v); err != nil {
+		return err
+	}
+	for _, f := range schema.FieldsOf(group) {
+		if f.Name != name || f.Unit == "" {
+			continue
+		}
+		return setColumnUnit(g, name, f.Unit)
+	}
+	return nil
+}
+
+func setColumnUnit(g *h5.Group, name, unit string) error {
+	ds, err := g.OpenDataset(name, 0)
+	if err != nil {
+		return err
+	}
+	defer ds.Close()
+	return ds.SetAttr(attrColumnUnit, unit)
+}
+
+func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) error {
 	g, err := parent.CreateGroup(d.Name)
 	if err != nil {
 		return err
@@ -566,7 +591,7 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition) error {
 	if params == "" {
 		params = "{}"
 	}
-	var a attrs
+	a := attrs{{attrListPosition, int64(pos)}}
 	a.str("method", d.Method)
 	a.str("method_version", d.MethodVersion)
 	a.any("parameters", params)
@@ -609,7 +634,7 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition) error {
 		return err
 	}
 	for k, name := range unitColumns {
-		if err := units.WriteColumn(name, figs[k]); err != nil {
+		if err := writeColumn(units, "unit", name, figs[k]); err != nil {
 			return err
 		}
 	}
@@ -622,13 +647,7 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition) error {
 			return err
 		}
 		if c.Unit != "" {
-			ds, err := units.OpenDataset(c.Name, 0)
-			if err != nil {
-				return err
-			}
-			err = ds.SetAttr(attrColumnUnit, c.Unit)
-			ds.Close()
-			if err != nil {
+			if err := setColumnUnit(units, c.Name, c.Unit); err != nil {
 				return err
 			}
 		}
@@ -683,7 +702,7 @@ func writeProvenance(root *h5.Group, p record.Provenance) error {
 		n string
 		v any
 	}{{"name", name}, {"role", role}, {"sha256", sha}, {"bytes", bytes}} {
-		if err := src.WriteColumn(c.n, c.v); err != nil {
+		if err := writeColumn(src, "source", c.n, c.v); err != nil {
 			return err
 		}
 	}

@@ -57,3 +57,28 @@ func missing(t testing.TB, what, detail string) {
 	}
 	t.Skipf("%s not available: %s", what, strings.TrimSpace(detail))
 }
+
+// NeedFile checks that a file or folder an outside reference needs exists
+// (for example an npm package that make test installs); what names it.
+func NeedFile(t testing.TB, path, what string) string {
+	t.Helper()
+	if _, err := os.Stat(path); err != nil {
+		missing(t, what, err.Error())
+	}
+	return path
+}
+
+// NeedR returns Rscript after checking that R loads every package named
+// (Debian r-cran-<package>).
+func NeedR(t testing.TB, packages ...string) string {
+	t.Helper()
+	rs := NeedTool(t, "Rscript", "r-base-core")
+	code := ""
+	for _, p := range packages {
+		code += "suppressPackageStartupMessages(library(" + p + "));"
+	}
+	if out, err := exec.Command(rs, "-e", code).CombinedOutput(); err != nil {
+		missing(t, "R packages "+strings.Join(packages, ", ")+" (Debian r-cran-<package>)", err.Error()+": "+string(out))
+	}
+	return rs
+}
