@@ -2,7 +2,6 @@ package convert
 
 import (
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"path/filepath"
@@ -124,6 +123,7 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	var order []string
 	force, target := -1, -1
 	taken := map[int]bool{}
+	labelOf := map[int]string{}
 	pick := func(label, role string) (int, error) {
 		i, ok := byLabel[label]
 		if !ok {
@@ -174,6 +174,20 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 				arrays[name] = append(arrays[name], i)
 			}
 		}
+	} else if ours := transducerArrays(h, skip); ours != nil {
+		// Written by muarc's export: the transducer field names array and channel.
+		for i := range h.Signals {
+			ac, ok := ours[i]
+			if !ok {
+				continue
+			}
+			if _, ok := arrays[ac[0]]; !ok {
+				order = append(order, ac[0])
+			}
+			arrays[ac[0]] = append(arrays[ac[0]], i)
+			labelOf[i] = ac[1]
+			taken[i] = true
+		}
 	} else {
 		name := it.array
 		if name == "" {
@@ -189,6 +203,14 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	}
 	for i, s := range h.Signals {
 		if s.Annotations || skip[s.Label] || taken[i] {
+			continue
+		}
+		if prof.EDF.Force == "" && force < 0 && s.Transducer == transducerForce {
+			force, taken[i] = i, true
+			continue
+		}
+		if prof.EDF.ForceTarget == "" && target < 0 && s.Transducer == transducerForceTarget {
+			target, taken[i] = i, true
 			continue
 		}
 		if prof.EDF.Force == "" && force < 0 && isForce(units[i]) {
@@ -249,7 +271,7 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 			continue
 		}
 		a := arrayNamed(t, name)
-		if err := pl.edfArray(it, prof, h, a, sigs, units, start); err != nil {
+		if err := pl.edfArray(it, prof, h, a, sigs, units, labelOf, start); err != nil {
 			return err
 		}
 		fr.Array = strings.Join(order, ",")
@@ -257,6 +279,19 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 		fr.Rows = h.Records * h.Signals[sigs[0]].SamplesPerRecord
 		fr.RateHz = a.SamplingRateHz
 	}
+	// Where padded signals end (muarc's export marks them).
+	rest := anns[:0:0]
+	for _, an := range anns {
+		name, ok := strings.CutPrefix(an.Text, samplesEndText)
+		if !ok {
+			rest = append(rest, an)
+			continue
+		}
+		if err := pl.edfEnd(it, t, name, an.OnsetS-start); err != nil {
+			return err
+		}
+	}
+	anns = rest
 	// Discharges and other annotations.
 	var kept []edfAnnotation
 	count := 0
@@ -325,7 +360,13 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 }
 
 // edfArray fills one array from signals sigs of the file.
-func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.Array, sigs []int, units []string, start float64) error {
+func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.Array, sigs []int, units []string, labelOf map[int]string, start float64) error {
+	label := func(i int) string {
+		if l, ok := labelOf[i]; ok {
+			return l
+		}
+		return h.Signals[i].Label
+	}
 	first := h.Signals[sigs[0]]
 	for _, i := range sigs {
 		s := h.Signals[i]
@@ -351,13 +392,13 @@ func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.A
 			return &ParseError{File: it.path, Msg: fmt.Sprintf("array %s: %d signals, the metadata lists %d channels", a.Name, len(sigs), len(a.Channels)), Hint: "the metadata's channel list and the file's signals must match"}
 		}
 		for k, i := range sigs {
-			if a.Channels[k].Label != h.Signals[i].Label {
-				return &ParseError{File: it.path, Msg: fmt.Sprintf("array %s channel %d: the metadata says %q, the file's signal is %q", a.Name, k+1, a.Channels[k].Label, h.Signals[i].Label), Hint: "list the channels in the metadata in the file's signal order"}
+			if a.Channels[k].Label != label(i) {
+				return &ParseError{File: it.path, Msg: fmt.Sprintf("array %s channel %d: the metadata says %q, the file's signal is %q", a.Name, k+1, a.Channels[k].Label, label(i)), Hint: "list the channels in the metadata in the file's signal order"}
 			}
 		}
 	} else {
 		for _, i := range sigs {
-			a.Channels = append(a.Channels, record.Channel{Label: h.Signals[i].Label, Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true})
+			a.Channels = append(a.Channels, record.Channel{Label: label(i), Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true})
 		}
 	}
 	for k := range a.Channels {
@@ -420,88 +461,64 @@ func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.A
 	return nil
 }
 
-var prefilterRe = regexp.MustCompile(`(?i)\b(HP|LP):\s*([0-9.]+)\s*(k?Hz)`)
-
-// parsePrefilter reads the EDF+ prefiltering convention "HP:0.1Hz LP:75Hz"
-// (EDF+ 2.1.3.5); NaN for a corner not given.
-func parsePrefilter(s string) (lowHz, highHz float64) {
-	lowHz, highHz = math.NaN(), math.NaN()
-	for _, m := range prefilterRe.FindAllStringSubmatch(s, -1) {
-		v, err := strconv.ParseFloat(m[2], 64)
-		if err != nil {
-			continue
+// edfEnd cuts the padding of a signal whose samples end at endS seconds
+// after the first record ("samples end: NAME").
+func (pl *Plan) edfEnd(it input, t *record.Trial, name string, endS float64) error {
+	cut := func(rate float64, have int) (int, error) {
+		n := endS * rate
+		if math.Abs(n-math.Round(n)) > 0.1 || n < 0 || int(math.Round(n)) > have {
+			return 0, &ParseError{File: it.path, Msg: fmt.Sprintf("annotation %q at %g s is not on a sample of %s", samplesEndText+name, endS, name), Hint: "the annotation marks where a padded signal ends"}
 		}
-		if strings.EqualFold(m[3], "kHz") {
-			v *= 1000
+		return int(math.Round(n)), nil
+	}
+	switch name {
+	case "force", "force_target":
+		sig := &t.Force
+		if name == "force_target" {
+			sig = &t.ForceTarget
 		}
-		if strings.EqualFold(m[1], "HP") {
-			lowHz = v
-		} else {
-			highHz = v
-		}
-	}
-	return lowHz, highHz
-}
-
-// edfSource streams an array's physical values from the file, record by
-// record: one record's digital values in memory whatever the length.
-type edfSource struct {
-	path       string
-	sigs       []int
-	rows, spr  int
-	r          *edfplus.Reader
-	rec        edfplus.Record
-	cur        int
-	calibrated []edfplus.Signal
-}
-
-func (s *edfSource) Shape() (int, int) { return s.rows, len(s.sigs) }
-
-func (s *edfSource) ReadFloat64(start int, dst []float64) error {
-	ch := len(s.sigs)
-	if len(dst)%ch != 0 {
-		return errors.New("convert: block is not a whole number of rows")
-	}
-	n := len(dst) / ch
-	if start < 0 || start+n > s.rows {
-		return fmt.Errorf("convert: rows [%d,%d) outside 0..%d", start, start+n, s.rows)
-	}
-	if s.r == nil {
-		r, err := edfplus.Open(s.path)
+		n, err := cut(sig.SamplingRateHz, len(sig.Values))
 		if err != nil {
 			return err
 		}
-		s.r = r
-		for _, i := range s.sigs {
-			s.calibrated = append(s.calibrated, r.Header.Signals[i])
-		}
+		sig.Values = sig.Values[:n]
+		return nil
 	}
-	for row := 0; row < n; row++ {
-		ri, k := (start+row)/s.spr, (start+row)%s.spr
-		if ri != s.cur {
-			if err := s.r.ReadRecord(ri, &s.rec); err != nil {
+	for ai := range t.Arrays {
+		a := &t.Arrays[ai]
+		if src, ok := a.Samples.(*edfSource); ok && a.Name == name {
+			n, err := cut(a.SamplingRateHz, src.rows)
+			if err != nil {
 				return err
 			}
-			s.cur = ri
-		}
-		for c, i := range s.sigs {
-			dst[row*ch+c] = s.calibrated[c].Physical(s.rec.Digital[i][k])
+			src.rows = n
+			return nil
 		}
 	}
-	if start+n == s.rows {
-		s.r.Close()
-		s.r, s.cur, s.calibrated = nil, -1, nil
-	}
-	return nil
+	return &ParseError{File: it.path, Msg: fmt.Sprintf("annotation %q names no signal of the file", samplesEndText+name), Hint: "the annotation marks where a padded signal ends"}
 }
 
-func (s *edfSource) ReadFloat32(start int, dst []float32) error {
-	buf := make([]float64, len(dst))
-	if err := s.ReadFloat64(start, buf); err != nil {
-		return err
+// transducerArrays reads muarc's transducer convention "sEMG array NAME
+// channel LABEL" on every voltage signal: signal -> [array, label]. nil
+// when any signal does not follow it.
+func transducerArrays(h *edfplus.Header, skip map[string]bool) map[int][2]string {
+	out := map[int][2]string{}
+	for i, s := range h.Signals {
+		if s.Annotations || skip[s.Label] || s.Transducer == transducerForce || s.Transducer == transducerForceTarget {
+			continue
+		}
+		rest, ok := strings.CutPrefix(s.Transducer, transducerArray)
+		if !ok {
+			return nil
+		}
+		name, label, ok := strings.Cut(rest, transducerChannel)
+		if !ok || name == "" || label == "" {
+			return nil
+		}
+		out[i] = [2]string{name, label}
 	}
-	for i, v := range buf {
-		dst[i] = float32(v)
+	if len(out) == 0 {
+		return nil
 	}
-	return nil
+	return out
 }

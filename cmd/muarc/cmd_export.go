@@ -14,7 +14,7 @@ import (
 func init() {
 	var (
 		what, shape, format, out, timeBase string
-		overwrite, asJSON                  bool
+		overwrite, asJSON, allowIdent      bool
 	)
 	cmd := &cobra.Command{
 		Use:   "export FILE",
@@ -28,9 +28,18 @@ Files go to DIR/<trial>/force.csv, emg_<array>.csv, discharges_<array>_<decompos
 units_<array>_<decomposition>.csv and DIR/metadata.json: the names the built-in import
 profile reads, so "muarc import DIR" gives the same recording back. Numbers are written
 with the shortest digits that read back to the same value; discharges as 0-based sample
-indices (or, with --time-base s, seconds that round back to the same samples). Each file is written atomically; existing files are kept unless --overwrite.`,
+indices (or, with --time-base s, seconds that round back to the same samples). Each file is written atomically; existing files are kept unless --overwrite.
+
+  muarc export FILE --format bdf|edf -o DIR [--allow-identified]
+
+writes DIR/<trial>.bdf (BDF+, 24-bit) or .edf (EDF+, 16-bit): arrays and force as signals,
+discharges as annotations "discharge ARRAY/DECOMPOSITION unit ID", the EDF+ patient field
+from the pseudonym ("X" for unknowns). Only de-identified recordings unless --allow-identified.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if format == "bdf" || format == "edf" { // cmd_export_edf.go
+				return exportEDF(cmd.OutOrStdout(), cmd.ErrOrStderr(), args[0], out, format, allowIdent, overwrite, asJSON)
+			}
 			if out == "" {
 				return withExit(2, errors.New("give the output folder with -o"))
 			}
@@ -46,7 +55,8 @@ indices (or, with --time-base s, seconds that round back to the same samples). E
 	f.StringVar(&what, "what", "all", "what to write: signals, discharges, units, metadata (comma-separated) or all")
 	f.StringVar(&shape, "shape", "long", "discharge shape: long (unit, sample), columns, lines or matrix")
 	f.StringVar(&timeBase, "time-base", "samples", "discharge times: samples (0-based indices, exact) or s (seconds)")
-	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata)")
+	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata); bdf or edf for one BDF+ (24-bit) or EDF+ (16-bit) file per trial")
+	f.BoolVar(&allowIdent, "allow-identified", false, "with --format bdf|edf: write a recording that still carries identifying fields")
 	f.StringVarP(&out, "output", "o", "", "output folder")
 	f.BoolVar(&overwrite, "overwrite", false, "replace existing files")
 	f.BoolVar(&asJSON, "json", false, "list the files written as JSON")

@@ -1,0 +1,98 @@
+package convert
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"regexp"
+	"strconv"
+	"strings"
+
+	"muarc/edfplus"
+)
+
+var prefilterRe = regexp.MustCompile(`(?i)\b(HP|LP):\s*([0-9.]+)\s*(k?Hz)`)
+
+// parsePrefilter reads the EDF+ prefiltering convention "HP:0.1Hz LP:75Hz"
+// (EDF+ 2.1.3.5); NaN for a corner not given.
+func parsePrefilter(s string) (lowHz, highHz float64) {
+	lowHz, highHz = math.NaN(), math.NaN()
+	for _, m := range prefilterRe.FindAllStringSubmatch(s, -1) {
+		v, err := strconv.ParseFloat(m[2], 64)
+		if err != nil {
+			continue
+		}
+		if strings.EqualFold(m[3], "kHz") {
+			v *= 1000
+		}
+		if strings.EqualFold(m[1], "HP") {
+			lowHz = v
+		} else {
+			highHz = v
+		}
+	}
+	return lowHz, highHz
+}
+
+// edfSource streams an array's physical values from the file, record by
+// record: one record's digital values in memory whatever the length.
+type edfSource struct {
+	path       string
+	sigs       []int
+	rows, spr  int
+	r          *edfplus.Reader
+	rec        edfplus.Record
+	cur        int
+	calibrated []edfplus.Signal
+}
+
+func (s *edfSource) Shape() (int, int) { return s.rows, len(s.sigs) }
+
+func (s *edfSource) ReadFloat64(start int, dst []float64) error {
+	ch := len(s.sigs)
+	if len(dst)%ch != 0 {
+		return errors.New("convert: block is not a whole number of rows")
+	}
+	n := len(dst) / ch
+	if start < 0 || start+n > s.rows {
+		return fmt.Errorf("convert: rows [%d,%d) outside 0..%d", start, start+n, s.rows)
+	}
+	if s.r == nil {
+		r, err := edfplus.Open(s.path)
+		if err != nil {
+			return err
+		}
+		s.r = r
+		for _, i := range s.sigs {
+			s.calibrated = append(s.calibrated, r.Header.Signals[i])
+		}
+	}
+	for row := 0; row < n; row++ {
+		ri, k := (start+row)/s.spr, (start+row)%s.spr
+		if ri != s.cur {
+			if err := s.r.ReadRecord(ri, &s.rec); err != nil {
+				return err
+			}
+			s.cur = ri
+		}
+		for c, i := range s.sigs {
+			dst[row*ch+c] = s.calibrated[c].Physical(s.rec.Digital[i][k])
+		}
+	}
+	if start+n == s.rows {
+		s.r.Close()
+		s.r, s.cur, s.calibrated = nil, -1, nil
+	}
+	return nil
+}
+
+func (s *edfSource) ReadFloat32(start int, dst []float32) error {
+	buf := make([]float64, len(dst))
+	if err := s.ReadFloat64(start, buf); err != nil {
+		return err
+	}
+	for i, v := range buf {
+		dst[i] = float32(v)
+	}
+	return nil
+}
