@@ -103,7 +103,9 @@ func TestApplyDefault(t *testing.T) {
 	if d := tr.Arrays[0].Decompositions[0]; len(d.Units) != 1 || &d.Units[0].Discharges[0] != &in.Trials[0].Arrays[0].Decompositions[0].Units[0].Discharges[0] || d.Units[0].PNRdB != 31.5 {
 		t.Error("units not carried")
 	}
-	if cols := tr.Arrays[0].Decompositions[0].ExtraColumns; len(cols) != 2 {
+	// A text column is free text: dropped unless the policy names it; the
+	// number column is kept through the "units[].extra.*" pattern.
+	if cols := tr.Arrays[0].Decompositions[0].ExtraColumns; len(cols) != 1 || cols[0].Name != "cov_force" {
 		t.Errorf("unit columns %v", cols)
 	}
 	src := out.Provenance.Sources[0]
@@ -189,7 +191,9 @@ func TestApplyRefusesLeakyKeptField(t *testing.T) {
 	}
 	in = identifiable()
 	in.Trials[0].Arrays[0].Decompositions[0].ExtraColumns[0].Text[0] = "Pell Anwick" // the operator, whose field is dropped
-	if _, err := Apply(in, Options{Pseudonymizer: testKey(t)}); err == nil || !strings.Contains(err.Error(), "units[0].extra.rater") {
+	pol, _ = ParsePolicy([]byte(`{"name":"p","base":"muarc-safe-harbor-1","fields":{"trials[].arrays[].decompositions[].units[].extra.rater":"keep"}}`), "p")
+	if _, err := Apply(in, Options{Policy: pol, Pseudonymizer: testKey(t)}); err == nil || !strings.Contains(err.Error(), "units[0].extra.rater") ||
+		!strings.Contains(err.Error(), `"trials[].arrays[].decompositions[].units[].extra.rater" to drop, pseudonymize, scrub, shift or year`) {
 		t.Fatalf("kept unit column with the operator's name: %v", err)
 	}
 	in = identifiable()

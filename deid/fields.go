@@ -2,142 +2,117 @@ package deid
 
 import (
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
+
+	"muarc/schema"
 )
 
-// kind is what sort of value a metadata field holds; it decides which
-// actions make sense.
-type kind int
+// The facts about each metadata field (its path, its class, the actions a
+// policy may choose for it, its default) live in the field registry,
+// schema.Fields; this file only reads them.
 
-const (
-	kindValue   kind = iota // a number, enum or descriptive text that is not about the person
-	kindID                  // an identifier
-	kindText                // free text that may identify
-	kindDate                // a calendar date or date-time about the person
-	kindAge                 // age in years
-	kindAgeBand             // an age band
-	kindMeasure             // body height or mass
-	kindName                // a group name (trial, array, decomposition): must stay present
-	kindTime                // a history time stamp: must stay present
-	kindSource              // a source file name
-	kindExtra               // an extra field (any value type)
-	kindData                // a signal or template block
-	kindFixed               // always carried (a yes/no without "unknown")
-)
+// extraClass is the class of an extra field ("<group>.extra.<name>"): any
+// value type, so the actions of schema.ExtraActions.
+const extraClass schema.Class = "extra"
 
-var allowed = map[kind][]Action{
-	kindValue:   {Keep, Drop},
-	kindID:      {Keep, Drop, Pseudonymize},
-	kindText:    {Keep, Drop, Scrub},
-	kindDate:    {Keep, Drop, Shift, Year},
-	kindAge:     {Keep, Drop, Generalize},
-	kindAgeBand: {Keep, Drop, Generalize},
-	kindMeasure: {Keep, Drop, Generalize},
-	kindName:    {Keep, Pseudonymize},
-	kindTime:    {Keep, Shift, Year},
-	kindSource:  {Drop, Pseudonymize},
-	kindExtra:   {Keep, Drop, Pseudonymize, Scrub, Shift, Year},
-	kindData:    {Keep, Drop},
-	kindFixed:   {Keep},
-}
-
-// catalogue lists every named metadata field of the layout (policy form of
-// the metadata-view path) and its kind. Extra fields ("<group>.extra.<name>")
-// are kindExtra.
-var catalogue = map[string]kind{
-	"study.id": kindValue, "study.title": kindValue, "study.description": kindValue,
-	"study.contact": kindValue, "study.license": kindValue,
-
-	"subject.id": kindID, "subject.name": kindText, "subject.birth_date": kindDate,
-	"subject.age_years": kindAge, "subject.age_band": kindAgeBand, "subject.sex": kindValue,
-	"subject.height_cm": kindMeasure, "subject.mass_kg": kindMeasure,
-	"subject.dominant_side": kindValue, "subject.phone": kindText, "subject.email": kindText,
-	"subject.notes": kindText,
-
-	"session.id": kindID, "session.date": kindDate, "session.site": kindText,
-	"session.operator": kindText, "session.notes": kindText,
-
-	"trials[].name": kindName, "trials[].task": kindValue, "trials[].target_pct_mvc": kindValue,
-	"trials[].mvc": kindValue, "trials[].mvc_unit": kindValue, "trials[].profile_shape": kindValue,
-	"trials[].rest_s": kindValue, "trials[].ramp_up_s": kindValue, "trials[].plateau_s": kindValue,
-	"trials[].ramp_down_s": kindValue, "trials[].notes": kindText,
-	"trials[].force": kindData, "trials[].force_target": kindData,
-
-	"trials[].arrays[].name": kindName, "trials[].arrays[].muscle": kindValue,
-	"trials[].arrays[].side": kindValue, "trials[].arrays[].rows": kindValue,
-	"trials[].arrays[].columns": kindValue, "trials[].arrays[].ied_mm": kindValue,
-	"trials[].arrays[].gain": kindValue, "trials[].arrays[].adc_bits": kindValue,
-	"trials[].arrays[].filter_low_hz": kindValue, "trials[].arrays[].filter_high_hz": kindValue,
-	"trials[].arrays[].montage": kindValue, "trials[].arrays[].reference": kindValue,
-	"trials[].arrays[].unit": kindValue,
-
-	"trials[].arrays[].decompositions[].name":             kindName,
-	"trials[].arrays[].decompositions[].method":           kindValue,
-	"trials[].arrays[].decompositions[].method_version":   kindValue,
-	"trials[].arrays[].decompositions[].parameters":       kindValue,
-	"trials[].arrays[].decompositions[].edited_by_hand":   kindFixed,
-	"trials[].arrays[].decompositions[].notes":            kindText,
-	"trials[].arrays[].decompositions[].muaps":            kindData,
-	"trials[].arrays[].decompositions[].derived.computed": kindTime,
-
-	"provenance.sources[].name": kindSource, "provenance.sources[].role": kindValue,
-	"provenance.sources[].sha256": kindValue, "provenance.sources[].bytes": kindValue,
-	"provenance.history[].action": kindValue, "provenance.history[].software": kindValue,
-	"provenance.history[].time": kindTime, "provenance.history[].details": kindValue,
-}
-
-// carried lists what is always copied bit-exact and is not a policy field:
-// the recorded data themselves.
-var carried = []string{
-	"trials[].arrays[].sampling_rate_hz", "trials[].arrays[].start_s",
-	"trials[].arrays[].sample_type", "trials[].arrays[].samples",
-	"trials[].arrays[].channels",
-	"trials[].arrays[].decompositions[].units (id and figures)",
-	"trials[].arrays[].decompositions[].discharges",
-	"trials[].arrays[].decompositions[].derived (figures, method, templates)",
-}
-
-// extraGroups are the groups that may carry extra fields, in policy form.
-var extraGroups = []string{
-	"study", "subject", "session", "trials[]", "trials[].arrays[]",
-	"trials[].arrays[].decompositions[].units[]",
-}
-
-// kindOf returns the kind of a policy path, or false when the path is not a
-// field of the layout.
-func kindOf(path string) (kind, bool) {
-	if k, ok := catalogue[path]; ok {
-		return k, true
+// policyField returns the registry field a policy path names, or false
+// when it is not a policy field (recorded data, root attributes, unknown).
+func policyField(path string) (schema.Field, bool) {
+	f, ok := schema.FieldByPath(path)
+	if !ok || !isPolicyClass(f.Class) {
+		return schema.Field{}, false
 	}
-	for _, g := range extraGroups {
-		rest, ok := strings.CutPrefix(path, g+".extra.")
-		if ok && (rest == "*" || rest != "" && !strings.ContainsAny(rest, "[]*")) {
-			return kindExtra, true
+	return f, true
+}
+
+func isPolicyClass(c schema.Class) bool { return c != schema.ClassCarried && c != schema.ClassFile }
+
+// classOf returns the class of a policy path and whether the path is a
+// policy field of the layout (a named field or an extra-field path).
+func classOf(path string) (schema.Class, bool) {
+	if f, ok := policyField(path); ok {
+		return f.Class, true
+	}
+	if _, _, ok := schema.ExtraGroupOf(path); ok {
+		return extraClass, true
+	}
+	return "", false
+}
+
+// actionsOf are the actions a policy may choose for a path ("" class: none).
+func actionsOf(path string) []Action {
+	c, ok := classOf(path)
+	if !ok {
+		return nil
+	}
+	names := schema.ExtraActions
+	if c != extraClass {
+		names = schema.ClassActions[c]
+	}
+	out := make([]Action, len(names))
+	for i, n := range names {
+		out[i] = Action(n)
+	}
+	return out
+}
+
+// policyPaths lists every named policy field of the registry and every
+// "<group>.extra.*" pattern, sorted.
+func policyPaths() []string {
+	var out []string
+	for _, f := range schema.Fields {
+		if isPolicyClass(f.Class) {
+			out = append(out, f.Path())
 		}
 	}
-	return 0, false
+	for _, g := range schema.Groups {
+		if g.Extras {
+			out = append(out, g.Prefix+".extra.*")
+		}
+	}
+	sort.Strings(out)
+	return out
 }
 
 // checkField reports a path that is not a field or an action not allowed.
 func checkField(path string, act Action) error {
-	k, ok := kindOf(path)
-	if !ok {
+	acts := actionsOf(path)
+	if acts == nil {
 		return fmt.Errorf("field %q is not a metadata field of the layout (paths look like \"subject.name\", \"trials[].notes\", \"subject.extra.*\"; the data themselves are always kept)%s", path, suggestPath(path))
 	}
-	for _, a := range allowed[k] {
-		if a == act {
-			return nil
-		}
+	if slices.Contains(acts, act) {
+		return nil
 	}
-	names := make([]string, len(allowed[k]))
-	for i, a := range allowed[k] {
-		names[i] = string(a)
-	}
-	return fmt.Errorf("field %q: action %q not possible here (choose %s)", path, act, strings.Join(names, ", "))
+	return fmt.Errorf("field %q: action %q not possible here (choose %s)", path, act, joinActions(acts))
 }
 
-// suggestPath names the catalogue paths closest to a mistyped one (at most
+// joinActions writes actions as "keep, drop or scrub".
+func joinActions(acts []Action) string {
+	names := make([]string, len(acts))
+	for i, a := range acts {
+		names[i] = string(a)
+	}
+	if len(names) <= 1 {
+		return strings.Join(names, "")
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " or " + names[len(names)-1]
+}
+
+// fixActions are the actions that take a value out of an output, for a
+// hint: every action the field allows except keep.
+func fixActions(path string) []Action {
+	var out []Action
+	for _, a := range actionsOf(path) {
+		if a != Keep {
+			out = append(out, a)
+		}
+	}
+	return out
+}
+
+// suggestPath names the registry paths closest to a mistyped one (at most
 // two edits away, or with the same last part).
 func suggestPath(path string) string {
 	last := path
@@ -145,12 +120,11 @@ func suggestPath(path string) string {
 		last = path[i+1:]
 	}
 	var hits []string
-	for p := range catalogue {
+	for _, p := range policyPaths() {
 		if strings.HasSuffix(p, "."+last) || editDistance(p, path) <= 2 {
 			hits = append(hits, p)
 		}
 	}
-	sort.Strings(hits)
 	if len(hits) == 0 || len(hits) > 6 {
 		return ""
 	}

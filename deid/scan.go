@@ -156,13 +156,16 @@ func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 	}
 	found := make([]Leak, len(forms))
 	margin := maxLen + ctxBytes // a match and the bytes after it
-	buf := make([]byte, 0, scanBlock+margin+2)
-	var base int64 // file offset of buf[0]
-	next := 0      // first position of buf not yet examined
+	orig := make([]byte, 0, scanBlock+margin+2)
+	buf := make([]byte, 0, scanBlock+margin+2) // orig with ASCII letters lower-cased
+	var base int64                             // file offset of buf[0]
+	next := 0                                  // first position of buf not yet examined
 	for {
-		n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
-		lowerASCII(buf[len(buf) : len(buf)+n])
-		buf = buf[:len(buf)+n]
+		n, err := io.ReadFull(r, orig[len(orig):cap(orig)])
+		orig = orig[:len(orig)+n]
+		buf = buf[:len(orig)]
+		copy(buf[len(buf)-n:], orig[len(orig)-n:])
+		lowerASCII(buf[len(buf)-n:])
 		eof := err == io.EOF || errors.Is(err, io.ErrUnexpectedEOF)
 		if err != nil && !eof {
 			return nil, err
@@ -179,7 +182,7 @@ func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 			for _, fi := range by4[binary.BigEndian.Uint32(buf[i:])] {
 				f := &forms[fi]
 				end := i + len(f.pat)
-				if end > len(buf) || !bytes.Equal(buf[i:end], f.pat) || !bounded(buf, i, end, f.encoding) {
+				if end > len(buf) || !bytes.Equal(buf[i:end], f.pat) || !bounded(orig, i, end, f.encoding) {
 					continue
 				}
 				if len(f.pat) < shortNeedle && !textContext(buf, i, end, base == 0, eof) {
@@ -196,8 +199,10 @@ func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 		}
 		// Keep the bytes before the next position for the context tests.
 		cut := max(limit-ctxBytes, 0)
-		copy(buf, buf[cut:])
-		buf = buf[:len(buf)-cut]
+		copy(orig, orig[cut:])
+		orig = orig[:len(orig)-cut]
+		buf = buf[:len(orig)]
+		copy(buf, buf[cut:cut+len(orig)])
 		base += int64(cut)
 		next = limit - cut
 	}
@@ -248,40 +253,72 @@ func textContext(hay []byte, pos, end int, atStart, atEOF bool) bool {
 	return 4*ok >= 3*n
 }
 
-// bounded reports whether the match hay[pos:end] is not part of a longer
-// word: the unit before and after is not an ASCII letter or digit.
+// bounded reports whether the match hay[pos:end] (hay in its original
+// case) starts and ends at a token boundary, so an identifier is found
+// inside a longer token ("Hallbeck01", "S01Hallbeck", "AnnaHallbeck",
+// "hallbeck_s01") but not inside an ordinary word ("Ana" in "analysis",
+// "Ella" in "patella"). An end of the match that is a letter needs a
+// neighbour that is not a letter, or a change from small to capital letter
+// between them; an end that is a digit needs a neighbour that is not a
+// digit. A character outside ASCII counts as a boundary (in raw bytes it is
+// mostly binary data; a miss there is worse than a doubtful match).
 func bounded(hay []byte, pos, end int, enc string) bool {
-	alnum := func(c byte) bool { return c >= '0' && c <= '9' || c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' }
-	switch enc {
-	case "utf-16le":
-		if pos >= 2 && hay[pos-1] == 0 && alnum(hay[pos-2]) {
-			return false
+	w := 1
+	if enc == "utf-16le" || enc == "utf-16be" {
+		w = 2
+	}
+	unit := func(i int) (byte, bool) {
+		if i < 0 || i+w > len(hay) {
+			return 0, false
 		}
-		if end+1 < len(hay) && hay[end+1] == 0 && alnum(hay[end]) {
-			return false
+		switch enc {
+		case "utf-16le":
+			if hay[i+1] != 0 {
+				return 0x80, true
+			}
+			return hay[i], true
+		case "utf-16be":
+			if hay[i] != 0 {
+				return 0x80, true
+			}
+			return hay[i+1], true
 		}
-	case "utf-16be":
-		if pos >= 2 && hay[pos-2] == 0 && alnum(hay[pos-1]) {
-			return false
-		}
-		if end+1 < len(hay) && hay[end] == 0 && alnum(hay[end+1]) {
-			return false
-		}
-	default:
-		if pos >= 1 && alnum(hay[pos-1]) {
-			return false
-		}
-		if end < len(hay) && alnum(hay[end]) {
-			return false
-		}
+		return hay[i], true
+	}
+	first, _ := unit(pos)
+	last, _ := unit(end - w)
+	if prev, ok := unit(pos - w); ok && !edge(prev, first) {
+		return false
+	}
+	if next, ok := unit(end); ok && !edge(last, next) {
+		return false
 	}
 	return true
 }
+
+// edge reports whether a token boundary lies between the characters a and
+// b (a before b), one of them part of the match: no boundary inside a run
+// of letters (except from a small to a capital letter) or of digits.
+func edge(a, b byte) bool {
+	switch {
+	case isLetter(a) && isLetter(b):
+		return isLower(a) && isUpper(b)
+	case isDigit(a) && isDigit(b):
+		return false
+	}
+	return true
+}
+
+func isLower(c byte) bool  { return c >= 'a' && c <= 'z' }
+func isUpper(c byte) bool  { return c >= 'A' && c <= 'Z' }
+func isDigit(c byte) bool  { return c >= '0' && c <= '9' }
+func isLetter(c byte) bool { return isLower(c) || isUpper(c) }
 
 // scanText searches decoded text (a metadata view as JSON, a string column)
 // for needles as whole words, ASCII letters without regard to case. It finds
 // what compression hides from ScanBytes.
 func scanText(text string, needles []string) []string {
+	orig := []byte(text)
 	low := string(lowerASCII([]byte(text)))
 	var hits []string
 	seen := map[string]bool{}
@@ -297,7 +334,7 @@ func scanText(text string, needles []string) []string {
 				break
 			}
 			pos := at + j
-			if bounded([]byte(low), pos, pos+len(pat), "utf-8") {
+			if bounded(orig, pos, pos+len(pat), "utf-8") {
 				hits = append(hits, n)
 				break
 			}

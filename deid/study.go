@@ -12,6 +12,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -21,6 +22,7 @@ import (
 	"muarc/internal/batch"
 	"muarc/recfile"
 	"muarc/record"
+	"muarc/schema"
 )
 
 // StudyOptions control DeidentifyStudy and DeidentifyFile.
@@ -67,6 +69,9 @@ type FileOutcome struct {
 	// DataChecked is the number of datasets whose values were compared with
 	// the input's by SHA-256 and found identical.
 	DataChecked int `json:"datasets_bit_exact,omitempty"`
+	// Findings are the strings that would still identify, by path, with
+	// the policy line that fixes each (when the file was refused for them).
+	Findings []Finding `json:"findings,omitempty"`
 	// Error says why the file was not written ("" when it was).
 	Error string `json:"error,omitempty"`
 
@@ -89,6 +94,9 @@ type ScanSummary struct {
 	// Leaks are the values found (masked), in the raw bytes or in the
 	// decoded metadata view.
 	Leaks []string `json:"leaks"`
+	// Findings are the strings of the output read back that still hold an
+	// original value, by path.
+	Findings []Finding `json:"findings,omitempty"`
 	// StillIdentifying are paths IdentifyingFields reports in the output.
 	StillIdentifying []string `json:"still_identifying,omitempty"`
 }
@@ -126,18 +134,13 @@ type StudyReport struct {
 // Caution is printed with every report.
 const Caution = "muarc helps de-identify; it does not certify. The ethics board, the consent given and local data-protection law decide what may be shared. A face photograph, a voice recording or a rare diagnosis in any attachment can identify a person too."
 
-// Plan returns every field of the layout, in a stable order, with what the
-// policy does to it, then the data carried unchanged.
+// Plan returns every field of the layout (from the field registry), in a
+// stable order, with what the policy does to it, then the recorded data
+// carried unchanged.
 func (p *Policy) Plan() []PlanLine {
-	paths := make([]string, 0, len(catalogue))
-	for k := range catalogue {
-		paths = append(paths, k)
-	}
-	for _, g := range extraGroups {
-		paths = append(paths, g+".extra.*")
-	}
+	paths := policyPaths()
 	for k := range p.Fields {
-		if _, ok := catalogue[k]; !ok && !strings.HasSuffix(k, ".extra.*") {
+		if !slices.Contains(paths, k) {
 			paths = append(paths, k)
 		}
 	}
@@ -149,12 +152,44 @@ func (p *Policy) Plan() []PlanLine {
 		if !named {
 			s = "drop (not named in the policy)"
 		}
+		if k == "trials[].arrays[].decompositions[].units[].extra.*" && act != Drop {
+			s += " (number columns; a text column is dropped unless named on its own)"
+		}
 		out = append(out, PlanLine{k, s})
 	}
-	for _, c := range carried {
-		out = append(out, PlanLine{c, "keep (the recorded data, always carried bit-exact)"})
+	for _, f := range schema.Fields {
+		if f.Class == schema.ClassCarried {
+			out = append(out, PlanLine{f.Path(), "keep (the recorded data, always carried bit-exact)"})
+		}
 	}
+	out = append(out, PlanLine{"trials[].arrays[].decompositions[].discharges", "keep (the recorded data, always carried bit-exact)"})
 	return out
+}
+
+// checkLinkage checks, before anything is written, that the linkage file
+// can be written where asked: outside the output folder, in a folder that
+// exists and takes a new file, and not over an existing file.
+func checkLinkage(path, outDir string) error {
+	if path == "" {
+		return nil
+	}
+	if insideDir(path, outDir) {
+		return fmt.Errorf("%s: the linkage file must not lie inside the output folder %s (it links pseudonyms back to people); give a path beside the originals", path, outDir)
+	}
+	if _, err := os.Lstat(path); err == nil {
+		return fmt.Errorf("%s: %w (refusing to overwrite a linkage file; give a new name)", path, atomicfile.ErrExists)
+	}
+	dir := filepath.Dir(path)
+	fi, err := os.Stat(dir)
+	if err != nil || !fi.IsDir() {
+		return fmt.Errorf("%s: the linkage file's folder %s does not exist; create it first (nothing was written)", path, dir)
+	}
+	probe, err := os.CreateTemp(dir, ".linkage-probe-*")
+	if err != nil {
+		return fmt.Errorf("%s: cannot write in %s: %v (nothing was written)", path, dir, err)
+	}
+	probe.Close()
+	return os.Remove(probe.Name())
 }
 
 // job is one input file of a run.
@@ -309,13 +344,8 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		rep.Shard = opt.Shard.String()
 		rep.Notes = append(rep.Notes, "this run covers one shard: collisions and k-anonymity are judged within the shard only; run the report without --shard for the whole study")
 	}
-	if opt.Linkage != "" {
-		if insideDir(opt.Linkage, outDir) {
-			return nil, fmt.Errorf("%s: the linkage file must not lie inside the output folder %s (it links pseudonyms back to people)", opt.Linkage, outDir)
-		}
-		if _, err := os.Lstat(opt.Linkage); err == nil && !opt.DryRun {
-			return nil, fmt.Errorf("%s: %w (refusing to overwrite a linkage file)", opt.Linkage, atomicfile.ErrExists)
-		}
+	if err := checkLinkage(opt.Linkage, outDir); err != nil {
+		return nil, err
 	}
 	if opt.DryRun {
 		rep.Plan = pol.Plan()
@@ -377,6 +407,10 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		fo.Input = jobs[i].rel
 		if err != nil {
 			fo.Error, fo.err = err.Error(), err
+			var oe *OutputError
+			if errors.As(err, &oe) {
+				fo.Findings = oe.Findings
+			}
 		}
 		rep.Files[i] = fo
 		return err
@@ -460,10 +494,18 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	fo.Subject, fo.Session = res.Subject, res.Session
 	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
 	fo.quasi, fo.rec, fo.pseud = res.Quasi, res, ps.Subject(j.subj)
+	final := filepath.Join(outDir, j.out)
+	if err := atomicfile.CheckTarget(final, opt.Overwrite); err != nil {
+		return fo, err // a dry run says so too
+	}
+	if pol.SHA256() == Default().SHA256() {
+		if still := IdentifyingFields(res.Recording); len(still) > 0 {
+			return fo, fmt.Errorf("the output would still hold identifying fields %s; it was not written", strings.Join(still, ", "))
+		}
+	}
 	if opt.DryRun {
 		return fo, nil
 	}
-	final := filepath.Join(outDir, j.out)
 	t, err := atomicfile.Create(final, opt.Overwrite)
 	if err != nil {
 		return fo, err
@@ -520,9 +562,10 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	}
 	defer f.Close()
 	out := f.Recording()
+	sum.Findings = checkStrings(out, needles)
 	sum.StillIdentifying = IdentifyingFields(out)
-	if len(sum.Leaks) > 0 {
-		return sum, 0, fmt.Errorf("leak scan: %d original identifying value(s) found in the output; it was not written (%s)", len(sum.Leaks), strings.Join(sum.Leaks, "; "))
+	if len(sum.Leaks) > 0 || len(sum.Findings) > 0 {
+		return sum, 0, &OutputError{Findings: sum.Findings, Leaks: sum.Leaks}
 	}
 	if pol.SHA256() == Default().SHA256() && len(sum.StillIdentifying) > 0 {
 		return sum, 0, fmt.Errorf("the output still holds identifying fields %s; it was not written", strings.Join(sum.StillIdentifying, ", "))

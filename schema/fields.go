@@ -42,6 +42,7 @@ const (
 	ClassSource  Class = "source"   // a source file name
 	ClassData    Class = "data"     // a signal or template block
 	ClassFixed   Class = "fixed"    // always carried unchanged (a yes/no without "unknown")
+	ClassLabel   Class = "label"    // a short code the layout requires (a channel label): kept, or replaced by one made from the position
 	ClassCarried Class = "carried"  // recorded data and their description: always carried bit-exact, not a policy field
 	ClassFile    Class = "file"     // written by muarc itself (root attributes)
 )
@@ -72,6 +73,7 @@ var ClassActions = map[Class][]string{
 	ClassSource:  {ActDrop, ActPseudonymize},
 	ClassData:    {ActKeep, ActDrop},
 	ClassFixed:   {ActKeep},
+	ClassLabel:   {ActKeep, ActGeneralize, ActDrop},
 	ClassCarried: {ActKeep},
 	ClassFile:    {ActKeep},
 }
@@ -311,7 +313,7 @@ var Fields = []Field{
 	{Group: "array", Name: "samples", Kind: KindInteger, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "number of sample rows"},
 	{Group: "array", Name: "channel_count", Kind: KindInteger, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "number of channels (sample columns)"},
 
-	{Group: "channel", Name: "label", Kind: KindString, Storage: "string", Class: ClassCarried, Since: "1.0", Meaning: "channel label, e.g. `e12`"},
+	{Group: "channel", Name: "label", Kind: KindString, Storage: "string", Class: ClassLabel, Default: ActGeneralize, Since: "1.0", Meaning: "channel label, e.g. `e12`; the built-in policy replaces a label that is not a plain electrode code by the grid position (`r2c5`)"},
 	{Group: "channel", Name: "row", Kind: KindInteger, Storage: "int32", Class: ClassCarried, Since: "1.0", Meaning: "0-based grid row; -1 when not on the grid"},
 	{Group: "channel", Name: "column", Kind: KindInteger, Storage: "int32", Class: ClassCarried, Since: "1.0", Meaning: "0-based grid column; -1 when not on the grid"},
 	{Group: "channel", Name: "x_mm", Kind: KindNumber, Storage: "float64", Unit: "mm", Class: ClassCarried, Since: "1.0", Meaning: "electrode centre x in the array's frame; NaN when not known"},

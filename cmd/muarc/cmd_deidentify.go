@@ -5,9 +5,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"sort"
-	"strings"
-	"text/tabwriter"
 
 	"github.com/spf13/cobra"
 
@@ -145,6 +142,9 @@ func runDeidentify(cmd *cobra.Command, args []string) error {
 	}
 	bar.Finish()
 	if err != nil {
+		if rep != nil && !deidFlags.json {
+			rep.WriteText(out, deidFlags.out)
+		}
 		return withExit(2, err)
 	}
 	if deidFlags.shardReport != "" && !rep.DryRun {
@@ -165,7 +165,7 @@ func runDeidentify(cmd *cobra.Command, args []string) error {
 			return err
 		}
 	} else {
-		printDeidReport(out, rep, deidFlags.out)
+		rep.WriteText(out, deidFlags.out)
 	}
 	if err := rep.NoSpace(); err != nil {
 		return withExit(2, err)
@@ -186,127 +186,10 @@ func runDeidCheck(out io.Writer, pol *deid.Policy) error {
 			return err
 		}
 	} else {
-		fmt.Fprintf(out, "%s: %d bytes", rep.File, rep.Bytes)
-		if rep.Searched > 0 {
-			fmt.Fprintf(out, ", %d original value(s) searched for (UTF-8, UTF-16LE/BE, dates in common spellings)", rep.Searched)
-		} else {
-			fmt.Fprint(out, "; give --original (or --needle) to search the bytes for original values")
-		}
-		fmt.Fprintln(out)
-		for _, p := range rep.StillIdentifying {
-			fmt.Fprintf(out, "  identifying field: %s\n", p)
-		}
-		for _, p := range rep.Patterns {
-			fmt.Fprintf(out, "  pattern: %s\n", p)
-		}
-		for _, l := range rep.Leaks {
-			fmt.Fprintf(out, "  LEAK: %s\n", l)
-		}
-		if len(rep.Unscannable) > 0 {
-			fmt.Fprintf(out, "  not searched (too short): %s\n", strings.Join(rep.Unscannable, ", "))
-		}
-		if rep.OK() {
-			fmt.Fprintln(out, "  nothing found")
-		}
-		fmt.Fprintln(out, deid.Caution)
+		rep.WriteText(out)
 	}
 	if !rep.OK() {
 		return silentExit(1)
 	}
 	return nil
-}
-
-// printDeidReport prints a report for people.
-func printDeidReport(w io.Writer, rep *deid.StudyReport, outDir string) {
-	verb := "De-identified"
-	if rep.DryRun {
-		verb = "Dry run: would de-identify"
-	}
-	fmt.Fprintf(w, "%s %d of %d file(s) into %s\n", verb, len(rep.Files)-rep.Failed, len(rep.Files), outDir)
-	fmt.Fprintf(w, "policy %s (sha256 %s), key %s\n", rep.Policy, rep.PolicySHA256, rep.KeyFingerprint)
-	if rep.DryRun {
-		fmt.Fprintln(w, "\nPlan (every field of the layout and what the policy does to it):")
-		tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-		for _, l := range rep.Plan {
-			fmt.Fprintf(tw, "  %s\t%s\n", l.Path, l.Action)
-		}
-		tw.Flush()
-	}
-	fmt.Fprintln(w)
-	unlisted := map[string]int{}
-	for _, f := range rep.Files {
-		switch {
-		case f.Error != "":
-			fmt.Fprintf(w, "  %s  FAILED: %s\n", f.Input, f.Error)
-		case rep.DryRun:
-			fmt.Fprintf(w, "  %s -> %s\n", f.Input, f.Output)
-			tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-			for _, fo := range f.Fields {
-				note := fo.Note
-				if !fo.Named {
-					note = strings.TrimSpace("not named in the policy " + note)
-				}
-				fmt.Fprintf(tw, "      %s\t%s\t%s\n", fo.Path, fo.Action, note)
-			}
-			tw.Flush()
-		default:
-			line := fmt.Sprintf("  %s -> %s  ok", f.Input, f.Output)
-			if f.Scan != nil {
-				line += fmt.Sprintf(": %d original values searched in %d bytes, no leak; %d datasets bit-exact", f.Scan.Values, f.Scan.Bytes, f.DataChecked)
-			}
-			fmt.Fprintln(w, line)
-			if f.Scan != nil && len(f.Scan.Unscannable) > 0 {
-				fmt.Fprintf(w, "      not searched, 1-2 characters long: %s\n", strings.Join(f.Scan.Unscannable, ", "))
-			}
-		}
-		for _, n := range f.Notes {
-			fmt.Fprintf(w, "      note: %s\n", n)
-		}
-		for _, u := range f.Unlisted {
-			unlisted[deid.PolicyPath(u)]++
-		}
-	}
-	if len(unlisted) > 0 {
-		fmt.Fprintln(w, "\nDropped because the policy does not name them:")
-		keys := make([]string, 0, len(unlisted))
-		for k := range unlisted {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		for _, k := range keys {
-			fmt.Fprintf(w, "  %s (%d)\n", k, unlisted[k])
-		}
-	}
-	for _, c := range rep.Collisions {
-		fmt.Fprintf(w, "pseudonym collision: %s (make a new key)\n", c)
-	}
-	if k := rep.KAnonymity; k != nil {
-		printKAnon(w, k)
-	}
-	if rep.Linkage != "" {
-		fmt.Fprintf(w, "\nprivate linkage file: %s (mode 0600; keep it apart from the shared data)\n", rep.Linkage)
-	}
-	for _, n := range rep.Notes {
-		fmt.Fprintf(w, "note: %s\n", n)
-	}
-	fmt.Fprintf(w, "\n%s\n", deid.Caution)
-}
-
-func printKAnon(w io.Writer, k *deid.KReport) {
-	fmt.Fprintf(w, "\nk-anonymity (k = %d) over sex, age band, height, mass, dominant side as written:\n", k.K)
-	fmt.Fprintf(w, "  %d subject(s) in %d group(s); smallest group %d\n", k.Subjects, k.Groups, k.Smallest)
-	if len(k.BelowK) == 0 {
-		fmt.Fprintf(w, "  every subject shares its values with at least %d - 1 others\n", k.K)
-		return
-	}
-	fmt.Fprintf(w, "  %d subject(s) below k: %s\n", len(k.BelowK), strings.Join(k.BelowK, ", "))
-	if len(k.Steps) > 0 {
-		fmt.Fprintln(w, "  generalisations that would lift them (in order; policy setting, subjects still below k):")
-		for i, s := range k.Steps {
-			fmt.Fprintf(w, "    %d. %s  (%s)  -> %d\n", i+1, s.Change, s.PolicyHint, s.BelowK)
-		}
-	}
-	for _, n := range k.Notes {
-		fmt.Fprintf(w, "  note: %s\n", n)
-	}
 }

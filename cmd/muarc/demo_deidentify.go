@@ -55,7 +55,7 @@ func demoDeidentify(ctx *demoContext) error {
 	} else {
 		fmt.Fprintf(ctx.Out, "\nDe-identification (muarc deidentify %s -o %s --key %s):\n",
 			deidRel(ctx.Dir, src), deidRel(ctx.Dir, outDir), deidRel(ctx.Dir, keyPath))
-		printDeidReport(ctx.Out, rep, deidRel(ctx.Dir, outDir))
+		rep.WriteText(ctx.Out, deidRel(ctx.Dir, outDir))
 	}
 	if rep.Failed > 0 {
 		return fmt.Errorf("de-identification failed for %d of %d recordings", rep.Failed, len(rels))
