@@ -327,3 +327,62 @@ func TestHashingSource(t *testing.T) {
 		t.Fatal("out-of-order read accepted")
 	}
 }
+
+// TestAgeOver89FromDates checks the age rule of Safe Harbor, 45 CFR
+// 164.514(b)(2)(i)(C): "all ages over 89 ... aggregated into a single
+// category of age 90 or older". The age is computed from birth date and
+// session date when both are known, and the higher of that and the recorded
+// age_years decides. Dates on both sides of the 90th birthday.
+func TestAgeOver89FromDates(t *testing.T) {
+	cases := []struct {
+		ageYears      float64
+		birth, date   string
+		band, ageNote string
+	}{
+		// the day before the 90th birthday: 89 by the dates
+		{89, "1936-03-15", "2026-03-14T09:30:00Z", "80-89", ""},
+		// the 90th birthday itself: 90 by the dates, though age_years says 89
+		{89, "1936-03-14", "2026-03-14T09:30:00Z", OldestBand, "age from birth date"},
+		// the day after: 90
+		{89, "1936-03-13", "2026-03-14T09:30:00Z", OldestBand, "age from birth date"},
+		// a recorded age above the dates' wins
+		{90, "1936-03-15", "2026-03-14T09:30:00Z", OldestBand, ""},
+		// no recorded age: the dates alone
+		{math.NaN(), "1936-03-14", "2026-03-14", OldestBand, "age from birth date"},
+		{math.NaN(), "1936-03-15", "2026-03-14", "80-89", ""},
+	}
+	for _, c := range cases {
+		in := identifiable()
+		in.Subject.AgeYears, in.Subject.BirthDate, in.Session.Date = c.ageYears, c.birth, c.date
+		in.Trials[0].Notes = ""
+		res, err := Apply(in, Options{Pseudonymizer: testKey(t)})
+		if err != nil {
+			t.Fatal(err)
+		}
+		s := res.Recording.Subject
+		if s.AgeBand != c.band || !math.IsNaN(s.AgeYears) {
+			t.Errorf("age %v born %s, session %s: band %q age %v, want %q", c.ageYears, c.birth, c.date, s.AgeBand, s.AgeYears, c.band)
+		}
+		if c.band == OldestBand && s.BirthDate != "" {
+			t.Errorf("born %s: birth year %q kept for an age over 89 (dates including year indicative of such age)", c.birth, s.BirthDate)
+		}
+		notes := ""
+		for _, f := range res.Fields {
+			if strings.HasPrefix(f.Path, "subject.age") {
+				notes += f.Note
+			}
+		}
+		if !strings.Contains(notes, c.ageNote) {
+			t.Errorf("born %s: notes %q lack %q", c.birth, notes, c.ageNote)
+		}
+		// A recorded band below 90 does not survive an age over 89.
+		in.Subject.AgeBand = "80-89"
+		res, _ = Apply(in, Options{Pseudonymizer: testKey(t)})
+		if got := res.Recording.Subject.AgeBand; got != c.band {
+			t.Errorf("recorded band 80-89, born %s: band %q, want %q", c.birth, got, c.band)
+		}
+	}
+	if a, fromDates := AgeAtSession(&record.Recording{Subject: record.Subject{AgeYears: 89.5, BirthDate: "1936-03-15"}, Session: record.Session{Date: "2026-03-14"}}); a != 89.5 || fromDates {
+		t.Errorf("AgeAtSession kept %v (dates %v), want the recorded 89.5", a, fromDates)
+	}
+}

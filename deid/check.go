@@ -32,6 +32,12 @@ type CheckReport struct {
 	Patterns []string `json:"patterns"`
 	// Leaks are original values found in the raw bytes or decoded metadata.
 	Leaks []string `json:"leaks"`
+	// Findings are the strings holding one of the values, by path, with
+	// the policy line that would take each out.
+	Findings []Finding `json:"findings"`
+	// ValuesOnly are values that are ordinary words, searched in the
+	// values of the file only (masked).
+	ValuesOnly []string `json:"searched_in_values_only,omitempty"`
 	// Searched is the number of original values searched for.
 	Searched    int      `json:"values_searched"`
 	Unscannable []string `json:"too_short_for_byte_scan,omitempty"`
@@ -41,7 +47,7 @@ type CheckReport struct {
 
 // OK reports whether the check found nothing.
 func (r *CheckReport) OK() bool {
-	return len(r.StillIdentifying) == 0 && len(r.Patterns) == 0 && len(r.Leaks) == 0
+	return len(r.StillIdentifying) == 0 && len(r.Patterns) == 0 && len(r.Leaks) == 0 && len(r.Findings) == 0
 }
 
 var checkPatterns = []struct {
@@ -60,7 +66,7 @@ var checkPatterns = []struct {
 // scan of its raw bytes and decoded metadata for them (UTF-8, UTF-16LE/BE,
 // dates in their common spellings).
 func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
-	rep := &CheckReport{File: path, StillIdentifying: []string{}, Patterns: []string{}, Leaks: []string{}, Caution: Caution}
+	rep := &CheckReport{File: path, StillIdentifying: []string{}, Patterns: []string{}, Leaks: []string{}, Findings: []Finding{}, Caution: Caution}
 	f, err := recfile.Open(path)
 	if err != nil {
 		return nil, err
@@ -108,20 +114,35 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 		rep.Unscannable = append(rep.Unscannable, maskValue(u))
 	}
 	if len(needles) > 0 {
-		leaks, err := ScanBytes(path, needles)
+		// An ordinary word ("Hand") is searched in the values only: the raw
+		// bytes hold the layout's own names (edited_by_hand) by design.
+		var raw, plain []string
+		for _, n := range needles {
+			if len(tokens(n)) == 1 && strings.EqualFold(tokens(n)[0], n) && ordinary(n) {
+				plain = append(plain, n)
+				rep.ValuesOnly = append(rep.ValuesOnly, maskValue(n))
+			} else {
+				raw = append(raw, n)
+			}
+		}
+		leaks, err := ScanBytes(path, raw)
 		if err != nil {
 			return nil, err
 		}
 		for _, l := range leaks {
 			rep.Leaks = append(rep.Leaks, l.String())
 		}
-		view, err := recfile.MetadataView(path)
+		f, err := recfile.Open(path)
 		if err != nil {
 			return nil, err
 		}
-		for _, h := range scanText(viewText(view), needles) {
-			rep.Leaks = append(rep.Leaks, maskValue(h)+" found in the decoded metadata")
+		rep.Findings = checkStrings(f.Recording(), raw)
+		for _, x := range checkStrings(f.Recording(), plain) {
+			if !strings.HasSuffix(x.Path, nameSuffix) {
+				rep.Findings = append(rep.Findings, x)
+			}
 		}
+		f.Close()
 	}
 	return rep, nil
 }

@@ -137,19 +137,22 @@ func hdf5Place(r *record.Recording, path string) string {
 		case name == "decompositions" && a != nil && idx >= 0 && idx < len(a.Decompositions):
 			b.WriteString("/decompositions/" + a.Decompositions[idx].Name)
 		case name == "extra":
-			b.WriteString(" attribute " + strings.Join(parts[i+1:], "."))
-			return b.String()
+			rest := strings.Join(parts[i+1:], ".")
+			if i > 0 && strings.HasPrefix(parts[i-1], "units") {
+				return b.String() + "/" + rest + fmt.Sprintf(", row %d", idx0(parts[i-1]))
+			}
+			return "attribute " + rest + " of " + b.String()
 		case i == len(parts)-1:
 			if name == "name" && i > 0 {
-				return b.String() + " (the group's name)"
+				return "the name of group " + b.String()
 			}
 			if i > 0 && strings.HasSuffix(parts[i-1], "]") && (strings.HasPrefix(parts[i-1], "channels") || strings.HasPrefix(parts[i-1], "units") || strings.HasPrefix(parts[i-1], "sources") || strings.HasPrefix(parts[i-1], "history")) {
-				return b.String() + "/" + name + fmt.Sprintf(" (row %d)", idx0(parts[i-1]))
+				return b.String() + "/" + name + fmt.Sprintf(", row %d", idx0(parts[i-1]))
 			}
-			if b.Len() == 0 && (name == "created" || name == "software" || name == "layout_version") {
-				return "/ attribute " + name
+			if b.Len() == 0 {
+				b.WriteString("/")
 			}
-			return b.String() + " attribute " + name
+			return "attribute " + name + " of " + b.String()
 		default:
 			b.WriteString("/" + name)
 		}

@@ -24,7 +24,11 @@ func (r *CheckReport) WriteText(w io.Writer) {
 		fmt.Fprintf(w, "  pattern: %s\n", p)
 	}
 	for _, l := range r.Leaks {
-		fmt.Fprintf(w, "  LEAK: %s\n", l)
+		fmt.Fprintf(w, "  LEAK in the raw bytes: %s\n", l)
+	}
+	writeFindings(w, r.Findings, "  ")
+	if len(r.ValuesOnly) > 0 {
+		fmt.Fprintf(w, "  searched in the values only, being ordinary words (the layout's own names hold such words): %s\n", strings.Join(r.ValuesOnly, ", "))
 	}
 	if len(r.Unscannable) > 0 {
 		fmt.Fprintf(w, "  not searched (too short): %s\n", strings.Join(r.Unscannable, ", "))
@@ -59,13 +63,7 @@ func (rep *StudyReport) WriteText(w io.Writer, outDir string) {
 		switch {
 		case len(f.Findings) > 0:
 			fmt.Fprintf(w, "  %s  NOT WRITTEN: it would still identify the subject:\n", f.Input)
-			for _, x := range f.Findings {
-				where := x.Path
-				if x.HDF5 != "" {
-					where += " (" + x.HDF5 + ")"
-				}
-				fmt.Fprintf(w, "      - %s %s\n        %s\n", where, x.What, x.Fix)
-			}
+			writeFindings(w, f.Findings, "      ")
 		case f.Error != "":
 			fmt.Fprintf(w, "  %s  FAILED: %s\n", f.Input, f.Error)
 		case rep.DryRun:
@@ -138,5 +136,16 @@ func (k *KReport) WriteText(w io.Writer) {
 	}
 	for _, n := range k.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
+	}
+}
+
+// writeFindings prints findings, one per entry with its HDF5 place and fix.
+func writeFindings(w io.Writer, fs []Finding, indent string) {
+	for _, x := range fs {
+		fmt.Fprintf(w, "%s- %s %s\n", indent, x.Path, x.What)
+		if x.HDF5 != "" {
+			fmt.Fprintf(w, "%s  in the file: %s\n", indent, x.HDF5)
+		}
+		fmt.Fprintf(w, "%s  %s\n", indent, x.Fix)
 	}
 }
