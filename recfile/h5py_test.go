@@ -36,6 +36,7 @@ k = 2
 print(" ".join(str(x) for x in d["discharges"][off[k]:off[k+1]]))
 u = d["units"]
 print(list(u["id"][()]), list(u["discharge_count"][()]), [repr(float(x)) for x in u["silhouette"][()]])
+print(list(u["label"].asstr()[()]))
 print(list(f["trials"].keys()), list(a["decompositions"].keys()))
 print(f.attrs["layout"], f.attrs["layout_version"], f["subject"].attrs["name"])
 `, path).CombinedOutput()
@@ -51,6 +52,7 @@ print(f.attrs["layout"], f.attrs["layout_version"], f["subject"].attrs["name"])
 		"0.0 1.5 nan 3.0 N",
 		"5 6000",
 		"[1, 7, 3] [3, 0, 2] ['0.93', 'nan', 'nan']",
+		`['MU 1', '', '1.5 "split", é']`, // the labels as written, unicode kept (LAYOUT.md, since 1.1)
 		"['ramp_30', 'ramp_10'] ['auto', 'edited']",
 		"muarc-recording 1.1 Ada Zyxwvut",
 	}
@@ -98,4 +100,42 @@ func pyRepr(x float32) string {
 		s = mant + "e" + string(sign) + digits
 	}
 	return s
+}
+
+// TestLayout10LabelColumnIsExtra makes a file of layout 1.0 with h5py (the
+// reference writer: the version attribute set back to 1.0) and checks the
+// rule of LAYOUT.md: in a 1.0 file units have no label and a column named
+// label is an extra column.
+func TestLayout10LabelColumnIsExtra(t *testing.T) {
+	py := needH5py(t)
+	path := filepath.Join(t.TempDir(), "rec.h5")
+	if err := Write(path, fixture(), WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	out, err := exec.Command(py, "-c", `
+import sys, h5py
+f = h5py.File(sys.argv[1], "r+")
+f.attrs["layout_version"] = "1.0"
+f.close()
+`, path).CombinedOutput()
+	if err != nil {
+		t.Fatalf("h5py: %v\n%s", err, out)
+	}
+	got, err := ReadAll(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := got.Trials[0].Arrays[0].Decompositions[0]
+	if d.Units[0].Label != "" || d.Units[0].Name() != "1" {
+		t.Errorf("1.0 file: label %q name %q, want empty and the id", d.Units[0].Label, d.Units[0].Name())
+	}
+	found := false
+	for _, c := range d.ExtraColumns {
+		if c.Name == "label" && len(c.Text) == 3 && c.Text[0] == "MU 1" {
+			found = true
+		}
+	}
+	if !found {
+		t.Errorf("1.0 file: label column not kept as an extra column: %+v", d.ExtraColumns)
+	}
 }

@@ -28,6 +28,7 @@ const (
 	attrSoftware   = "software"
 	colDischargeN  = "discharge_count"
 	colID          = "id"
+	colLabel       = "label"
 	attrColumnUnit = "unit"
 	// attrListPosition is the 0-based place of a trial, array or
 	// decomposition among its siblings (layout 1.1), for readers that list

@@ -645,6 +645,15 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 			return dec, err
 		}
 	}
+	// Labels (since layout 1.1): in a 1.0 file a column named label is an
+	// extra column like any other, and units have no label.
+	var labels []string
+	hasLabels := units.Has(colLabel) && f.rec != nil && labelsInLayout(f.rec.LayoutVersion)
+	if hasLabels {
+		if labels, err = c.strs(colLabel); err != nil {
+			return dec, err
+		}
+	}
 	// Offsets and discharges.
 	oc := &columns{file: f.path, g: g, n: n + 1}
 	off, err := oc.i64(dsOffsets)
@@ -677,6 +686,9 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 		}
 		u := &dec.Units[i]
 		u.ID = ids[i]
+		if hasLabels {
+			u.Label = labels[i]
+		}
 		u.Discharges = slices.Clone(dis[off[i]:off[i+1]])
 		for k := range v {
 			v[k] = figs[k][i]
@@ -689,7 +701,7 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 		return dec, err
 	}
 	for _, k := range kids {
-		if k.Name == colID || k.Name == colDischargeN || slices.Contains(unitColumns, k.Name) {
+		if k.Name == colID || k.Name == colDischargeN || slices.Contains(unitColumns, k.Name) || (hasLabels && k.Name == colLabel) {
 			continue
 		}
 		d, err := c.open(k.Name)
@@ -826,4 +838,11 @@ func (s *ArraySamples) ReadRange64(row0, rows, ch0, nch int, dst []float64) erro
 		return fmt.Errorf("recfile: range rows %d+%d channels %d+%d outside %dx%d", row0, rows, ch0, nch, s.rows, s.cols)
 	}
 	return s.ds.ReadRect64(row0, rows, ch0, nch, dst)
+}
+
+// labelsInLayout reports whether units/label is the unit label column in a
+// file of layout version v (since 1.1).
+func labelsInLayout(v string) bool {
+	major, minor, err := schema.ParseVersion(v)
+	return err == nil && (major > 1 || minor >= 1)
 }

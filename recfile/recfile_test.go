@@ -46,12 +46,14 @@ func fixture() *record.Recording {
 		return out
 	}
 	u1 := record.NewUnit(1)
+	u1.Label = "MU 1"
 	u1.Discharges = []int64{10, 250, 499}
 	u1.Silhouette, u1.PNRdB = 0.93, 31.5
 	u2 := record.NewUnit(7)
 	u2.Discharges = []int64{}
 	u2.MeanRatePPS = 12.25
 	u3 := record.NewUnit(3)
+	u3.Label = "1.5 \"split\", é"
 	u3.Discharges = []int64{5, 6000}
 	return &record.Recording{
 		Created:  time.Date(2026, 3, 14, 9, 30, 0, 0, time.UTC),

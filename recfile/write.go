@@ -130,7 +130,7 @@ func check(rec *record.Recording) error {
 				if d.Parameters != "" && !json.Valid([]byte(d.Parameters)) {
 					return invalid(where, "parameters are not valid JSON")
 				}
-				cols := map[string]bool{colID: true, colDischargeN: true}
+				cols := map[string]bool{colID: true, colLabel: true, colDischargeN: true}
 				for _, c := range unitColumns {
 					cols[c] = true
 				}
@@ -613,8 +613,10 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) erro
 		total += len(u.Discharges)
 	}
 	dis := make([]int64, 0, total)
+	labels := make([]string, n)
 	for i, u := range d.Units {
 		ids[i] = u.ID
+		labels[i] = u.Label
 		counts[i] = int64(len(u.Discharges))
 		for k, v := range unitFigures(&u) {
 			figs[k][i] = v
@@ -628,6 +630,9 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) erro
 	}
 	defer units.Close()
 	if err := units.WriteColumn(colID, ids); err != nil {
+		return err
+	}
+	if err := units.WriteColumn(colLabel, labels); err != nil {
 		return err
 	}
 	if err := units.WriteColumn(colDischargeN, counts); err != nil {

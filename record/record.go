@@ -2,6 +2,7 @@ package record
 
 import (
 	"math"
+	"strconv"
 	"time"
 )
 
@@ -293,8 +294,13 @@ func ReportedDecomposition(ds []Decomposition) int {
 // Unit is one motor unit: its discharges and its quality figures. A figure
 // not known is NaN.
 type Unit struct {
-	// ID is the unit's identifier within the decomposition (unique).
+	// ID is the unit's identifier within the decomposition (unique). muarc
+	// assigns it (import numbers units 1..N in file order); it is never
+	// read out of the digits of a label.
 	ID int64
+	// Label is the unit's name exactly as the lab wrote it ("MU 7", "1.5",
+	// "07"); empty when the source gave none (and in layout 1.0 files).
+	Label string
 	// Discharges are sample indices (0-based) into the array's samples,
 	// sorted ascending.
 	Discharges []int64
@@ -314,6 +320,15 @@ type Unit struct {
 	// InitialRatePPS and MeanRatePPS are discharge rates in pulses per second.
 	InitialRatePPS float64
 	MeanRatePPS    float64
+}
+
+// Name is the label, or the id as text when the unit has no label: what a
+// table or figure shows for the unit.
+func (u *Unit) Name() string {
+	if u.Label != "" {
+		return u.Label
+	}
+	return strconv.FormatInt(u.ID, 10)
 }
 
 // NewUnit returns a unit with the given id and every figure NaN.

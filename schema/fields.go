@@ -328,7 +328,8 @@ var Fields = []Field{
 	{Group: "decomposition", Name: "notes", Kind: KindString, Identifying: true, Class: ClassText, Default: ActDrop, Since: "1.0", Meaning: "free text; may identify"},
 	{Group: "decomposition", Name: "muaps", Kind: KindData, Class: ClassData, Default: ActKeep, ViewOnly: true, Since: "1.0", Meaning: "the MUAP templates (dataset)"},
 
-	{Group: "unit", Name: "id", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "unit identifier, unique within the decomposition"},
+	{Group: "unit", Name: "id", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "unit identifier, unique within the decomposition; assigned by the writer (muarc's import numbers units 1..N in the order of the discharge file), never read out of a label"},
+	{Group: "unit", Name: "label", Kind: KindString, Storage: "string", Class: ClassCarried, Since: "1.1", Meaning: "the unit's name exactly as the lab wrote it (`MU 7`, `1.5`, `07`); empty when the source gave none"},
 	{Group: "unit", Name: "discharge_count", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "number of discharges (equals the unit's span in `discharge_offsets`)"},
 	{Group: "unit", Name: "silhouette", Kind: KindNumber, Storage: "float64", Unit: "1", Class: ClassCarried, Since: "1.0", Meaning: "silhouette measure of the unit's source, 0..1"},
 	{Group: "unit", Name: "pnr_db", Kind: KindNumber, Storage: "float64", Unit: "dB", Class: ClassCarried, Since: "1.0", Meaning: "pulse-to-noise ratio"},

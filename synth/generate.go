@@ -552,6 +552,7 @@ func buildArray(cfg Config, s, li, ai int, plan *arrayPlan, disc [][]int64, forc
 // (accuracy against the true ones).
 func figures(id int64, got, truth []int64, force []float64, fs, mvc float64, pl0, pl1 int64) record.Unit {
 	u := record.NewUnit(id)
+	u.Label = strconv.FormatInt(id, 10)
 	u.Discharges = got
 	u.AccuracyPct = roundTo(rateOfAgreement(got, truth), 2)
 	u.RecruitPctMVC = roundTo(recruitPct(force, got[0], mvc), 3)

@@ -270,6 +270,11 @@ func (s *structure) decomposition(p, jp string, nch int) {
 		nunits = s.column(up+"/id", jp+"/units", isInt, "int64", -1, true, "")
 		s.column(up+"/discharge_count", jp+"/units", isInt, "int64", nunits, true, "units.column_length")
 		fixed := map[string]bool{"id": true, "discharge_count": true}
+		if _, ok := s.t.dataset(up + "/label"); ok {
+			// The unit labels as the lab wrote them (since layout 1.1).
+			fixed["label"] = true
+			s.column(up+"/label", jp+"/units", isString, "string", nunits, false, "units.column_length")
+		}
 		for _, f := range figureColumns {
 			fixed[f] = true
 			s.column(up+"/"+f, jp+"/units", isFloat64, "float64", nunits, true, "units.column_length")
