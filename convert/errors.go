@@ -14,6 +14,8 @@ type ParseError struct {
 	Msg    string `json:"message"`
 	// Hint says what to do about it.
 	Hint string `json:"hint,omitempty"`
+	// Example is the text of the line the error is about, as in the file.
+	Example string `json:"example,omitempty"`
 }
 
 func (e *ParseError) Error() string {
@@ -28,6 +30,9 @@ func (e *ParseError) Error() string {
 		s += ": "
 	}
 	s += e.Msg
+	if e.Example != "" {
+		s += "; the line reads: " + e.Example
+	}
 	if e.Hint != "" {
 		s += " (" + e.Hint + ")"
 	}

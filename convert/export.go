@@ -277,15 +277,37 @@ func (t dischargeTime) head() string {
 	return "sample (0-based)"
 }
 
+// unitCell is a unit's label (its id when it has none) as one delimited
+// cell, quoted as RFC 4180 section 2 says when it holds the delimiter, a
+// quote or a blank at either end. A line break cannot be written in a
+// line-per-record discharge file.
+func unitCell(u *record.Unit, d byte) (string, error) {
+	s := u.Name()
+	if strings.ContainsAny(s, "\r\n") {
+		return "", fmt.Errorf("unit %d: label %q holds a line break; export the discharges with --format json", u.ID, s)
+	}
+	if strings.ContainsAny(s, string(d)+"\"\t") || strings.TrimSpace(s) != s || (d == ' ' && strings.ContainsAny(s, " ")) {
+		s = `"` + strings.ReplaceAll(s, `"`, `""`) + `"`
+	}
+	return s, nil
+}
+
 func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, samples int, d byte, tb dischargeTime) error {
 	ds := string(d)
 	var b []byte
+	names := make([]string, len(dc.Units))
+	for i := range dc.Units {
+		var err error
+		if names[i], err = unitCell(&dc.Units[i], d); err != nil {
+			return err
+		}
+	}
 	switch shape {
 	case ShapeLong:
 		w.WriteString("unit" + ds + tb.head() + "\n")
-		for _, u := range dc.Units {
+		for i, u := range dc.Units {
 			for _, k := range u.Discharges {
-				b = strconv.AppendInt(b[:0], u.ID, 10)
+				b = append(b[:0], names[i]...)
 				b = append(b, d)
 				b = tb.append(b, k)
 				b = append(b, '\n')
@@ -293,8 +315,11 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 			}
 		}
 	case ShapeLines:
-		for _, u := range dc.Units {
-			b = strconv.AppendInt(b[:0], u.ID, 10)
+		// The header says that the first column holds labels and how the
+		// times are written.
+		w.WriteString("unit" + ds + tb.head() + "\n")
+		for i, u := range dc.Units {
+			b = append(b[:0], names[i]...)
 			for _, k := range u.Discharges {
 				b = append(b, d)
 				b = tb.append(b, k)
@@ -309,9 +334,9 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 				w.WriteString(ds)
 			}
 			if tb.seconds {
-				w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " [s]")
+				w.WriteString(headCell(dc.Units[i].Name(), " [s]", d))
 			} else {
-				w.WriteString("unit " + strconv.FormatInt(u.ID, 10) + " (0-based)")
+				w.WriteString(headCell(dc.Units[i].Name(), " (0-based)", d))
 			}
 			longest = max(longest, len(u.Discharges))
 		}
@@ -330,11 +355,11 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 			w.Write(b)
 		}
 	case ShapeMatrix:
-		for i, u := range dc.Units {
+		for i := range dc.Units {
 			if i > 0 {
 				w.WriteString(ds)
 			}
-			w.WriteString("unit " + strconv.FormatInt(u.ID, 10))
+			w.WriteString(names[i])
 		}
 		w.WriteByte('\n')
 		pos := make([]int, len(dc.Units))
@@ -376,7 +401,11 @@ func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
 	var b []byte
 	for i := range dc.Units {
 		u := &dc.Units[i]
-		b = strconv.AppendInt(b[:0], u.ID, 10)
+		name, err := unitCell(u, d)
+		if err != nil {
+			return err
+		}
+		b = append(b[:0], name...)
 		for _, f := range unitFields {
 			b = append(b, d)
 			if v := getField(u, f); !math.IsNaN(v) {
@@ -407,7 +436,7 @@ func unitsJSON(w *bufio.Writer, dc *record.Decomposition) error {
 	rows := make([]map[string]any, len(dc.Units))
 	for i := range dc.Units {
 		u := &dc.Units[i]
-		m := map[string]any{"id": u.ID, "discharge_count": len(u.Discharges)}
+		m := map[string]any{"id": u.ID, "label": u.Label, "discharge_count": len(u.Discharges)}
 		for _, f := range unitFields {
 			if v := getField(u, f); !math.IsNaN(v) {
 				m[f] = v
@@ -428,6 +457,7 @@ func unitsJSON(w *bufio.Writer, dc *record.Decomposition) error {
 func dischargesJSON(w *bufio.Writer, dc *record.Decomposition, a *record.Array) error {
 	type unit struct {
 		ID      int64   `json:"id"`
+		Label   string  `json:"label"`
 		Samples []int64 `json:"samples"`
 	}
 	out := struct {
@@ -440,7 +470,7 @@ func dischargesJSON(w *bufio.Writer, dc *record.Decomposition, a *record.Array) 
 		if s == nil {
 			s = []int64{}
 		}
-		out.Units = append(out.Units, unit{u.ID, s})
+		out.Units = append(out.Units, unit{u.ID, u.Label, s})
 	}
 	return writeJSON(w, out)
 }
@@ -462,4 +492,14 @@ func appendQuoted(b []byte, s string) []byte {
 		b = append(b, s[i])
 	}
 	return append(b, '"')
+}
+
+// headCell is a column header: the unit's label and a time mark, quoted
+// when needed.
+func headCell(label, mark string, d byte) string {
+	s := label + mark
+	if strings.ContainsAny(label, string(d)+"\"\t[](") || strings.TrimSpace(label) != label || d == ' ' {
+		s = `"` + strings.ReplaceAll(s, `"`, `""`) + `"`
+	}
+	return s
 }

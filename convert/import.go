@@ -13,6 +13,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -473,16 +474,19 @@ func (pl *Plan) discharges(it input, prof *Profile) error {
 		return err
 	}
 	d := decompNamed(a, it.dc)
-	old := map[int64]int{}
+	byLabel := map[string]int{}
 	for i, u := range d.Units {
-		old[u.ID] = i
+		if u.Label != "" {
+			byLabel[u.Label] = i
+		}
 	}
 	count := 0
 	for _, tr := range dc.Units {
-		if i, ok := old[tr.ID]; ok {
+		if i, ok := byLabel[tr.Label]; ok && tr.Label != "" {
 			d.Units[i].Discharges = tr.Discharges
 		} else {
-			u := record.NewUnit(tr.ID)
+			u := record.NewUnit(nextUnitID(d))
+			u.Label = tr.Label
 			u.Discharges = tr.Discharges
 			d.Units = append(d.Units, u)
 		}
@@ -504,26 +508,57 @@ func (pl *Plan) units(it input, prof *Profile) error {
 		return err
 	}
 	dec := decompNamed(a, it.dc)
-	idx := map[int64]int{}
-	for i, u := range dec.Units {
-		idx[u.ID] = i
-	}
 	notes := append([]string(nil), ut.Notes...)
-	for _, u := range ut.Units {
-		if i, ok := idx[u.ID]; ok {
+	// Units are matched by label as written. A discharge file without
+	// labels numbered its units 1..N: then a table label that is exactly
+	// such a number names that unit.
+	idx := map[string]int{}
+	unlabelled := len(dec.Units) > 0
+	for i, u := range dec.Units {
+		if u.Label != "" {
+			idx[u.Label] = i
+			unlabelled = false
+		}
+	}
+	if unlabelled {
+		for i, u := range dec.Units {
+			idx[strconv.FormatInt(u.ID, 10)] = i
+		}
+		notes = append(notes, fmt.Sprintf("the discharge file has no unit labels: the table's units were matched to units 1..%d in the discharge file's order by their number", len(dec.Units)))
+	}
+	if len(idx) > 0 && len(ut.Units) > 0 {
+		matched := false
+		for _, u := range ut.Units {
+			_, ok := idx[u.Label]
+			matched = matched || ok
+		}
+		if !matched {
+			var have []string
+			for _, u := range dec.Units {
+				have = append(have, u.Name())
+				if len(have) == 5 {
+					break
+				}
+			}
+			return perr(it.path, 0, 0, "write each unit's label the same way in both files (muarc matches labels as written, never by the digits in them)",
+				"no unit of the table (first %q) is among the discharge file's units (%s)", ut.Units[0].Label, strings.Join(have, ", "))
+		}
+	}
+	rowOf := map[int64]int{}
+	for r, u := range ut.Units {
+		if i, ok := idx[u.Label]; ok {
+			u.ID = dec.Units[i].ID
 			u.Discharges = dec.Units[i].Discharges
 			dec.Units[i] = u
 		} else {
-			idx[u.ID] = len(dec.Units)
+			u.ID = nextUnitID(dec)
+			idx[u.Label] = len(dec.Units)
 			dec.Units = append(dec.Units, u)
-			notes = append(notes, fmt.Sprintf("unit %d has figures but no discharges", u.ID))
+			notes = append(notes, fmt.Sprintf("unit %q has figures but no discharges", u.Label))
 		}
-	}
-	// Extra columns in the decomposition's unit order.
-	rowOf := map[int64]int{}
-	for r, u := range ut.Units {
 		rowOf[u.ID] = r
 	}
+	// Extra columns in the decomposition's unit order.
 	for _, c := range ut.Extra {
 		col := record.Column{Name: c.Name, Unit: c.Unit}
 		for _, u := range dec.Units {
@@ -759,4 +794,13 @@ func matches(re *regexp.Regexp, s string) bool {
 		return false
 	}
 	return re.MatchString(s)
+}
+
+// nextUnitID is the id for a unit added to d: one more than the largest.
+func nextUnitID(d *record.Decomposition) int64 {
+	var m int64
+	for _, u := range d.Units {
+		m = max(m, u.ID)
+	}
+	return m + 1
 }

@@ -106,8 +106,9 @@ func TestImportSynthStudy(t *testing.T) {
 				}
 				for ui, wu := range wd.Units {
 					gu := gd.Units[ui]
-					if gu.ID != wu.ID || len(gu.Discharges) != len(wu.Discharges) {
-						t.Fatalf("unit %d: id %d, %d discharges want %d", ui, gu.ID, len(gu.Discharges), len(wu.Discharges))
+					// Labels as written (the synth exports its ids); ids 1..N in file order.
+					if gu.Label != wu.Label || gu.ID != int64(ui+1) || len(gu.Discharges) != len(wu.Discharges) {
+						t.Fatalf("unit %d: id %d label %q, %d discharges want label %q, %d", ui, gu.ID, gu.Label, len(gu.Discharges), wu.Label, len(wu.Discharges))
 					}
 					for k := range wu.Discharges {
 						if gu.Discharges[k] != wu.Discharges[k] {

@@ -90,6 +90,14 @@ type ChannelPlace struct {
 
 // ProfileDischarges are the reading options of discharge files.
 type ProfileDischarges struct {
+	// Delimiter, DecimalComma and Header are the discharge files' own
+	// dialect (the signals' settings do not apply to them): "" detects.
+	Delimiter    string `yaml:"delimiter" json:"delimiter"`
+	DecimalComma string `yaml:"decimal_comma" json:"decimal_comma"`
+	Header       string `yaml:"header" json:"header"`
+	// Labels says whether each line of a lines file starts with the unit's
+	// label: "yes", "no" or "" (detect).
+	Labels           string  `yaml:"labels" json:"labels"`
 	Shape            string  `yaml:"shape" json:"shape"`
 	TimeBase         string  `yaml:"time_base" json:"time_base"`
 	FirstIndex       *int    `yaml:"first_index" json:"first_index"`
@@ -171,6 +179,19 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 	default:
 		return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: discharges: time_base %q", p.Discharges.TimeBase), Hint: "write s, ms or samples"}
 	}
+	if _, err := ParseDelimiter(p.Discharges.Delimiter); err != nil {
+		return nil, &ParseError{File: path, Msg: "profile: discharges: " + err.Error(), Hint: "see convert/PROFILES.md"}
+	}
+	for member, v := range map[string]string{"decimal_comma": p.Discharges.DecimalComma, "header": p.Discharges.Header, "labels": p.Discharges.Labels} {
+		switch v {
+		case "", "auto", "yes", "no":
+		default:
+			return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: discharges: %s %q", member, v), Hint: "write yes or no, or leave it out to detect"}
+		}
+	}
+	if fi := p.Discharges.FirstIndex; fi != nil && *fi != 0 && *fi != 1 {
+		return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: discharges: first_index %d", *fi), Hint: "write 0 or 1, or leave it out"}
+	}
 	for h, fld := range p.Units.Columns {
 		if _, ok := fieldUnits[fld]; !ok {
 			return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: units: column %q maps to unknown field %q", h, fld), Hint: "fields: id, silhouette, pnr_db, accuracy_pct, isi_cov, recruit_pct_mvc, derecruit_pct_mvc, initial_rate_pps, mean_rate_pps"}
@@ -198,9 +219,13 @@ func (p *Profile) dischargeOptions() DischargeOptions {
 	if p.Discharges.FirstIndex != nil {
 		fi = *p.Discharges.FirstIndex
 	}
-	d, _ := ParseDelimiter(p.Signals.Delimiter)
-	return DischargeOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: p.Signals.DecimalComma},
-		Shape: p.Discharges.Shape, TimeBase: p.Discharges.TimeBase, FirstIndex: fi, ToleranceSamples: p.Discharges.ToleranceSamples}
+	d, _ := ParseDelimiter(p.Discharges.Delimiter)
+	labels := p.Discharges.Labels
+	if labels == "auto" {
+		labels = ""
+	}
+	return DischargeOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: p.Discharges.DecimalComma, Header: p.Discharges.Header},
+		Shape: p.Discharges.Shape, Labels: labels, TimeBase: p.Discharges.TimeBase, FirstIndex: fi, ToleranceSamples: p.Discharges.ToleranceSamples}
 }
 
 var placeholder = regexp.MustCompile(`\{(trial|array|decomposition)\}`)

@@ -26,7 +26,7 @@ func TestProfileMapsFilesChannelsAndColumns(t *testing.T) {
 	write("level30/Kraft.txt", "Zeit [ms];Kraft [N]\n0;1,5\n1;1,75\n2;2\n3;2,25\n")
 	write("level30/vastus.txt", "Zeit [ms];E01 [uV];E02 [uV];Trigger [V];E03 [uV]\n0;1,5;2;0;3\n1;1;2;5;3\n2;1;2;0;3\n3;1;2;0;3\n")
 	write("level30/vastus-auto-spikes.txt", "MU1;MU2\n1;2\n3;\n")
-	write("level30/vastus-auto-quality.txt", "MU;Qual;Rekrutierung [%MVC];Tiefe [mm]\n1;0,91;12,5;8\n2;0,85;20;11\n")
+	write("level30/vastus-auto-quality.txt", "MU;Qual;Rekrutierung [%MVC];Tiefe [mm]\nMU1;0,91;12,5;8\nMU2;0,85;20;11\n")
 	prof := filepath.Join(dir, "lab.yaml")
 	os.WriteFile(prof, []byte(`name: lab
 files:

@@ -141,7 +141,7 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 	if idCol < 0 {
 		return nil, perr(path, lay.headerLine, 0, "name the unit id column \"unit\" (or map it in the profile)", "no unit id column")
 	}
-	seen := map[int64]int{}
+	seen := map[string]int{}
 	var extraVals [][]float64
 	var extraText [][]string
 	extraIdx := []int{}
@@ -171,16 +171,19 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 		if len(r.cells) != len(fields) {
 			return nil, perr(path, r.line, min(len(r.cells), len(fields))+1, "every row needs as many fields as the header", "row has %d fields, expected %d", len(r.cells), len(fields))
 		}
-		id, err := unitID(r.cells[idCol])
-		if err != nil {
-			return nil, perr(path, r.line, idCol+1, "write the unit id as a whole number", "%v", err)
+		// The unit column holds the unit's label as written; it is matched
+		// with the discharge file's labels, never read as a number.
+		label := string(r.cells[idCol])
+		if label == "" {
+			return nil, perr(path, r.line, idCol+1, "write the unit's label as in the discharge file", "the row has no unit label")
 		}
-		if l, dup := seen[id]; dup {
-			return nil, perr(path, r.line, idCol+1, "each unit id may appear once", "duplicate unit id %d (first on line %d)", id, l)
+		if l, dup := seen[label]; dup {
+			return nil, perr(path, r.line, idCol+1, "each unit may appear once", "duplicate unit %q (first on line %d)", label, l)
 		}
-		seen[id] = r.line
+		seen[label] = r.line
 		idQuoted = idQuoted || r.quoted[idCol]
-		u := record.NewUnit(id)
+		u := record.NewUnit(int64(len(ut.Units) + 1))
+		u.Label = label
 		for i, f := range fields {
 			if f == "" || f == FieldID {
 				continue

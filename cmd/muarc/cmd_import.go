@@ -25,7 +25,8 @@ type importFlags struct {
 	workers                                       int
 	// Reading overrides (take precedence over the profile).
 	delimiter, decimalComma, header, timeColumn, timeUnit string
-	shape, timeBase                                       string
+	shape, timeBase, labels                               string
+	disDelimiter, disDecimalComma, disHeader              string
 	firstIndex                                            int
 	tolerance                                             float64
 }
@@ -77,9 +78,13 @@ file is which and how to read it.`,
 	f.StringVar(&fl.header, "header", "", "signal files: auto, yes or no")
 	f.StringVar(&fl.timeColumn, "time-column", "", "signal files: auto, none, first or a column label")
 	f.StringVar(&fl.timeUnit, "time-unit", "", "signal files: unit of the time column, s, ms or samples")
-	f.StringVar(&fl.shape, "shape", "", "discharge files: long, columns, lines or matrix (default: detect)")
-	f.StringVar(&fl.timeBase, "time-base", "", "discharge files: s, ms or samples (default: detect, and say so)")
-	f.IntVar(&fl.firstIndex, "first-index", -1, "discharge files in samples: 0 or 1 for 0- or 1-based (default: detect, and say so)")
+	f.StringVar(&fl.shape, "shape", "", "discharge files: long, columns, lines or matrix (default: detect when only one reading fits)")
+	f.StringVar(&fl.labels, "labels", "", "discharge files in lines: yes when each line starts with the unit's label, no when it holds only times")
+	f.StringVar(&fl.timeBase, "time-base", "", "discharge files: s, ms or samples (default: detect when only one fits)")
+	f.IntVar(&fl.firstIndex, "first-index", -1, "discharge files in samples: 0 or 1 for 0- or 1-based (default: 0 when an index 0 occurs)")
+	f.StringVar(&fl.disDelimiter, "discharge-delimiter", "", "discharge files: comma, semicolon, tab or whitespace (default: detect)")
+	f.StringVar(&fl.disDecimalComma, "discharge-decimal-comma", "", "discharge files: yes or no (default: detect)")
+	f.StringVar(&fl.disHeader, "discharge-header", "", "discharge files: yes or no, whether the first line names the columns (default: detect)")
 	f.Float64Var(&fl.tolerance, "tolerance", 0, "discharge times: samples off the grid before a time is reported (default 0.1)")
 	rootCmd.AddCommand(cmd)
 }
@@ -280,7 +285,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 
 // overrideProfile applies the reading flags over the profile.
 func overrideProfile(p *convert.Profile, fl importFlags) error {
-	set := func(dst *string, v string, ok ...string) error {
+	set := func(flag string, dst *string, v string, ok ...string) error {
 		if v == "" {
 			return nil
 		}
@@ -290,7 +295,7 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 				found = found || o == v
 			}
 			if !found {
-				return fmt.Errorf("%q: want one of %s", v, strings.Join(ok, ", "))
+				return fmt.Errorf("--%s %q: want one of %s", flag, v, strings.Join(ok, ", "))
 			}
 		}
 		*dst = v
@@ -300,13 +305,17 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 		return err
 	}
 	for _, e := range []error{
-		set(&p.Signals.Delimiter, fl.delimiter),
-		set(&p.Signals.DecimalComma, fl.decimalComma, "auto", "yes", "no"),
-		set(&p.Signals.Header, fl.header, "auto", "yes", "no"),
-		set(&p.Signals.TimeColumn, fl.timeColumn),
-		set(&p.Signals.TimeUnit, fl.timeUnit, "s", "ms", "samples"),
-		set(&p.Discharges.Shape, fl.shape, convert.ShapeLong, convert.ShapeColumns, convert.ShapeLines, convert.ShapeMatrix),
-		set(&p.Discharges.TimeBase, fl.timeBase, "s", "ms", "samples"),
+		set("delimiter", &p.Signals.Delimiter, fl.delimiter),
+		set("decimal-comma", &p.Signals.DecimalComma, fl.decimalComma, "auto", "yes", "no"),
+		set("header", &p.Signals.Header, fl.header, "auto", "yes", "no"),
+		set("time-column", &p.Signals.TimeColumn, fl.timeColumn),
+		set("time-unit", &p.Signals.TimeUnit, fl.timeUnit, "s", "ms", "samples"),
+		set("shape", &p.Discharges.Shape, fl.shape, convert.ShapeLong, convert.ShapeColumns, convert.ShapeLines, convert.ShapeMatrix),
+		set("time-base", &p.Discharges.TimeBase, fl.timeBase, "s", "ms", "samples"),
+		set("labels", &p.Discharges.Labels, fl.labels, "yes", "no"),
+		set("discharge-delimiter", &p.Discharges.Delimiter, fl.disDelimiter, "comma", "semicolon", "tab", "whitespace", ",", ";"),
+		set("discharge-decimal-comma", &p.Discharges.DecimalComma, fl.disDecimalComma, "yes", "no"),
+		set("discharge-header", &p.Discharges.Header, fl.disHeader, "yes", "no"),
 	} {
 		if e != nil {
 			return e

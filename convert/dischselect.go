@@ -1,0 +1,625 @@
+package convert
+
+import (
+	"bytes"
+	"fmt"
+	"math"
+	"strings"
+)
+
+// headLines is how many table lines every reading is tried on first; the
+// readings that fit them are then read whole.
+const headLines = 4000
+
+// ReadDischarges reads a discharge file in any of the four shapes onto the
+// sample grid g. Units are numbered 1..N in file order and keep their
+// labels as written. Options left empty are detected only where the
+// evidence is conclusive: every reading of the text that fits stores the
+// same values. Otherwise the file is refused with a ParseError naming the
+// readings and the options that pick each one.
+func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, error) {
+	if !(g.RateHz > 0) || math.IsInf(g.RateHz, 0) || g.Samples <= 0 || math.IsNaN(g.StartS) || math.IsInf(g.StartS, 0) {
+		return nil, perr(path, 0, 0, "import the EMG the discharges belong to", "no sample grid for the discharges")
+	}
+	if err := checkDischargeOptions(path, opt); err != nil {
+		return nil, err
+	}
+	t, err := readDischText(path)
+	if err != nil {
+		return nil, err
+	}
+	t.opt = opt
+	cands := dischargeReadings(t, opt)
+	if len(cands) == 0 {
+		return nil, perr(path, t.lines[0].line, 0, "the options given exclude every reading: a long table has labels, a colon form is one line per unit", "no reading of the file fits the options given")
+	}
+	tol := opt.ToleranceSamples
+	if tol <= 0 {
+		tol = 0.1
+	}
+	multi := len(cands) > 1
+	head := t.lines
+	if len(head) > headLines {
+		head = head[:headLines]
+	}
+	res := evaluate(t, head, cands, g, tol)
+	if len(head) < len(t.lines) {
+		var again []reading
+		for _, r := range res {
+			if r.fail == nil && !(multi && r.soft != nil && !r.soft.unsorted) {
+				again = append(again, r.r)
+			}
+		}
+		full := evaluate(t, t.lines, again, g, tol)
+		// Readings ruled out on the head keep their reason.
+		byR := map[reading]*result{}
+		for i := range full {
+			byR[full[i].r] = &full[i]
+		}
+		for i := range res {
+			if f := byR[res[i].r]; f != nil {
+				res[i] = *f
+			}
+		}
+	}
+	var ok []*result
+	for i := range res {
+		if res[i].fail == nil && !(multi && res[i].soft != nil) {
+			ok = append(ok, &res[i])
+		}
+	}
+	if len(ok) == 0 && multi {
+		// Times out of order in the file do not rule a reading out when
+		// no reading has them in order (they are sorted, with a note).
+		for i := range res {
+			if res[i].fail == nil && res[i].soft != nil && res[i].soft.unsorted {
+				ok = append(ok, &res[i])
+			}
+		}
+	}
+	var groups [][]*result
+	for _, r := range ok {
+		placed := false
+		for gi := range groups {
+			if sameUnits(groups[gi][0].units, r.units) {
+				groups[gi] = append(groups[gi], r)
+				placed = true
+				break
+			}
+		}
+		if !placed {
+			groups = append(groups, []*result{r})
+		}
+	}
+	switch {
+	case len(groups) == 0:
+		return nil, noReading(t, res, opt)
+	case len(groups) > 1:
+		guess := true
+		for _, g := range groups {
+			for _, r := range g {
+				guess = guess && r.firstGuess
+			}
+		}
+		if guess {
+			return nil, firstIndexGuess(t, res, groups[0][0], opt)
+		}
+		return nil, ambiguous(t, groups, opt)
+	}
+	chosen := groups[0][0]
+	for _, r := range groups[0] {
+		if !r.firstGuess {
+			chosen = r
+			break
+		}
+	}
+	if chosen.firstGuess {
+		return nil, firstIndexGuess(t, res, chosen, opt)
+	}
+	return accept(t, chosen, res, multi, opt, tol), nil
+}
+
+func checkDischargeOptions(path string, opt DischargeOptions) error {
+	bad := func(flag, v, want string) error {
+		return &ParseError{File: path, Msg: fmt.Sprintf("%s %q", flag, v), Hint: "want " + want}
+	}
+	switch opt.Shape {
+	case "", ShapeColumns, ShapeLong, ShapeLines, ShapeMatrix:
+	default:
+		return bad("shape", opt.Shape, "columns, long, lines or matrix")
+	}
+	switch opt.Labels {
+	case "", "yes", "no":
+	default:
+		return bad("labels", opt.Labels, "yes or no")
+	}
+	switch opt.TimeBase {
+	case "", "s", "ms", "samples":
+	default:
+		return bad("time base", opt.TimeBase, "s, ms or samples")
+	}
+	if opt.FirstIndex < -1 || opt.FirstIndex > 1 {
+		return bad("first index", fmt.Sprint(opt.FirstIndex), "0 or 1")
+	}
+	if opt.DecimalComma == "yes" && opt.Delimiter == ',' {
+		return &ParseError{File: path, Msg: "a decimal comma cannot be read with a comma delimiter", Hint: "give the delimiter as semicolon, tab or whitespace"}
+	}
+	return nil
+}
+
+// result is one reading tried on the file.
+type result struct {
+	r          reading
+	units      []UnitTrain
+	fail, soft *rfail
+	offGrid    int
+	worst      float64
+	headerOpen bool // the header said nothing about the time base
+	// firstGuess is true for a 1-based reading neither given nor marked in
+	// the header: detection never picks 1-based on its own.
+	firstGuess bool
+}
+
+// dischargeReadings lists the readings the options leave open, the most
+// common first.
+func dischargeReadings(t *dischText, opt DischargeOptions) []reading {
+	var delims []byte
+	switch {
+	case t.colon && opt.Delimiter != 0:
+		delims = []byte{opt.Delimiter}
+	case t.colon:
+		delims = []byte{' ', ',', ';', '\t'}
+	case opt.Delimiter != 0:
+		delims = []byte{opt.Delimiter}
+	default:
+		delims = []byte{',', ';'}
+		tab, blank := false, false
+		for _, l := range t.lines {
+			tab = tab || bytes.IndexByte(l.text, '\t') >= 0
+			blank = blank || bytes.IndexAny(l.text, " \t") >= 0
+		}
+		if tab {
+			delims = append(delims, '\t')
+		}
+		if blank {
+			delims = append(delims, ' ')
+		}
+	}
+	anyComma := false
+	for _, l := range t.lines {
+		anyComma = anyComma || bytes.IndexByte(l.text, ',') >= 0
+	}
+	var out []reading
+	for _, d := range delims {
+		var commas []bool
+		switch opt.DecimalComma {
+		case "yes":
+			commas = []bool{true}
+		case "no":
+			commas = []bool{false}
+		default:
+			commas = []bool{false}
+			if d != ',' && anyComma {
+				commas = append(commas, true)
+			}
+		}
+		for _, comma := range commas {
+			if comma && d == ',' {
+				continue
+			}
+			var headers []bool
+			switch {
+			case t.colon:
+				headers = []bool{false}
+			case opt.Header == "yes":
+				headers = []bool{true}
+			case opt.Header == "no":
+				headers = []bool{false}
+			default:
+				headers = []bool{true, false}
+			}
+			for _, h := range headers {
+				shapes := []string{ShapeLong, ShapeLines, ShapeColumns, ShapeMatrix}
+				if opt.Shape != "" {
+					shapes = []string{opt.Shape}
+				}
+				for _, sh := range shapes {
+					if t.colon && sh != ShapeLines {
+						continue
+					}
+					var labels []bool
+					switch sh {
+					case ShapeLong:
+						labels = []bool{true}
+					case ShapeLines:
+						labels = []bool{true, false}
+						if t.colon {
+							labels = []bool{true}
+						}
+					default:
+						labels = []bool{h}
+					}
+					for _, lb := range labels {
+						if (opt.Labels == "yes" && !lb) || (opt.Labels == "no" && lb) {
+							continue
+						}
+						out = append(out, reading{delim: d, comma: comma, colon: t.colon, header: h, shape: sh, labels: lb, opt: &t.opt})
+					}
+				}
+			}
+		}
+	}
+	return out
+}
+
+// evaluate tries readings (time base and first index still open) on lines.
+// It returns one result per full reading.
+func evaluate(t *dischText, lines []dline, cands []reading, g Grid, tol float64) []result {
+	type cut struct {
+		cells [][][]byte
+		fail  []*rfail
+	}
+	cuts := map[dialectKey]*cut{}
+	var out []result
+	seen := map[reading]bool{}
+	for _, c := range cands {
+		key := c
+		key.base, key.first = "", 0
+		if seen[key] {
+			continue
+		}
+		seen[key] = true
+		dk := dialectKey{c.delim, c.comma, c.colon}
+		var src cellSource
+		if len(lines) <= headLines {
+			k := cuts[dk]
+			if k == nil {
+				k = &cut{cells: make([][][]byte, len(lines)), fail: make([]*rfail, len(lines))}
+				for i, l := range lines {
+					k.cells[i], k.fail[i] = cutLine(l, dk)
+				}
+				cuts[dk] = k
+			}
+			src = func(i int) ([][]byte, *rfail) { return k.cells[i], k.fail[i] }
+		} else {
+			src = func(i int) ([][]byte, *rfail) { return cutLine(lines[i], dk) }
+		}
+		s := build(lines, src, c, g)
+		for _, r := range timeReadings(c, &s, t.opt) {
+			res := result{r: r, headerOpen: s.base == ""}
+			res.firstGuess = r.base == "samples" && r.first == 1 && r.shape != ShapeMatrix && t.opt.FirstIndex < 0 && s.first < 0
+			if s.fail != nil {
+				res.fail = s.fail
+			} else {
+				res.units, res.fail, res.soft, res.offGrid, res.worst = place(&s, r, g, tol)
+			}
+			out = append(out, res)
+		}
+	}
+	return out
+}
+
+// timeReadings completes a structural reading with the time bases and
+// first indices left open by the options and the header.
+func timeReadings(c reading, s *structure, opt DischargeOptions) []reading {
+	var out []reading
+	if c.shape == ShapeMatrix {
+		c.base, c.first = "samples", 0
+		return []reading{c}
+	}
+	bases := []string{"s", "ms", "samples"}
+	switch {
+	case opt.TimeBase != "":
+		bases = []string{opt.TimeBase}
+	case s.base != "":
+		bases = []string{s.base}
+	}
+	for _, b := range bases {
+		if b != "samples" {
+			c.base, c.first = b, 0
+			out = append(out, c)
+			continue
+		}
+		firsts := []int{0, 1}
+		switch {
+		case opt.FirstIndex >= 0:
+			firsts = []int{opt.FirstIndex}
+		case s.first >= 0:
+			firsts = []int{s.first}
+		}
+		for _, f := range firsts {
+			c.base, c.first = b, f
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
+// accept turns the chosen reading into Discharges with notes saying how it
+// was read, why, and what was read and not stored.
+func accept(t *dischText, c *result, all []result, multi bool, opt DischargeOptions, tol float64) *Discharges {
+	r := c.r
+	dc := &Discharges{File: t.path, Reading: r.describe(), Shape: r.shape, TimeBase: r.base, Labels: r.labels,
+		FirstIndex: r.first, Units: c.units, OffGrid: c.offGrid, WorstOffGrid: c.worst}
+	why := "as given"
+	if multi {
+		n := 0
+		for _, x := range all {
+			if x.fail == nil && x.soft == nil {
+				n++
+			}
+		}
+		if n == 1 {
+			why = fmt.Sprintf("detected: the only one of %d readings that fits", len(all))
+		} else {
+			why = fmt.Sprintf("detected: %d of %d readings fit and store the same values", n, len(all))
+		}
+	}
+	dc.ShapeWhy, dc.TimeBaseWhy, dc.IndexWhy = why, why, why
+	if !c.headerOpen && opt.TimeBase == "" {
+		dc.TimeBaseWhy = "from the header"
+	}
+	dc.Notes = append(dc.Notes, "read as "+dc.Reading+" ("+why+")")
+	if multi {
+		dc.Notes = append(dc.Notes, ruledOut(c, all)...)
+	}
+	for _, m := range t.preamble {
+		dc.Notes = append(dc.Notes, fmt.Sprintf("line %d %q read and not stored (muarc takes no settings from a discharge file)", m.Line, m.Key+": "+m.Value))
+	}
+	if t.comments > 0 {
+		dc.Notes = append(dc.Notes, fmt.Sprintf("%d comment lines read and not stored", t.comments))
+	}
+	if c.soft != nil {
+		dc.Notes = append(dc.Notes, fmt.Sprintf("line %d: %s (kept; stored in ascending order)", c.soft.line, c.soft.msg))
+	}
+	if dc.OffGrid > 0 {
+		dc.Notes = append(dc.Notes, fmt.Sprintf("%d times lie more than %g samples from the sample grid (worst %.3g samples); each was put on the nearest sample", dc.OffGrid, tol, dc.WorstOffGrid))
+	}
+	return dc
+}
+
+// ruledOut names, for each option that detection chose, the nearest
+// reading that differs in it and why that one does not fit.
+func ruledOut(c *result, all []result) []string {
+	var out []string
+	done := map[string]bool{}
+	for _, x := range all {
+		d := diffDims(c.r, x.r)
+		if len(d) != 1 || done[d[0]] {
+			continue
+		}
+		f := x.fail
+		if f == nil {
+			f = x.soft
+		}
+		if f == nil {
+			continue
+		}
+		done[d[0]] = true
+		where := ""
+		if f.line > 0 {
+			where = fmt.Sprintf(" (line %d)", f.line)
+		}
+		out = append(out, fmt.Sprintf("not %s: %s%s", dimValue(x.r, d[0]), f.msg, where))
+	}
+	return out
+}
+
+// diffDims lists the options in which two readings differ.
+func diffDims(a, b reading) []string {
+	var d []string
+	if a.delim != b.delim {
+		d = append(d, "delimiter")
+	}
+	if a.comma != b.comma {
+		d = append(d, "decimal_comma")
+	}
+	if a.header != b.header {
+		d = append(d, "header")
+	}
+	if a.shape != b.shape {
+		d = append(d, "shape")
+	}
+	if a.labels != b.labels {
+		d = append(d, "labels")
+	}
+	if a.base != b.base {
+		d = append(d, "time_base")
+	}
+	if a.base == "samples" && b.base == "samples" && a.first != b.first {
+		d = append(d, "first_index")
+	}
+	return d
+}
+
+func dimValue(r reading, dim string) string {
+	switch dim {
+	case "delimiter":
+		return delimWord(r.delim) + "-delimited"
+	case "decimal_comma":
+		return "decimal comma " + yesNo(r.comma)
+	case "header":
+		return "header " + yesNo(r.header)
+	case "shape":
+		return "shape " + r.shape
+	case "labels":
+		return "labels " + yesNo(r.labels)
+	case "time_base":
+		return "times in " + r.base
+	}
+	return fmt.Sprintf("%d-based", r.first)
+}
+
+// noReading is the error when no reading fits: the failure of the reading
+// that got furthest into the file.
+func noReading(t *dischText, res []result, opt DischargeOptions) error {
+	best := -1
+	// A reading ruled out only by a soft rule came closest; then the one
+	// that failed furthest into the file.
+	score := func(r *result) int {
+		f := r.fail
+		s := 0
+		if f == nil {
+			f, s = r.soft, 1<<40
+		}
+		return s + f.line<<10 + f.col
+	}
+	for i := range res {
+		if best < 0 || score(&res[i]) > score(&res[best]) {
+			best = i
+		}
+	}
+	r := &res[best]
+	f := r.fail
+	if f == nil {
+		f = r.soft
+	}
+	pe := &ParseError{File: t.path, Line: f.line, Column: f.col, Msg: f.msg, Hint: f.hint, Example: t.lineText(f.line)}
+	if len(res) > 1 {
+		cli, prof := r.r.flags(opt)
+		pe.Msg = fmt.Sprintf("no reading of the file fits (%d tried); read as %s: %s", len(res), r.r.describe(), f.msg)
+		h := f.hint
+		if h != "" {
+			h += "; "
+		}
+		pe.Hint = h + "if that is the reading, give " + cli + " (profile: " + prof + ") and see what remains"
+	}
+	return pe
+}
+
+// ambiguous is the error when readings that fit store different values.
+func ambiguous(t *dischText, groups [][]*result, opt DischargeOptions) error {
+	if len(groups) > 4 {
+		groups = groups[:4]
+	}
+	dims := separating(groups)
+	var ways, picks []string
+	for i, g := range groups {
+		r := g[0]
+		n := 0
+		for _, u := range r.units {
+			n += len(u.Discharges)
+		}
+		first := ""
+		if len(r.units) > 0 {
+			u := r.units[0]
+			first = fmt.Sprintf("; the first unit %s has %d discharges", unitName(u.Label, 0), len(u.Discharges))
+			if len(u.Discharges) > 0 {
+				first += fmt.Sprintf(" from sample %d", u.Discharges[0])
+			}
+		}
+		ways = append(ways, fmt.Sprintf("(%d) %s: %d units, %d discharges%s", i+1, r.r.describe(), len(r.units), n, first))
+		cli, prof := pick(r.r, dims, opt)
+		picks = append(picks, fmt.Sprintf("(%d) %s [profile: %s]", i+1, cli, prof))
+	}
+	// The first row every shown reading reads as data.
+	line := t.lines[0]
+	headers := true
+	for _, g := range groups {
+		headers = headers && g[0].r.header
+	}
+	if headers && len(t.lines) > 1 {
+		line = t.lines[1]
+	}
+	return &ParseError{File: t.path, Line: line.line, Column: 1,
+		Msg:     fmt.Sprintf("the file can be read in %d ways that store different values: %s", len(groups), strings.Join(ways, "; ")),
+		Hint:    "muarc does not guess: pick one with " + strings.Join(picks, " or "),
+		Example: string(line.text)}
+}
+
+// separating lists the options whose values tell the groups apart.
+func separating(groups [][]*result) []string {
+	all := []string{"delimiter", "decimal_comma", "header", "shape", "labels", "time_base", "first_index"}
+	var out []string
+	for _, d := range all {
+		vals := make([]map[string]bool, len(groups))
+		for gi, g := range groups {
+			vals[gi] = map[string]bool{}
+			for _, r := range g {
+				vals[gi][dimValue(r.r, d)] = true
+			}
+		}
+		disjoint := true
+		for a := range vals {
+			for b := a + 1; b < len(vals); b++ {
+				for v := range vals[a] {
+					if vals[b][v] {
+						disjoint = false
+					}
+				}
+			}
+		}
+		if disjoint {
+			out = append(out, d)
+		}
+	}
+	if len(out) == 0 {
+		return all
+	}
+	return out
+}
+
+// pick names the options in dims that select reading r.
+func pick(r reading, dims []string, opt DischargeOptions) (string, string) {
+	cli, prof := r.flags(opt)
+	keep := func(s, sep string, match func(part, dim string) bool) string {
+		var out []string
+		for _, p := range strings.Split(s, sep) {
+			for _, d := range dims {
+				if match(p, d) {
+					out = append(out, p)
+					break
+				}
+			}
+		}
+		return strings.Join(out, sep)
+	}
+	flagOf := map[string]string{"delimiter": "--discharge-delimiter ", "decimal_comma": "--discharge-decimal-comma ", "header": "--discharge-header ",
+		"shape": "--shape ", "labels": "--labels ", "time_base": "--time-base ", "first_index": "--first-index "}
+	c := keep(cli, " --", func(p, d string) bool {
+		return strings.HasPrefix("--"+strings.TrimPrefix(p, "--")+" ", flagOf[d])
+	})
+	if c != "" && !strings.HasPrefix(c, "--") {
+		c = "--" + c
+	}
+	pr := keep(prof, ", ", func(p, d string) bool { return strings.HasPrefix(p, "discharges."+d+":") })
+	if c == "" {
+		return cli, prof
+	}
+	return c, pr
+}
+
+// firstIndexGuess refuses a file that fits only as 1-based sample indices
+// when nothing said so: usually one index equal to the sample count.
+func firstIndexGuess(t *dischText, res []result, c *result, opt DischargeOptions) error {
+	var zero *result
+	for i := range res {
+		x := &res[i]
+		if d := diffDims(c.r, x.r); len(d) == 1 && d[0] == "first_index" {
+			zero = x
+		}
+	}
+	pe := &ParseError{File: t.path, Msg: "the sample indices fit only when counted from 1, and nothing in the file says they are",
+		Hint: "give --first-index 1 (profile: discharges.first_index: 1) if the file counts samples from 1, or mark the header \"(1-based)\"; else correct the index"}
+	if zero != nil {
+		f := zero.fail
+		if f == nil {
+			f = zero.soft
+		}
+		if f != nil {
+			pe.Line, pe.Column, pe.Example = f.line, f.col, t.lineText(f.line)
+			pe.Msg += "; counted from 0: " + f.msg
+		}
+	}
+	return pe
+}
+
+// lineText is the text of a table line by its number ("" when unknown).
+func (t *dischText) lineText(n int) string {
+	for _, l := range t.lines {
+		if l.line == n {
+			return clip(l.text)
+		}
+	}
+	return ""
+}
