@@ -11,6 +11,7 @@ import (
 
 	"muarc/analysis"
 	"muarc/deid"
+	"muarc/internal/isolate"
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/synth"
@@ -119,6 +120,9 @@ func writeRec(path string, rec *record.Recording, now time.Time) error {
 }
 
 func TestMain(m *testing.M) {
+	// Worker processes (internal/isolate) are this test binary started
+	// again: they serve here and never return.
+	isolate.Serve()
 	code := m.Run()
 	if fixtureDir != "" {
 		os.RemoveAll(fixtureDir)

@@ -14,6 +14,8 @@ import (
 func init() {
 	var (
 		asJSON, asTSV, overwrite bool
+		catalogue, noCatalogue   bool
+		inProcess                bool
 		muscle, subject, tables  string
 		level                    float64
 		workers                  int
@@ -30,7 +32,19 @@ never the EMG samples. The unit counts come from the array's last decomposition
 edited by hand, else its last one; the decomposition column names it.
 
 --tables OUTDIR writes the study tables subjects.tsv and recordings.tsv for the
-rows selected. Exit 0, or 2 when a file could not be read (the others are listed).`,
+rows selected.
+
+--catalogue keeps the rows in DIR/.muarc-catalogue.jsonl (JSON Lines, described in
+archive/CATALOGUE.md in the source). Once it exists, every index run uses it and
+refreshes it: a recording is read again unless its size, modification time, change
+time and inode are those the catalogue holds (or, after a copy of the folder, its
+size, modification time and metadata digest); removed recordings drop out, so a
+filtered index of 10,000 recordings reads the folder listing and one file.
+--no-catalogue reads every recording and leaves the catalogue alone.
+
+Recordings are read in worker processes (reused, restarted after a crash), so a
+file that crashes the HDF5 library is reported as unreadable and the run goes on.
+Exit 0, or 2 when a file could not be read (the others are listed).`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if asJSON && asTSV {
@@ -40,7 +54,20 @@ rows selected. Exit 0, or 2 when a file could not be read (the others are listed
 			if cmd.Flags().Changed("level") {
 				opt.Level = level
 			}
-			sums, readErr := archive.Summaries(args[0], workers)
+			if catalogue && noCatalogue {
+				return withExit(2, fmt.Errorf("--catalogue and --no-catalogue: choose one"))
+			}
+			sopt := archive.StudyOptions{Workers: workers, Isolated: !inProcess}
+			switch {
+			case catalogue:
+				sopt.Catalogue = archive.CatalogueCreate
+			case noCatalogue:
+				sopt.Catalogue = archive.CatalogueIgnore
+			}
+			sums, info, readErr := archive.IndexStudy(args[0], sopt)
+			for _, n := range info.Notes {
+				fmt.Fprintln(os.Stderr, "muarc index: note:", n)
+			}
 			if sums == nil && readErr != nil {
 				if _, err := os.Stat(args[0]); err != nil {
 					return withExit(2, err)
@@ -73,7 +100,7 @@ rows selected. Exit 0, or 2 when a file could not be read (the others are listed
 				if rows == nil {
 					rows = []archive.IndexRow{}
 				}
-				if err := printJSON(out, map[string]any{"rows": rows, "unreadable": archiveStrings(errs)}); err != nil {
+				if err := printJSON(out, map[string]any{"rows": rows, "unreadable": archiveStrings(errs), "catalogue": catalogueJSON(info)}); err != nil {
 					return withExit(2, err)
 				}
 			case asTSV:
@@ -93,6 +120,9 @@ rows selected. Exit 0, or 2 when a file could not be read (the others are listed
 				}
 				tw.Flush()
 				fmt.Fprintf(out, "%d rows from %d recordings\n", len(rows), len(sel))
+				if info.Catalogue != "" {
+					fmt.Fprintf(out, "catalogue %s: %d recordings from it, %d rechecked by content, %d read\n", info.Catalogue, info.Reused, info.Rechecked, info.Read)
+				}
 			}
 			if len(errs) > 0 {
 				if !asJSON {
@@ -114,6 +144,9 @@ rows selected. Exit 0, or 2 when a file could not be read (the others are listed
 	f.StringVar(&tables, "tables", "", "write subjects.tsv and recordings.tsv into this folder")
 	f.BoolVar(&overwrite, "overwrite", false, "replace existing tables")
 	f.IntVar(&workers, "workers", 0, "files read at once (0: one per CPU)")
+	f.BoolVar(&catalogue, "catalogue", false, "create or refresh the study's catalogue DIR/"+archive.CatalogueName+" and answer from it")
+	f.BoolVar(&noCatalogue, "no-catalogue", false, "read every recording; neither read nor write the catalogue")
+	f.BoolVar(&inProcess, "in-process", false, "read recordings in this process instead of worker processes (a file damaged in its HDF5 metadata can then crash the run)")
 	rootCmd.AddCommand(cmd)
 }
 
@@ -136,4 +169,10 @@ func archiveStrings(s []string) []string {
 		return []string{}
 	}
 	return s
+}
+
+// catalogueJSON is what --json says about the catalogue.
+func catalogueJSON(info archive.StudyInfo) map[string]any {
+	return map[string]any{"path": info.Catalogue, "written": info.Written, "recordings": info.Recordings,
+		"reused": info.Reused, "rechecked": info.Rechecked, "read": info.Read, "notes": archiveStrings(info.Notes)}
 }

@@ -1,0 +1,138 @@
+package archive
+
+import (
+	"encoding/json"
+	"path/filepath"
+
+	"muarc/h5"
+	"muarc/internal/batch"
+	"muarc/internal/isolate"
+	"muarc/recfile"
+)
+
+// Worker kinds (internal/isolate) for reading recordings of an index in
+// worker processes: one round trip per recording, the worker kept.
+const (
+	kindSummary = "archive.summary"
+	kindContent = "archive.content"
+)
+
+type readArg struct {
+	Path string `json:"path"`
+	Rel  string `json:"rel"`
+}
+
+type readResult struct {
+	Content string        `json:"content"`
+	Summary summaryRecord `json:"summary"`
+}
+
+func init() {
+	isolate.Register(kindSummary, func(raw json.RawMessage) (any, error) {
+		var a readArg
+		if err := json.Unmarshal(raw, &a); err != nil {
+			return nil, err
+		}
+		s, c, err := summaryAndContent(a.Path, a.Rel)
+		if err != nil {
+			return nil, err
+		}
+		return readResult{Content: c, Summary: recordOf(s)}, nil
+	})
+	isolate.Register(kindContent, func(raw json.RawMessage) (any, error) {
+		var a readArg
+		if err := json.Unmarshal(raw, &a); err != nil {
+			return nil, err
+		}
+		return contentOf(a.Path)
+	})
+}
+
+// summaryReader reads the recordings of one study folder, in this process
+// or in worker processes.
+type summaryReader struct {
+	dir      string
+	isolated bool
+}
+
+func (r summaryReader) path(rel string) string { return filepath.Join(r.dir, filepath.FromSlash(rel)) }
+
+// run calls job(0..n-1) on workers and returns the errors by index.
+func (r summaryReader) run(n, workers int, job func(k int) error) []error {
+	if n == 0 {
+		return nil
+	}
+	return batch.Run(n, workers, job, nil)
+}
+
+// summary reads one recording's summary and its content check.
+func (r summaryReader) summary(rel string) (*RecordingSummary, string, error) {
+	if !r.isolated {
+		return summaryAndContent(r.path(rel), rel)
+	}
+	pool, err := isolate.Default()
+	if err != nil {
+		return nil, "", err
+	}
+	var res readResult
+	if err := pool.Call(kindSummary, readArg{Path: r.path(rel), Rel: rel}, &res); err != nil {
+		return nil, "", err
+	}
+	s := res.Summary.summary(rel, 0)
+	return &s, res.Content, nil
+}
+
+// content reads one recording's content check.
+func (r summaryReader) content(rel string) (string, error) {
+	if !r.isolated {
+		return contentOf(r.path(rel))
+	}
+	pool, err := isolate.Default()
+	if err != nil {
+		return "", err
+	}
+	var c string
+	err = pool.Call(kindContent, readArg{Path: r.path(rel), Rel: rel}, &c)
+	return c, err
+}
+
+// summaryAndContent reads a recording's summary and its content check.
+func summaryAndContent(path, rel string) (*RecordingSummary, string, error) {
+	c, err := contentOf(path)
+	if err != nil {
+		return nil, "", err
+	}
+	s, err := summarize(path, rel)
+	if err != nil {
+		return nil, "", err
+	}
+	return s, c, nil
+}
+
+// contentOf reads the root attributes of a recording and returns its
+// content check (rootContent).
+func contentOf(path string) (string, error) {
+	f, err := h5.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	root, err := f.Root()
+	if err != nil {
+		return "", err
+	}
+	defer root.Close()
+	as, err := root.Attrs()
+	if err != nil {
+		return "", err
+	}
+	var digest string
+	attrs := make([]rootAttr, 0, len(as))
+	for _, a := range as {
+		if a.Name == recfile.AttrMetadataSHA256 {
+			digest, _ = a.Value.(string)
+		}
+		attrs = append(attrs, rootAttr{Name: a.Name, Type: a.Type, Value: a.Value})
+	}
+	return rootContent(digest, attrs), nil
+}
