@@ -356,4 +356,3 @@ type rootAttr struct {
 	Name, Type string
 	Value      any
 }
-
