@@ -12,9 +12,11 @@ DEMO    ?= demo-out
 # EDF+/BDF+ references: EDFlib (libedf-dev, compiled with gcc in a test),
 # MNE-Python and biosig's save2gdf. R's hdf5r and npm's h5wasm (installed
 # into scripts/h5wasm from its package-lock.json) run LAYOUT.md's snippets.
+# slurm-wlm and munge: archive/examples' job arrays run under a real
+# single-node Slurm started by the test.
 DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
 	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium \
-	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r
+	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge
 
 .PHONY: all deps build demo test bench fuzz vet clean
 
