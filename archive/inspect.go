@@ -18,10 +18,14 @@ const maxListed = 3
 var lowConfidenceRules = validate.DefaultOptions().Rules
 
 // summarize opens a recording (attributes and small tables only; samples
-// stay on disk) and builds its summary.
+// stay on disk) and builds its summary. The file is screened first
+// (validate.Screener) when the program installed a screen.
 func summarize(path, rel string) (*RecordingSummary, error) {
 	st, err := os.Stat(path)
 	if err != nil {
+		return nil, err
+	}
+	if err := validate.ScreenFirst(path, false); err != nil {
 		return nil, err
 	}
 	f, err := recfile.Open(path)
@@ -34,11 +38,13 @@ func summarize(path, rel string) (*RecordingSummary, error) {
 }
 
 // checkRecording validates a recording (with the checksum scan) and lists
-// its identifying fields still set.
+// its identifying fields still set. A file that could not be read in
+// validation (a crash of the HDF5 library included) is not opened here.
 func checkRecording(path string) (nerr int, first []string, identifying []string, err error) {
-	nerr, first, err = validateWith(path, validate.DefaultOptions())
-	if err != nil {
-		return 0, nil, nil, err
+	rep := validate.Validator(path, validate.DefaultOptions())
+	nerr, first = reportErrors(rep)
+	if rep.ReadError != "" {
+		return nerr, first, nil, nil
 	}
 	f, err := recfile.Open(path)
 	if err != nil {
@@ -61,13 +67,24 @@ func validateFile(path string) (int, []string, error) {
 }
 
 func validateWith(path string, opt validate.Options) (int, []string, error) {
-	rep := validate.Validator(path, opt)
+	n, first := reportErrors(validate.Validator(path, opt))
+	return n, first, nil
+}
+
+// reportErrors counts a report's errors (a read error counts one) and
+// quotes the first few, integrity damage first.
+func reportErrors(rep *validate.Report) (int, []string) {
 	if rep.ReadError != "" {
-		return 1, []string{rep.ReadError}, nil
+		return 1, []string{rep.ReadError}
 	}
 	var first []string
+	for _, f := range rep.Damage() {
+		if len(first) < maxListed {
+			first = append(first, f.String())
+		}
+	}
 	for _, f := range rep.Findings {
-		if f.Severity == validate.Error && len(first) < maxListed {
+		if f.Severity == validate.Error && !validate.IsIntegrityCheck(f.Check) && len(first) < maxListed {
 			first = append(first, f.String())
 		}
 	}
@@ -75,5 +92,5 @@ func validateWith(path string, opt validate.Options) (int, []string, error) {
 	if n > maxListed {
 		first = append(first, fmt.Sprintf("and %d more (run muarc validate on the file)", n-maxListed))
 	}
-	return n, first, nil
+	return n, first
 }

@@ -25,6 +25,10 @@ type Options struct {
 	InputPath string
 	// Now is the time stamp of the history entry; zero means time.Now().
 	Now time.Time
+	// AcceptedDamage counts, by validation check id, the integrity
+	// findings of a damaged source de-identified on request
+	// (StudyOptions.AcceptDamaged); the history entry records them.
+	AcceptedDamage map[string]int
 }
 
 // FieldOutcome says what happened to one field holding a value.
@@ -93,6 +97,7 @@ func (r *Result) OriginalSubjectID() string { return r.originalID }
 func (r *Result) OriginalSessionID() string { return r.origSessID }
 
 type applier struct {
+	damage  map[string]int
 	pol     *Policy
 	ps      *Pseudonymizer
 	res     *Result
@@ -127,7 +132,7 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 	if now.IsZero() {
 		now = time.Now()
 	}
-	a := &applier{pol: pol, ps: opt.Pseudonymizer, res: &Result{}, subj: strings.TrimSpace(rec.Subject.ID), removed: map[string]int{}}
+	a := &applier{damage: opt.AcceptedDamage, pol: pol, ps: opt.Pseudonymizer, res: &Result{}, subj: strings.TrimSpace(rec.Subject.ID), removed: map[string]int{}}
 	a.res.originalID = a.subj
 	a.res.origSessID = rec.Session.ID
 	a.shift = a.ps.ShiftDays(a.subj, pol.ShiftMaxDays)

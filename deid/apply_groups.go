@@ -222,6 +222,12 @@ func (a *applier) provenance(rec *record.Recording, out *record.Recording, now t
 	if timeNote != "" {
 		details["history"] = timeNote
 	}
+	if len(a.damage) > 0 {
+		// Check ids and counts only: the findings' paths and messages may
+		// hold original names.
+		details["source_damage_accepted"] = a.damage
+		details["source_integrity"] = "the source failed its integrity checks and was de-identified as read, on request (--accept-damaged): values may differ from what was recorded"
+	}
 	b, _ := json.Marshal(details)
 	out.Provenance.History = append(out.Provenance.History, record.Operation{
 		Action: "deidentify", Software: schema.Software, Time: now.UTC().Truncate(time.Second), Details: string(b)})

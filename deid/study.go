@@ -23,6 +23,7 @@ import (
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/schema"
+	"muarc/validate"
 )
 
 // StudyOptions control DeidentifyStudy and DeidentifyFile.
@@ -48,6 +49,12 @@ type StudyOptions struct {
 	Progress func(done, total int)
 	// Now is the time of the history entry (zero: the current time).
 	Now time.Time
+	// AcceptDamaged de-identifies a source that fails validation's
+	// integrity checks (chunk checksums, structure, metadata digest) as it
+	// reads, recording the damage in the output's history. Without it such
+	// a source is refused: a copy would carry the damage under a clean new
+	// checksum and digest.
+	AcceptDamaged bool
 }
 
 // FileOutcome is the report of one input file.
@@ -199,6 +206,7 @@ type job struct {
 	sess     string
 	out      string // output name
 	preError error
+	damage   map[string]int // integrity findings accepted, by check id
 }
 
 // DeidentifyStudy de-identifies every muarc file (*.h5) under srcDir into
@@ -352,9 +360,13 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 	} else if err := os.MkdirAll(outDir, 0o755); err != nil {
 		return nil, err
 	}
+	checkSources(jobs, opt)
 	// Pre-pass: ids, pseudonyms, collisions and output names, before any write.
 	subjects, sessions := NewRegistry(), NewRegistry()
 	for _, j := range jobs {
+		if j.preError != nil {
+			continue
+		}
 		view, err := recfile.MetadataView(j.in)
 		if err != nil {
 			j.preError = err
@@ -475,6 +487,53 @@ func viewString(view map[string]any, group, key string) string {
 	return s
 }
 
+// checkSources validates every input (validate.Validator, with the chunk
+// scan) before anything reads it here: an input that cannot be read (a
+// crash of the HDF5 library included, when the program isolates
+// validation) or that fails an integrity check is refused, unless
+// AcceptDamaged, which records the damage instead.
+func checkSources(jobs []*job, opt StudyOptions) {
+	vopt := validate.DefaultOptions()
+	vopt.ChecksumScan = true
+	batch.Run(len(jobs), opt.Workers, func(i int) error {
+		j := jobs[i]
+		if j.preError != nil {
+			return nil
+		}
+		rep := validate.Validator(j.in, vopt)
+		if rep.ReadError != "" {
+			j.preError = fmt.Errorf("could not read: %s", rep.ReadError)
+			return nil
+		}
+		damage := rep.Damage()
+		if len(damage) == 0 {
+			return nil
+		}
+		if !opt.AcceptDamaged {
+			j.preError = fmt.Errorf("refused: the source fails its integrity checks: %s. Restore it from a copy; or give --accept-damaged to de-identify it as read (recorded in the output's history)",
+				rep.DamageText(5))
+			return nil
+		}
+		j.damage = map[string]int{}
+		for _, f := range damage {
+			j.damage[f.Check]++
+		}
+		return nil
+	}, nil)
+}
+
+func damageCounts(m map[string]int) string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for i, k := range keys {
+		keys[i] = fmt.Sprintf("%s x%d", k, m[k])
+	}
+	return strings.Join(keys, ", ")
+}
+
 // doFile de-identifies one input.
 func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOptions) (FileOutcome, error) {
 	fo := FileOutcome{Output: j.out}
@@ -487,13 +546,16 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	}
 	defer f.Close()
 	rec := f.Recording()
-	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now})
+	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now, AcceptedDamage: j.damage})
 	if err != nil {
 		return fo, err
 	}
 	fo.Subject, fo.Session = res.Subject, res.Session
 	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
 	fo.quasi, fo.rec, fo.pseud = res.Quasi, res, ps.Subject(j.subj)
+	if len(j.damage) > 0 {
+		fo.Notes = append(fo.Notes, fmt.Sprintf("the source fails its integrity checks (%s); de-identified as read because damage was accepted, and recorded in the output's history", damageCounts(j.damage)))
+	}
 	final := filepath.Join(outDir, j.out)
 	if err := atomicfile.CheckTarget(final, opt.Overwrite); err != nil {
 		return fo, err // a dry run says so too

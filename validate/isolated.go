@@ -92,6 +92,23 @@ func Screen(path string, chunks bool) error {
 	return nil
 }
 
+// Screener, when not nil, is called by this module's packages before they
+// open a recording in their own process (archive's index, pack and report
+// summaries, the muarc commands that read one file); a non-nil error is
+// that recording's error and it is not opened. It is nil by default: a
+// library user reading untrusted files should set it to Screen (and call
+// ServeWorker first thing in main), as the muarc command does. Without it
+// a damaged file can end the whole process inside the HDF5 library.
+var Screener func(path string, chunks bool) error
+
+// ScreenFirst calls Screener when one is installed.
+func ScreenFirst(path string, chunks bool) error {
+	if Screener == nil {
+		return nil
+	}
+	return Screener(path, chunks)
+}
+
 // IsCrash reports whether err (from Screen, or a Report's ReadError text)
 // says the HDF5 library crashed on the file.
 func IsCrash(err error) bool {

@@ -117,7 +117,10 @@ func indexTable(rows []archive.IndexRow) Table {
 // shown in the section, never dropped.
 func section(path, rel string, vopt validate.Options) Section {
 	s := Section{File: rel}
-	rep := validate.File(path, vopt)
+	// Through validate.Validator, so that a program that isolates
+	// validation (the muarc command) gets a file that crashes the HDF5
+	// library back as a read error, and the file is then not opened here.
+	rep := validate.Validator(path, vopt)
 	errs, warns, notes := rep.Count(validate.Error), rep.Count(validate.Warning), rep.Count(validate.Note)
 	switch {
 	case rep.ReadError != "":

@@ -128,7 +128,7 @@ func runCompare(cmd *cobra.Command, args []string) error {
 		return withExit(2, fmt.Errorf("--tolerance-ms must be > 0, --max-lag-ms >= 0 and --min-roa in 0..1"))
 	}
 	for _, f := range []string{ra.File, rb.File} {
-		if err := analysis.CheckInputFile(f); err != nil {
+		if err := checkRecordingInput(f, false); err != nil {
 			return withExit(2, err)
 		}
 	}

@@ -16,7 +16,7 @@ var deidFlags struct {
 	out, key, policy, shard, linkage, check, original, shardReport string
 	needles                                                        []string
 	workers, k                                                     int
-	json, dryRun, overwrite, printPolicy                           bool
+	json, dryRun, overwrite, printPolicy, acceptDamaged            bool
 }
 
 var deidentifyCmd = &cobra.Command{
@@ -36,6 +36,11 @@ discharges and unit figures are carried bit-exact (compared by SHA-256 after
 writing). Before an output is published its raw bytes and decoded metadata
 are searched for every original identifying value (UTF-8, UTF-16LE/BE, dates
 in their common spellings); a file that fails is not written.
+
+Every source is validated first (chunk checksums, structure, the metadata
+digest): a damaged source is refused with what is damaged, since a copy
+would carry the damage under a new, clean checksum. --accept-damaged
+de-identifies it as read and records that in the output's history.
 
 --check FILE checks a file meant for sharing (with --original, against the
 file it was made from). The report ends with a k-anonymity table over the
@@ -82,6 +87,7 @@ func init() {
 	f.StringVar(&deidFlags.linkage, "linkage", "", "also write a private linkage `FILE` (original id -> pseudonym), mode 0600, outside the output folder")
 	f.IntVar(&deidFlags.k, "k", 0, "group size for the k-anonymity report (default: the policy's k, 5 in the built-in policy)")
 	f.BoolVar(&deidFlags.overwrite, "overwrite", false, "replace existing output files")
+	f.BoolVar(&deidFlags.acceptDamaged, "accept-damaged", false, "de-identify sources that fail their integrity checks (chunk checksums, structure, metadata digest) as they read; recorded in each output's history")
 	f.StringVar(&deidFlags.check, "check", "", "check `FILE` for identifying values instead of de-identifying")
 	f.StringVar(&deidFlags.original, "original", "", "with --check: the `FILE` it was made from, whose identifying values are searched for")
 	f.StringArrayVar(&deidFlags.needles, "needle", nil, "with --check: a further `VALUE` to search for (repeatable)")
@@ -121,7 +127,7 @@ func runDeidentify(cmd *cobra.Command, args []string) error {
 	}
 	var bar *progress
 	opt := deid.StudyOptions{Policy: pol, Key: key, Workers: deidFlags.workers, Shard: shard,
-		DryRun: deidFlags.dryRun, Overwrite: deidFlags.overwrite, Linkage: deidFlags.linkage, K: deidFlags.k,
+		DryRun: deidFlags.dryRun, Overwrite: deidFlags.overwrite, AcceptDamaged: deidFlags.acceptDamaged, Linkage: deidFlags.linkage, K: deidFlags.k,
 		Progress: func(done, total int) {
 			if bar == nil {
 				bar = newProgress("deidentify", int64(total))

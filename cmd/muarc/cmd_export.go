@@ -47,6 +47,9 @@ from the pseudonym ("X" for unknowns). Only de-identified recordings unless --al
 			if what == "all" {
 				kinds = convert.ExportKinds
 			}
+			if err := checkRecordingInput(args[0], true); err != nil {
+				return withExit(2, err)
+			}
 			files, err := convert.Export(args[0], kinds, convert.ExportOptions{Dir: out, Format: format, Shape: shape, TimeBase: timeBase, Overwrite: overwrite})
 			return exportDone(cmd.OutOrStdout(), files, err, asJSON)
 		},

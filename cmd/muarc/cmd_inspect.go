@@ -72,6 +72,9 @@ type trialSummary struct {
 }
 
 func inspectFile(path string) (*inspection, error) {
+	if err := checkRecordingInput(path, false); err != nil {
+		return nil, err
+	}
 	fi, err := os.Stat(path)
 	if err != nil {
 		return nil, err

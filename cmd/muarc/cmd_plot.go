@@ -69,7 +69,7 @@ func runPlot(cmd *cobra.Command, args []string) error {
 		}
 		formats = append(formats, f)
 	}
-	if err := analysis.CheckInputFile(args[0]); err != nil {
+	if err := checkRecordingInput(args[0], true); err != nil {
 		return withExit(2, err)
 	}
 	fh, err := recfile.Open(args[0])

@@ -35,8 +35,9 @@ what the files hold: before a study is shared, the ethics board, the consent
 given and local data-protection law decide what may leave the lab.
 
 Exit status: 0 written, 2 the folder could not be read or the page not
-written (or bad usage). Recordings that fail validation or cannot be read
-are shown as such in the page.`,
+written (or bad usage), or a recording could not be read: the page is then
+still written, with it marked. Recordings that fail validation are shown as
+such in the page.`,
 	Args: cobra.ExactArgs(1),
 	RunE: runReport,
 }
@@ -58,6 +59,9 @@ type reportSummary struct {
 	Recordings int      `json:"recordings"`
 	Figures    int      `json:"figures"`
 	Statuses   []string `json:"statuses"`
+	// Unreadable counts the recordings that could not be read (shown in
+	// the page; exit status 2).
+	Unreadable int      `json:"unreadable"`
 	Notes      []string `json:"notes"`
 }
 
@@ -93,6 +97,9 @@ func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error)
 	for _, r := range p.Recordings {
 		s.Figures += len(r.Figures)
 		s.Statuses = append(s.Statuses, r.File+": "+r.Status)
+		if r.Status == "could not read" {
+			s.Unreadable++
+		}
 	}
 	return s, nil
 }
@@ -106,8 +113,15 @@ func runReport(cmd *cobra.Command, args []string) error {
 		return withExit(2, err)
 	}
 	w := cmd.OutOrStdout()
+	code := 0
+	if s.Unreadable > 0 {
+		code = 2 // the page is written, with those recordings marked
+	}
 	if reportFlags.json {
-		return printJSON(w, s)
+		if err := printJSON(w, s); err != nil {
+			return err
+		}
+		return silentExit(code)
 	}
 	fmt.Fprintf(w, "wrote %s (%d recordings, %d figures, %.1f MB)\n", s.Report, s.Recordings, s.Figures, float64(s.Bytes)/1e6)
 	for _, st := range s.Statuses {
@@ -116,5 +130,5 @@ func runReport(cmd *cobra.Command, args []string) error {
 	for _, n := range s.Notes {
 		fmt.Fprintf(w, "note: %s\n", n)
 	}
-	return nil
+	return silentExit(code)
 }

@@ -62,6 +62,9 @@ func runStats(cmd *cobra.Command, args []string) error {
 	if statsFlags.json && statsFlags.tsv {
 		return withExit(2, fmt.Errorf("give --json or --tsv, not both"))
 	}
+	if err := checkRecordingInput(args[0], !statsFlags.noMUAPs); err != nil {
+		return withExit(2, err)
+	}
 	res, err := analysis.StatsFile(args[0], !statsFlags.noMUAPs, statsFlags.write)
 	if err != nil {
 		return withExit(2, err)

@@ -66,6 +66,9 @@ func main() {
 	validate.Validator = validate.Isolated
 	// Temporary files left by interrupted runs are cleaned or listed.
 	atomicfile.Notice = func(msg string) { fmt.Fprintln(os.Stderr, "muarc: note:", msg) }
+	// Every recording this program opens in its own process is first read
+	// in a worker (validate.Screen).
+	validate.Screener = validate.Screen
 	err := rootCmd.Execute()
 	if err == nil {
 		return

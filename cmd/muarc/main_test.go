@@ -14,12 +14,15 @@ import (
 	"muarc/recfile"
 	"muarc/schema"
 	"muarc/synth"
+	"muarc/validate"
 )
 
 // muarcBin is the command built once for these tests, run as a user would.
 var muarcBin string
 
 func TestMain(m *testing.M) {
+	// The tests' own worker processes (damage_test.go) serve here.
+	validate.ServeWorker()
 	dir, err := os.MkdirTemp("", "muarc-cmd-test")
 	if err != nil {
 		panic(err)
