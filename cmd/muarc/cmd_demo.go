@@ -10,6 +10,8 @@ import (
 	"time"
 
 	"github.com/spf13/cobra"
+
+	"muarc/internal/atomicfile"
 )
 
 // demoMarker marks a folder as made by `muarc demo`, so a later demo may
@@ -148,5 +150,5 @@ func prepareDemoDir(dir string) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
-	return os.WriteFile(filepath.Join(dir, demoMarker), []byte("made by muarc demo; the next demo run may clear this folder\n"), 0o644)
+	return atomicfile.WriteFile(filepath.Join(dir, demoMarker), []byte("made by muarc demo; the next demo run may clear this folder\n"), true)
 }
