@@ -346,6 +346,12 @@ func (p *packer) progress(n int64) {
 
 // one checks, copies and hashes one recording (as far as the mode asks).
 func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
+	return p.oneWith(rel, true)
+}
+
+// oneWith is one; useKnown says whether facts from shard reports (Known)
+// may stand in for the checks.
+func (p *packer) oneWith(rel string, useKnown bool) (FileRecord, *RecordingSummary) {
 	fr := FileRecord{Path: rel}
 	if p.stopped() {
 		fr.Status, fr.Message = StatusError, "not packed: the run stopped on a full disk"
@@ -368,7 +374,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 
 	facts, fromCache := p.cache.get(rel, fr.Bytes, fr.MtimeNs)
 	fromKnown := false
-	if !fromCache {
+	if !fromCache && useKnown {
 		facts, fromKnown = p.known.get(rel, fr.Bytes, fr.MtimeNs)
 		fromKnown = fromKnown && facts.Status != StatusError
 	}
@@ -411,8 +417,7 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 		if errors.Is(err, errSumsDiffer) {
 			// The shard report's facts are for other bytes: check again.
 			p.note("%s: %v of the shard report given with --known; checked, copied and hashed again", rel, err)
-			fr = FileRecord{Path: rel, Bytes: fr.Bytes, MtimeNs: fr.MtimeNs}
-			return p.checkAndCopy(fr, path, sum)
+			return p.oneWith(rel, false)
 		}
 		if err != nil {
 			p.stopOnNoSpace(err)
@@ -425,30 +430,6 @@ func (p *packer) one(rel string, folder bool) (FileRecord, *RecordingSummary) {
 				rel, p.staging)
 		}
 		fr.SHA256, fr.SHA512 = "", ""
-		if err := p.copyFile(&fr, path); err != nil {
-			p.stopOnNoSpace(err)
-			return fr, sum
-		}
-		p.count(true, fr.Bytes)
-	}
-	p.record(fr)
-	return fr, sum
-}
-
-// checkAndCopy checks, copies and hashes one recording with no earlier
-// facts.
-func (p *packer) checkAndCopy(fr FileRecord, path string, sum *RecordingSummary) (FileRecord, *RecordingSummary) {
-	n, first, ident, err := checkRecording(path)
-	if err != nil {
-		fr.Status, fr.Message = StatusError, err.Error()
-		return fr, nil
-	}
-	fr.ValidationErrors, fr.Identifying = n, ident
-	if n > 0 {
-		fr.Message = "fails validation: " + strings.Join(first, "; ")
-	}
-	p.decide(&fr)
-	if fr.Status == StatusOK {
 		if err := p.copyFile(&fr, path); err != nil {
 			p.stopOnNoSpace(err)
 			return fr, sum
