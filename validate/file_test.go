@@ -167,6 +167,8 @@ var structuralBreaks = []struct {
 	readErr string // substring of Report.ReadError, when the file is refused
 }{
 	{"session group missing", "del f['session']", []string{"structure.missing"}, ""},
+	{"list_position off", "A.attrs['list_position'] = np.int64(3)", []string{"structure.list_position"}, ""},
+	{"list_position missing", "del D.attrs['list_position']", []string{"structure.list_position"}, ""},
 	{"samples missing", "del A['samples']", []string{"structure.missing"}, ""},
 	{"samples contiguous", "rewrite(A, 'samples', A['samples'][...])", []string{"structure.chunked", "structure.fletcher32"}, ""},
 	{"samples without Fletcher-32", "rewrite(A, 'samples', A['samples'][...], chunks=(512, 8), shuffle=True, compression='gzip')", []string{"structure.fletcher32"}, ""},

@@ -163,6 +163,7 @@ func (s *structure) check() {
 	if !s.requireGroup("/trials", "/trials", "every muarc file has /trials") {
 		return
 	}
+	s.listPositions()
 	for ti, tn := range s.t.kids["/trials"] {
 		tp, tj := "/trials/"+tn, fmt.Sprintf("/trials/%d", ti)
 		if !s.requireGroup(tp, tj, "each member of /trials is a trial group") {
