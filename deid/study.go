@@ -83,7 +83,6 @@ type FileOutcome struct {
 	Error string `json:"error,omitempty"`
 
 	err   error
-	rec   *Result
 	quasi QuasiIDs
 	pseud string // the subject's pseudonym, even when the policy drops the id
 }
@@ -552,7 +551,7 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	}
 	fo.Subject, fo.Session = res.Subject, res.Session
 	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
-	fo.quasi, fo.rec, fo.pseud = res.Quasi, res, ps.Subject(j.subj)
+	fo.quasi, fo.pseud = res.Quasi, ps.Subject(j.subj)
 	if len(j.damage) > 0 {
 		fo.Notes = append(fo.Notes, fmt.Sprintf("the source fails its integrity checks (%s); de-identified as read because damage was accepted, and recorded in the output's history", damageCounts(j.damage)))
 	}
