@@ -15,6 +15,7 @@ import (
 	"time"
 
 	"muarc/archive/bagit"
+	"muarc/h5"
 	"muarc/internal/batch"
 	"muarc/recfile"
 	"muarc/record"
@@ -285,8 +286,9 @@ func TestVerifyFindsDamageByFile(t *testing.T) {
 	}{
 		{"byte flipped", bagit.KindMismatch, rec, func(d string) {
 			p := filepath.Join(d, rec)
+			at := sampleChunkByte(t, p)
 			b, _ := os.ReadFile(p)
-			b[len(b)*3/4] ^= 0x20
+			b[at] ^= 0x20
 			os.WriteFile(p, b, 0o644)
 		}},
 		{"file removed", bagit.KindMissing, "data/tables/subjects.tsv", func(d string) { os.Remove(filepath.Join(d, "data/tables/subjects.tsv")) }},
@@ -848,4 +850,44 @@ func TestPackSHA512Manifests(t *testing.T) {
 	if rep, err := VerifyTar(tarOut, "", VerifyOptions{}); err != nil || !rep.OK() || len(rep.Manifests) != 4 {
 		t.Fatalf("tar: %v %+v", err, rep)
 	}
+}
+
+// sampleChunkByte returns the file offset of a byte in the middle of a
+// stored chunk of the first samples dataset (where a flip is bit rot in
+// the data, which Fletcher-32 must locate, whatever the layout puts
+// around it).
+func sampleChunkByte(t *testing.T, path string) int64 {
+	t.Helper()
+	objs, err := h5.Describe(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	hf, err := h5.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer hf.Close()
+	root, err := hf.Root()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer root.Close()
+	for _, o := range objs {
+		if !o.IsDataset || !strings.HasSuffix(o.Path, "/samples") {
+			continue
+		}
+		ds, err := root.OpenDataset(strings.TrimPrefix(o.Path, "/"), 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		chunks, err := ds.Chunks()
+		ds.Close()
+		if err != nil || len(chunks) == 0 {
+			t.Fatalf("%s: chunks %v", o.Path, err)
+		}
+		c := chunks[len(chunks)/2]
+		return c.Addr + int64(c.Bytes/2)
+	}
+	t.Fatal("no samples dataset")
+	return 0
 }
