@@ -104,6 +104,12 @@ func ExportEDF(path string, opt EDFExportOptions) ([]EDFFileReport, error) {
 	return reps, nil
 }
 
+// ExportEDFTrial writes one trial of rec (whose samples must be readable)
+// to out; ExportEDF's identification check is the caller's job.
+func ExportEDFTrial(rec *record.Recording, t *record.Trial, out string, opt EDFExportOptions) (*EDFFileReport, error) {
+	return exportTrial(rec, t, out, opt)
+}
+
 // planned is one signal to write.
 type planned struct {
 	sig    edfplus.Signal

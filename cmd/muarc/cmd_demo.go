@@ -105,6 +105,8 @@ func demoWhat(name string) string {
 		return "de-identified copies, the ones to share"
 	case "deposit":
 		return "a BagIt deposit of the de-identified study, verified"
+	case "bids":
+		return "the de-identified study as a BIDS 1.11.0 EMG dataset (BDF+ with sidecars)"
 	case "report.html":
 		return "the study report (open in a browser)"
 	case "demo-study.key":

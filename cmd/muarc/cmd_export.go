@@ -14,6 +14,7 @@ import (
 func init() {
 	var (
 		what, shape, format, out, timeBase string
+		bidsDir                            string
 		overwrite, asJSON, allowIdent      bool
 	)
 	cmd := &cobra.Command{
@@ -34,9 +35,18 @@ indices (or, with --time-base s, seconds that round back to the same samples). E
 
 writes DIR/<trial>.bdf (BDF+, 24-bit) or .edf (EDF+, 16-bit): arrays and force as signals,
 discharges as annotations "discharge ARRAY/DECOMPOSITION unit ID", the EDF+ patient field
-from the pseudonym ("X" for unknowns). Only de-identified recordings unless --allow-identified.`,
+from the pseudonym ("X" for unknowns). Only de-identified recordings unless --allow-identified.
+
+  muarc export STUDY_DIR --bids OUT_DIR [--allow-identified]
+
+writes the muarc files of STUDY_DIR as a BIDS 1.11.0 dataset of the EMG datatype (one
+*_emg.bdf per trial with its sidecars, events for the trapezoid phases, decompositions under
+derivatives/muarc/) and says which required sidecar values it had to leave "n/a".`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if bidsDir != "" { // cmd_export_bids.go
+				return exportBIDS(cmd.OutOrStdout(), cmd.ErrOrStderr(), args[0], bidsDir, allowIdent, overwrite, asJSON)
+			}
 			if format == "bdf" || format == "edf" { // cmd_export_edf.go
 				return exportEDF(cmd.OutOrStdout(), cmd.ErrOrStderr(), args[0], out, format, allowIdent, overwrite, asJSON)
 			}
@@ -59,7 +69,8 @@ from the pseudonym ("X" for unknowns). Only de-identified recordings unless --al
 	f.StringVar(&shape, "shape", "long", "discharge shape: long (unit, sample), columns, lines or matrix")
 	f.StringVar(&timeBase, "time-base", "samples", "discharge times: samples (0-based indices, exact) or s (seconds)")
 	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata); bdf or edf for one BDF+ (24-bit) or EDF+ (16-bit) file per trial")
-	f.BoolVar(&allowIdent, "allow-identified", false, "with --format bdf|edf: write a recording that still carries identifying fields")
+	f.BoolVar(&allowIdent, "allow-identified", false, "with --format bdf|edf or --bids: write recordings that still carry identifying fields")
+	f.StringVar(&bidsDir, "bids", "", "write the study folder FILE (muarc files) as a BIDS 1.11.0 EMG dataset in this folder")
 	f.StringVarP(&out, "output", "o", "", "output folder")
 	f.BoolVar(&overwrite, "overwrite", false, "replace existing files")
 	f.BoolVar(&asJSON, "json", false, "list the files written as JSON")
