@@ -38,8 +38,12 @@ func TestDemoEndToEnd(t *testing.T) {
 		}
 		names = append(names, st["step"].(string))
 	}
-	if got := strings.Join(names, ","); got != "generate,import,table,stats,validate,deidentify,report,pack" {
+	if got := strings.Join(names, ","); got != "generate,import,table,stats,validate,deidentify,report,pack,bids" {
 		t.Fatalf("demo steps %s", got)
+	}
+	// The BIDS-EMG form: one *_emg.bdf per trial (3 subjects x 3 levels).
+	if bdfs, _ := filepath.Glob(filepath.Join(out, "bids", "sub-*", "ses-*", "emg", "*_emg.bdf")); len(bdfs) != 9 {
+		t.Fatalf("%d _emg.bdf files in the BIDS dataset, want 9", len(bdfs))
 	}
 	dep := filepath.Join(out, "deposit")
 	if b, err := runIn(dep, sha, "-c", "--quiet", "manifest-sha256.txt"); err != nil {
