@@ -55,8 +55,13 @@ type Discharges struct {
 	File string
 	// Reading says in words how the file was read; Labels whether it
 	// holds unit labels.
-	Reading     string
-	Labels      bool
+	Reading string
+	Labels  bool
+	// Delimiter, DecimalComma and Header are the dialect the file was
+	// read with.
+	Delimiter    byte
+	DecimalComma bool
+	Header       bool
 	Shape       string
 	ShapeWhy    string
 	TimeBase    string

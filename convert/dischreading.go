@@ -438,8 +438,12 @@ func place(s *structure, r reading, g Grid, tol float64) ([]UnitTrain, *rfail, *
 	if soft == nil {
 		soft = unsorted
 	}
-	if soft == nil && len(out) >= 3 && total == len(out) {
-		soft = &rfail{soft: true, line: s.units[0].line, msg: fmt.Sprintf("each of the %d units would have a single discharge", len(out))}
+	most := 0
+	for _, u := range out {
+		most = max(most, len(u.Discharges))
+	}
+	if soft == nil && len(out) >= 3 && most <= 1 {
+		soft = &rfail{soft: true, line: s.units[0].line, msg: fmt.Sprintf("none of the %d units would have more than one discharge", len(out))}
 	}
 	return out, nil, soft, offGrid, worst
 }

@@ -340,7 +340,8 @@ func timeReadings(c reading, s *structure, opt DischargeOptions) []reading {
 func accept(t *dischText, c *result, all []result, multi bool, opt DischargeOptions, tol float64) *Discharges {
 	r := c.r
 	dc := &Discharges{File: t.path, Reading: r.describe(), Shape: r.shape, TimeBase: r.base, Labels: r.labels,
-		FirstIndex: r.first, Units: c.units, OffGrid: c.offGrid, WorstOffGrid: c.worst}
+		FirstIndex: r.first, Units: c.units, OffGrid: c.offGrid, WorstOffGrid: c.worst,
+		Delimiter: r.delim, DecimalComma: r.comma, Header: r.header}
 	why := "as given"
 	if multi {
 		n := 0

@@ -117,24 +117,48 @@ func FuzzReadDischarges(f *testing.F) {
 		"unit,sample (1-based)\n1,1\n1,1000\n",
 		"unit,time [ms]\n3,999.9\n",
 		"",
+		"MU1: 0.1 0.2 0.3\nMU 2: 0.15 0.25\n",
+		"MU13;0,0107;0,0212\nMU14;0,0301\n",
+		"\xef\xbb\xbf# comment\r\nsampling rate: 1000 Hz\r\n\"MU 1, left\"\t\"MU \"\"2\"\"\"\r\n0.1\t0.2\r\n\t0.3\r\n",
+		"MU20 (ms)\n1.5\n4\n100.5\n",
+		"unit,t1 (ms),t2 (ms)\n1,100,250\n2,120\n",
+		"0.1 0.2 0.3\n0.15 0.25\n",
+		"1,0.512\n1,0.633\n2,0.301\n",
+		"a,b\n\"\n",
 	} {
 		f.Add(s)
 	}
 	dir := f.TempDir()
 	f.Fuzz(func(t *testing.T, text string) {
 		g := Grid{RateHz: 1000, Samples: 1000}
-		dc, err := ReadDischarges(fuzzFile(dir, text), g, DischargeOptions{FirstIndex: -1})
+		path := fuzzFile(dir, text)
+		dc, err := ReadDischarges(path, g, DischargeOptions{FirstIndex: -1})
 		if err != nil {
 			if AsParseError(err) == nil {
 				t.Fatalf("not a ParseError: %v", err)
 			}
 			return
 		}
+		// The reading detection chose, given as options, stores the same.
+		opt := DischargeOptions{TextOptions: TextOptions{Delimiter: dc.Delimiter, DecimalComma: yesNo(dc.DecimalComma), Header: yesNo(dc.Header)},
+			Shape: dc.Shape, TimeBase: dc.TimeBase, FirstIndex: dc.FirstIndex}
+		if dc.Shape == ShapeLines {
+			opt.Labels = yesNo(dc.Labels)
+		}
+		again, err := ReadDischarges(path, g, opt)
+		if err != nil || !sameUnits(again.Units, dc.Units) {
+			t.Fatalf("given the detected reading (%s): %v", dc.Reading, err)
+		}
 		seen := map[int64]bool{}
-		for _, u := range dc.Units {
-			if seen[u.ID] {
-				t.Fatalf("unit %d twice", u.ID)
+		labels := map[string]bool{}
+		for i, u := range dc.Units {
+			if seen[u.ID] || u.ID != int64(i+1) {
+				t.Fatalf("unit %d at %d", u.ID, i)
 			}
+			if u.Label != "" && labels[u.Label] {
+				t.Fatalf("label %q twice", u.Label)
+			}
+			labels[u.Label] = true
 			seen[u.ID] = true
 			for i, k := range u.Discharges {
 				if k < 0 || k >= int64(g.Samples) || i > 0 && k < u.Discharges[i-1] {

@@ -9,3 +9,7 @@ grep -rl --include='*_test.go' '^func Fuzz' . | while read -r f; do
 		go test -run XXX -fuzz "^${name}\$" -fuzztime "$t" "$pkg"
 	done
 done
+# The discharge oracle (convert/oracle_test.go) on a larger corpus and a
+# seed of its own each run: muarc must store the truth or refuse.
+echo "== ./convert TestDischargeOracle (20000 cases)"
+MUARC_ORACLE_CASES=20000 MUARC_ORACLE_SEED=$(date +%s) CI=true go test -count=1 -run '^TestDischargeOracle$' ./convert
