@@ -62,10 +62,10 @@ type Discharges struct {
 	Delimiter    byte
 	DecimalComma bool
 	Header       bool
-	Shape       string
-	ShapeWhy    string
-	TimeBase    string
-	TimeBaseWhy string
+	Shape        string
+	ShapeWhy     string
+	TimeBase     string
+	TimeBaseWhy  string
 	// FirstIndex is the sample numbering of the file (0 or 1) for sample
 	// indices; IndexWhy says how it was decided.
 	FirstIndex int
