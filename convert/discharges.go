@@ -18,9 +18,9 @@ type DischargeOptions struct {
 	// Shape is "" (detect) or one of ShapeColumns, ShapeLong, ShapeLines,
 	// ShapeMatrix.
 	Shape string
-	// Labels is "" (detect), "yes" or "no": whether each line of a lines
-	// file starts with the unit's label (for columns and matrix files the
-	// labels are the header, see TextOptions.Header).
+	// Labels is "" (detect), "yes" or "no": whether the file names its
+	// units (each line of a lines file starts with the unit's label; a
+	// header of labels over columns or a matrix; a long table always does).
 	Labels string
 	// TimeBase is "" (detect), "s", "ms" or "samples".
 	TimeBase string

@@ -16,6 +16,9 @@ type ParseError struct {
 	Hint string `json:"hint,omitempty"`
 	// Example is the text of the line the error is about, as in the file.
 	Example string `json:"example,omitempty"`
+	// Choices are the options that pick each reading of an ambiguous file
+	// (as command-line flags), when the error is that ambiguity.
+	Choices []string `json:"choices,omitempty"`
 }
 
 func (e *ParseError) Error() string {

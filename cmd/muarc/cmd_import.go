@@ -44,9 +44,13 @@ or a whole study, one recording per folder, in parallel:
 
   muarc import --profile P SOURCE_DIR -o OUT_DIR
 
-Delimiters, headers, units, time columns, decimal commas, discharge shapes and
-time bases are detected; the report says what was found, what was assumed and
-why. EMG samples are stored as float32 only when every value reads back at the
+Delimiters, headers, units, time columns and decimal commas are detected; the
+report says what was found and why. A discharge file (one line per unit,
+"MU1: t1 t2 ...", one column per unit, a unit,time table or a 0/1 matrix) is
+read the way that fits; when two readings fit and would store different values
+(labels or times, s, ms or samples, 0- or 1-based, ...) nothing is written and
+the message names the readings and the flags (--shape, --labels, --time-base,
+--first-index, --discharge-*) that pick each. Unit labels are kept as written. EMG samples are stored as float32 only when every value reads back at the
 digits written, else float64 (--dtype forces one and the report gives the
 largest error that causes). Nothing is written when an input is bad; inputs
 are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which
@@ -79,7 +83,7 @@ file is which and how to read it.`,
 	f.StringVar(&fl.timeColumn, "time-column", "", "signal files: auto, none, first or a column label")
 	f.StringVar(&fl.timeUnit, "time-unit", "", "signal files: unit of the time column, s, ms or samples")
 	f.StringVar(&fl.shape, "shape", "", "discharge files: long, columns, lines or matrix (default: detect when only one reading fits)")
-	f.StringVar(&fl.labels, "labels", "", "discharge files in lines: yes when each line starts with the unit's label, no when it holds only times")
+	f.StringVar(&fl.labels, "labels", "", "discharge files: yes when the file names its units (each line starts with the unit's label, or a header of labels over columns), no when it holds only times (default: detect)")
 	f.StringVar(&fl.timeBase, "time-base", "", "discharge files: s, ms or samples (default: detect when only one fits)")
 	f.IntVar(&fl.firstIndex, "first-index", -1, "discharge files in samples: 0 or 1 for 0- or 1-based (default: 0 when an index 0 occurs)")
 	f.StringVar(&fl.disDelimiter, "discharge-delimiter", "", "discharge files: comma, semicolon, tab or whitespace (default: detect)")
