@@ -41,21 +41,42 @@ func summarize(path, rel string) (*RecordingSummary, error) {
 // its identifying fields still set. A file that could not be read in
 // validation (a crash of the HDF5 library included) is not opened here.
 func checkRecording(path string) (nerr int, first []string, identifying []string, err error) {
+	nerr, first, _, identifying, err = checkRecordingDamage(path)
+	return nerr, first, identifying, err
+}
+
+// checkRecordingDamage is checkRecording that also lists the integrity
+// damage validation found ("check at path" per finding; none when the file
+// could not be read at all, which is never accepted).
+func checkRecordingDamage(path string) (nerr int, first, damage, identifying []string, err error) {
 	rep := validate.Validator(path, validate.DefaultOptions())
 	nerr, first = reportErrors(rep)
 	if rep.ReadError != "" {
-		return nerr, first, nil, nil
+		return nerr, first, nil, nil, nil
 	}
+	for _, f := range rep.Damage() {
+		damage = append(damage, f.Check+" at "+f.HDF5Path)
+	}
+	identifying, err = identifyingFields(path, nerr)
+	if err != nil {
+		return 0, nil, nil, nil, err
+	}
+	return nerr, first, damage, identifying, nil
+}
+
+// identifyingFields opens a validated recording and lists its identifying
+// fields still set.
+func identifyingFields(path string, nerr int) ([]string, error) {
 	f, err := recfile.Open(path)
 	if err != nil {
 		if nerr > 0 {
 			// Validation already said why; the refusal carries it.
-			return nerr, first, nil, nil
+			return nil, nil
 		}
-		return 0, nil, nil, err
+		return nil, err
 	}
 	defer f.Close()
-	return nerr, first, deid.IdentifyingFields(f.Recording()), nil
+	return deid.IdentifyingFields(f.Recording()), nil
 }
 
 // validateFile validates a recording without the checksum scan (the

@@ -42,6 +42,11 @@ type PackOptions struct {
 	// AllowIdentified packs recordings that still carry identifying fields
 	// and marks the bag so in bag-info.txt (Identifying-Data).
 	AllowIdentified bool
+	// AcceptDamaged packs recordings whose only validation errors are
+	// integrity damage (chunk checksums, structure, metadata digest), as
+	// they are, and names them in bag-info.txt (Accepted-Damage). A
+	// recording that cannot be read at all is refused regardless.
+	AcceptDamaged bool
 	// Workers is the number of files checked and hashed at once (0: one per
 	// CPU).
 	Workers int
@@ -380,13 +385,14 @@ func (p *packer) oneWith(rel string, useKnown bool) (FileRecord, *RecordingSumma
 	}
 	if fromCache || fromKnown {
 		fr.SHA256, fr.SHA512, fr.ValidationErrors, fr.Identifying, fr.Message = facts.SHA256, facts.SHA512, facts.ValidationErrors, facts.Identifying, facts.Message
+		fr.Damage = facts.Damage
 	} else {
-		n, first, ident, err := checkRecording(path)
+		n, first, damage, ident, err := checkRecordingDamage(path)
 		if err != nil {
 			fr.Status, fr.Message = StatusError, err.Error()
 			return fr, nil
 		}
-		fr.ValidationErrors, fr.Identifying = n, ident
+		fr.ValidationErrors, fr.Identifying, fr.Damage = n, ident, damage
 		if n > 0 {
 			fr.Message = "fails validation: " + strings.Join(first, "; ")
 		}
@@ -491,8 +497,11 @@ func (p *packer) count(hashed bool, n int64) {
 // decide sets the status from the facts and the options.
 func (p *packer) decide(fr *FileRecord) {
 	switch {
-	case fr.ValidationErrors > 0:
+	case fr.ValidationErrors > 0 && !p.acceptedDamage(fr):
 		fr.Status = StatusRefused
+		if len(fr.Damage) > 0 && len(fr.Damage) == fr.ValidationErrors && !strings.Contains(fr.Message, "--accept-damaged") {
+			fr.Message += " (the file is damaged: restore it from a copy, or give --accept-damaged to pack it as it is, named in bag-info.txt)"
+		}
 	case len(fr.Identifying) > 0 && !p.opt.AllowIdentified:
 		fr.Status = StatusRefused
 		fr.Message = "still carries identifying fields: " + strings.Join(fr.Identifying, ", ") +
@@ -501,6 +510,9 @@ func (p *packer) decide(fr *FileRecord) {
 		fr.Status = StatusOK
 		if len(fr.Identifying) == 0 {
 			fr.Message = ""
+		}
+		if p.acceptedDamage(fr) {
+			fr.Message = "fails its integrity checks, packed as it is (--accept-damaged): " + strings.Join(fr.Damage, "; ")
 		}
 	}
 }

@@ -34,6 +34,7 @@ func (p *packer) info(octets, files int64) []byte {
 		bagit.Field{Label: "Bag-Size", Value: humanBytes(octets)},
 		bagit.Field{Label: "Licence-SPDX", Value: p.res.Licence},
 	)
+	f = append(f, acceptedDamageFields(p.res.Files)...)
 	if p.opt.AllowIdentified {
 		v := "not checked: packed with --allow-identified; no recording was found to carry identifying fields, but the bag is not for public deposit"
 		if len(p.identified) > 0 {

@@ -49,6 +49,9 @@ type FileRecord struct {
 	Identifying      []string `json:"identifying,omitempty"`
 	// Message explains a refusal or error.
 	Message string `json:"message,omitempty"`
+	// Damage lists the integrity findings of validation ("check at path"):
+	// chunk checksums, structure, metadata digest.
+	Damage []string `json:"damage,omitempty"`
 }
 
 // ShardReport is the JSON document a sharded run (`muarc pack --shard i/n`)

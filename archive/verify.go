@@ -9,6 +9,7 @@ import (
 	"muarc/archive/bagit"
 	"muarc/h5"
 	"muarc/internal/batch"
+	"muarc/validate"
 )
 
 // Finding kinds of a deposit check beyond the bag's own (bagit.Kind*).
@@ -96,6 +97,13 @@ func VerifyDeposit(dir string, opt VerifyOptions) (*DepositReport, error) {
 	batch.Run(len(recs), opt.Workers, func(i int) error {
 		rel := recs[i]
 		full := filepath.Join(dir, filepath.FromSlash(rel))
+		// Read once in a worker first when the program screens files
+		// (validate.Screener): a recording that crashes the HDF5 library
+		// is then a finding, not the end of verify.
+		if err := validate.ScreenFirst(full, true); err != nil {
+			found[i] = append(found[i], Finding{Kind: KindRecordRead, File: rel, Message: err.Error()})
+			return nil
+		}
 		n, err := h5.VerifyChunks(full, func(c h5.ChunkFault) {
 			msg := "Fletcher-32 checksum fails: the stored bytes changed (bit rot or an edit)"
 			if c.Err != nil {

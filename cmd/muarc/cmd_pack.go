@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -14,11 +15,11 @@ import (
 
 func init() {
 	var (
-		out, licence, shard               string
-		known                             []string
-		tarOut, allowIdent, asJSON, overw bool
-		sha512                            bool
-		workers                           int
+		out, licence, shard                              string
+		known                                            []string
+		tarOut, allowIdent, acceptDamaged, asJSON, overw bool
+		sha512                                           bool
+		workers                                          int
 	)
 	cmd := &cobra.Command{
 		Use:   "pack DIR -o DEPOSIT",
@@ -38,6 +39,11 @@ are listed (exit 1). --allow-identified packs them anyway and marks the bag
 (bag-info.txt: Identifying-Data) - for closed, non-public use only. muarc helps
 de-identify; it does not certify: the ethics board, the consent given and local
 data-protection law decide what may be shared.
+
+A recording whose bytes are damaged (a chunk checksum, the HDF5 structure or
+the metadata digest fails) is refused with what failed; --accept-damaged packs
+one whose only errors are such damage as it is, with an Accepted-Damage line
+per file in bag-info.txt. A file that cannot be read at all is always refused.
 
 The bag is built in .DEPOSIT.partial beside DEPOSIT and renamed into place when
 complete. An interrupted run, started again with the same arguments, continues:
@@ -68,7 +74,7 @@ the report's is checked again).`,
 			if sh.N > 1 && tarOut {
 				return withExit(2, fmt.Errorf("--shard writes a shard report, not a bag; leave out --tar"))
 			}
-			opt := archive.PackOptions{Licence: licence, AllowIdentified: allowIdent, Workers: workers,
+			opt := archive.PackOptions{Licence: licence, AllowIdentified: allowIdent, AcceptDamaged: acceptDamaged, Workers: workers,
 				Shard: sh, Tar: tarOut, Overwrite: overw, SHA512: sha512}
 			for _, k := range known {
 				r, err := archive.ReadShardReport(k)
@@ -130,6 +136,7 @@ the report's is checked again).`,
 	f.BoolVar(&tarOut, "tar", false, "write the bag as one POSIX tar")
 	f.StringVar(&licence, "licence", "", "SPDX licence of the deposit (default: the recordings' study licence)")
 	f.BoolVar(&allowIdent, "allow-identified", false, "pack recordings that still carry identifying fields, and mark the bag so")
+	f.BoolVar(&acceptDamaged, "accept-damaged", false, "pack recordings whose only errors are integrity damage (chunk checksums, structure, metadata digest) as they are, named in bag-info.txt")
 	f.IntVar(&workers, "workers", 0, "files checked and hashed at once (0: one per CPU)")
 	f.StringVar(&shard, "shard", "", "check and hash only shard i/n (e.g. 3/8) and write a shard report")
 	f.StringArrayVar(&known, "known", nil, "merged shard report whose hashes and checks to reuse (repeatable)")
@@ -163,6 +170,11 @@ func printPack(w io.Writer, res *archive.PackResult, sh batch.Shard) {
 			res.Output, res.PayloadFiles, res.PayloadBytes, res.Hashed, mb, res.HashSeconds, res.Reused, res.Licence)
 		if res.Identified {
 			fmt.Fprintln(w, "marked in bag-info.txt as carrying identifying data (--allow-identified): not for public deposit")
+		}
+		for _, f := range res.Files {
+			if f.Status == archive.StatusOK && len(f.Damage) > 0 {
+				fmt.Fprintf(w, "packed although damaged (--accept-damaged), named in bag-info.txt: %s: %s\n", f.Path, strings.Join(f.Damage, "; "))
+			}
 		}
 	}
 }

@@ -590,3 +590,31 @@ func TestDeidentifyRefusesDamagedSource(t *testing.T) {
 		t.Fatalf("the output does not validate: exit %d", code)
 	}
 }
+
+// TestPackRefusesDamagedRecording: pack refuses a recording whose strings
+// changed, naming the check; --accept-damaged packs it and bag-info.txt
+// says so.
+func TestPackRefusesDamagedRecording(t *testing.T) {
+	bad := heapValueChange(t, smallFile(t))
+	dir := t.TempDir()
+	in := filepath.Join(dir, "study")
+	os.MkdirAll(in, 0o755)
+	b, _ := os.ReadFile(bad)
+	os.WriteFile(filepath.Join(in, "rec.h5"), b, 0o644)
+	dep := filepath.Join(dir, "deposit")
+	stdout, stderr, code := runMuarc(t, dir, "pack", in, "-o", dep, "--allow-identified")
+	if code != 1 || !strings.Contains(stdout+stderr, "integrity.metadata_digest") || !strings.Contains(stdout+stderr, "--accept-damaged") {
+		t.Fatalf("pack of a damaged recording: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	if _, err := os.Stat(dep); err == nil {
+		t.Fatal("a deposit was written")
+	}
+	stdout, stderr, code = runMuarc(t, dir, "pack", in, "-o", dep, "--allow-identified", "--accept-damaged")
+	if code != 0 {
+		t.Fatalf("pack --accept-damaged: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	info, _ := os.ReadFile(filepath.Join(dep, "bag-info.txt"))
+	if !strings.Contains(string(info), "Accepted-Damage: rec.h5 fails its integrity checks") || !strings.Contains(string(info), "integrity.metadata_digest") {
+		t.Fatalf("bag-info.txt does not name the damage:\n%s", info)
+	}
+}
