@@ -35,8 +35,10 @@ func Method() map[string]any {
 
 // UnitStats are the derived figures of one motor unit. NaN is unknown.
 type UnitStats struct {
-	ID         int64 `json:"id"`
-	Discharges int   `json:"discharge_count"`
+	ID int64 `json:"id"`
+	// Label is the unit's label as the lab wrote it ("" when none).
+	Label      string `json:"label,omitempty"`
+	Discharges int    `json:"discharge_count"`
 	// FirstS and LastS are the times of the first and last discharge, s
 	// from the trial start.
 	FirstS float64 `json:"first_discharge_s"`
@@ -147,7 +149,7 @@ func Decomposition(tr *record.Trial, arr *record.Array, dec *record.Decompositio
 // could not be taken because a discharge lies outside the force trace.
 func unitStats(tr *record.Trial, arr *record.Array, u record.Unit, sc ForceScale, pl Plateau, havePl bool) (UnitStats, bool) {
 	nan := math.NaN()
-	us := UnitStats{ID: u.ID, Discharges: len(u.Discharges), FirstS: nan, LastS: nan,
+	us := UnitStats{ID: u.ID, Label: u.Label, Discharges: len(u.Discharges), FirstS: nan, LastS: nan,
 		RecruitPctMVC: nan, DerecruitPctMVC: nan, RecruitForce: nan, DerecruitForce: nan,
 		InitialRatePPS: nan, PlateauRatePPS: nan, PlateauISICoV: nan}
 	if len(u.Discharges) == 0 || !(arr.SamplingRateHz > 0) {

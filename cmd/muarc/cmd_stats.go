@@ -115,7 +115,11 @@ func printStatsText(w io.Writer, r *analysis.FileStats) error {
 			if d.MUAPs != nil && i < len(d.MUAPs.Units) {
 				p2p = num(d.MUAPs.Units[i].MaxPeakToPeak, 1)
 			}
-			fmt.Fprintf(tw, "%d\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%s\t\n", u.ID, u.Discharges, num(u.RecruitPctMVC, 2), num(u.RecruitForce, 2),
+			name := u.Label // the lab's label; muarc's id when there is none
+			if name == "" {
+				name = strconv.FormatInt(u.ID, 10)
+			}
+			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%s\t\n", name, u.Discharges, num(u.RecruitPctMVC, 2), num(u.RecruitForce, 2),
 				num(u.DerecruitPctMVC, 2), num(u.InitialRatePPS, 2), num(u.PlateauRatePPS, 2), num(u.PlateauISICoV, 3), u.PlateauISIs, p2p)
 		}
 		tw.Flush()
