@@ -28,14 +28,26 @@ changed. A policy (YAML or JSON; --print-policy shows the built-in one, which
 follows the HIPAA Safe Harbor list of 18 identifier kinds, 45 CFR
 164.514(b)(2)) says per metadata field: keep, drop, pseudonymize, generalize,
 shift, year or scrub. Fields the policy does not name are dropped and listed.
+The built-in policy also drops the text columns of unit tables and replaces
+channel labels that are not plain electrode codes (e12, ch3, r2c5) by their
+grid position.
 
 Pseudonyms are HMAC-SHA-256 of the original ids under the study key (muarc key
 new KEYFILE); dates move by a per-subject offset of whole days, the same in
 all of that subject's files. Outputs are named by pseudonyms. Signals,
 discharges and unit figures are carried bit-exact (compared by SHA-256 after
-writing). Before an output is published its raw bytes and decoded metadata
-are searched for every original identifying value (UTF-8, UTF-16LE/BE, dates
-in their common spellings); a file that fails is not written.
+writing).
+
+Every string an output will hold (attributes, labels, columns, group names,
+provenance) is searched for the original identifying values before anything
+is written, and the written bytes again before the file is published: names,
+ids, contact details, dates in their common spellings, the words of dropped
+free text, also inside longer tokens (Hallbeck01), in UTF-8 and UTF-16. Words
+of the layout and of English (a subject called Hand or Mass) are not searched
+on their own. A file that fails is not written; the report names each field,
+where it sits in the file, and the policy line that fixes it. --dry-run runs
+the same checks and writes nothing. The key, the policy and the --linkage
+folder are checked before anything is written.
 
 Every source is validated first (chunk checksums, structure, the metadata
 digest): a damaged source is refused with what is damaged, since a copy
@@ -43,13 +55,13 @@ would carry the damage under a new, clean checksum. --accept-damaged
 de-identifies it as read and records that in the output's history.
 
 --check FILE checks a file meant for sharing (with --original, against the
-file it was made from). The report ends with a k-anonymity table over the
-quasi-identifiers kept.
+file it was made from; --needle adds values to search for). A run's report
+ends with a k-anonymity table over the quasi-identifiers kept.
 
 muarc helps de-identify; it does not certify. The ethics board, the consent
 given and local data-protection law decide what may be shared. A face
 photograph, a voice recording or a rare diagnosis in any attachment can
-identify a person too.
+identify a person too. deid/POLICY.md explains every rule.
 
 Exit status: 0 all written (or check clean), 1 a file failed or the check
 found something, 2 bad usage or an input could not be read.`,
@@ -83,7 +95,7 @@ func init() {
 	f.StringVar(&deidFlags.shard, "shard", "", "do only shard `i/n` of the sorted file list (cluster job arrays)")
 	f.StringVar(&deidFlags.shardReport, "shard-report", "", "also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.BoolVar(&deidFlags.json, "json", false, "print the report as JSON")
-	f.BoolVar(&deidFlags.dryRun, "dry-run", false, "print the plan (every field and what the policy does to it) and write nothing")
+	f.BoolVar(&deidFlags.dryRun, "dry-run", false, "run every check and print the plan (every field and what the policy does to it), writing nothing")
 	f.StringVar(&deidFlags.linkage, "linkage", "", "also write a private linkage `FILE` (original id -> pseudonym), mode 0600, outside the output folder")
 	f.IntVar(&deidFlags.k, "k", 0, "group size for the k-anonymity report (default: the policy's k, 5 in the built-in policy)")
 	f.BoolVar(&deidFlags.overwrite, "overwrite", false, "replace existing output files")

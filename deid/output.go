@@ -1,0 +1,137 @@
+package deid
+
+import (
+	"fmt"
+	"muarc/internal/atomicfile"
+	"muarc/recfile"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+)
+
+// Writing one output and checking it before it is published.
+
+// doFile de-identifies one input.
+func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOptions) (FileOutcome, error) {
+	fo := FileOutcome{Output: j.out}
+	if j.preError != nil {
+		return fo, j.preError
+	}
+	f, err := recfile.Open(j.in)
+	if err != nil {
+		return fo, err
+	}
+	defer f.Close()
+	rec := f.Recording()
+	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now, AcceptedDamage: j.damage})
+	if err != nil {
+		return fo, err
+	}
+	fo.Subject, fo.Session = res.Subject, res.Session
+	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
+	fo.quasi, fo.pseud = res.Quasi, ps.Subject(j.subj)
+	if len(j.damage) > 0 {
+		fo.Notes = append(fo.Notes, fmt.Sprintf("the source fails its integrity checks (%s); de-identified as read because damage was accepted, and recorded in the output's history", damageCounts(j.damage)))
+	}
+	final := filepath.Join(outDir, j.out)
+	if err := atomicfile.CheckTarget(final, opt.Overwrite); err != nil {
+		return fo, err // a dry run says so too
+	}
+	if pol.SHA256() == Default().SHA256() {
+		if still := IdentifyingFields(res.Recording); len(still) > 0 {
+			return fo, fmt.Errorf("the output would still hold identifying fields %s; it was not written", strings.Join(still, ", "))
+		}
+	}
+	if opt.DryRun {
+		return fo, nil
+	}
+	t, err := atomicfile.Create(final, opt.Overwrite)
+	if err != nil {
+		return fo, err
+	}
+	// Hash the input's samples as the writer streams them (it reads each
+	// array once, in order), so the input need not be read twice. The
+	// output stays mode 0600 under its temporary name until it has passed
+	// the scan.
+	hashed := wrapSamples(res.Recording)
+	if err := recfile.WriteInto(t.Path, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
+		return fo, t.Abandon(fmt.Errorf("%s: %w", final, err))
+	}
+	known := map[string]string{}
+	for path, hs := range hashed {
+		hs.rec.Samples = hs.src // unwrap
+		if d, ok := hs.sum(); ok {
+			known[path] = d
+		}
+	}
+	scan, n, err := verifyOutput(t.Path, res, pol, known)
+	fo.Scan, fo.DataChecked = scan, n
+	if err != nil {
+		return fo, t.Abandon(err)
+	}
+	return fo, t.Publish()
+}
+
+// verifyOutput scans a written output for the original identifying values
+// (raw bytes and decoded metadata), asks IdentifyingFields about it under the
+// default policy, and compares every dataset's values with the input's.
+func verifyOutput(path string, res *Result, pol *Policy, known map[string]string) (*ScanSummary, int, error) {
+	needles := res.Needles()
+	sum := &ScanSummary{Values: len(needles), Unscannable: res.Unscannable, Leaks: []string{}}
+	if fi, err := os.Stat(path); err == nil {
+		sum.Bytes = fi.Size()
+	}
+	leaks, err := ScanBytes(path, needles)
+	if err != nil {
+		return sum, 0, err
+	}
+	for _, l := range leaks {
+		sum.Leaks = append(sum.Leaks, l.String())
+	}
+	view, err := recfile.MetadataView(path)
+	if err != nil {
+		return sum, 0, fmt.Errorf("reading the output back: %w", err)
+	}
+	for _, h := range scanText(viewText(view), needles) {
+		sum.Leaks = append(sum.Leaks, maskValue(h)+" found in the decoded metadata")
+	}
+	f, err := recfile.Open(path)
+	if err != nil {
+		return sum, 0, fmt.Errorf("reading the output back: %w", err)
+	}
+	defer f.Close()
+	out := f.Recording()
+	sum.Findings = checkStrings(out, needles)
+	sum.StillIdentifying = IdentifyingFields(out)
+	if len(sum.Leaks) > 0 || len(sum.Findings) > 0 {
+		return sum, 0, &OutputError{Findings: sum.Findings, Leaks: sum.Leaks}
+	}
+	if pol.SHA256() == Default().SHA256() && len(sum.StillIdentifying) > 0 {
+		return sum, 0, fmt.Errorf("the output still holds identifying fields %s; it was not written", strings.Join(sum.StillIdentifying, ", "))
+	}
+	want, err := dataDigests(res.Recording, known)
+	if err != nil {
+		return sum, 0, fmt.Errorf("checksums of the input's data: %w", err)
+	}
+	got, err := DataDigests(out)
+	if err != nil {
+		return sum, 0, fmt.Errorf("checksums of the output's data: %w", err)
+	}
+	var diff []string
+	for k, v := range want {
+		if got[k] != v {
+			diff = append(diff, k)
+		}
+	}
+	for k := range got {
+		if _, ok := want[k]; !ok {
+			diff = append(diff, k+" (not in the input)")
+		}
+	}
+	if len(diff) > 0 {
+		sort.Strings(diff)
+		return sum, 0, fmt.Errorf("data changed in writing: %s; the output was not written", strings.Join(diff, ", "))
+	}
+	return sum, len(want), nil
+}
