@@ -82,7 +82,7 @@ func (a *applier) decomposition(p string, in *record.Decomposition) record.Decom
 	}
 	out.EditedByHand = in.EditedByHand // a yes/no with no "unknown": always carried
 	a.str(p+".notes", in.Notes, func(s string) { out.Notes = s })
-	out.Units = append([]record.Unit(nil), in.Units...)
+	out.Units = a.unitLabels(p, in.Units)
 	if a.present(p+".muaps", in.MUAPs != nil) {
 		out.MUAPs = in.MUAPs
 	}
@@ -293,6 +293,56 @@ func (a *applier) labels(p string, in []record.Channel) []record.Channel {
 			}
 		}
 		note = fmt.Sprintf("%d of %d label(s) not plain electrode codes; every label replaced by its grid position (r<row>c<column>, 0-based) or column (ch<index>)", odd, len(in))
+	}
+	a.note(path, act, named, note)
+	return out
+}
+
+// plainUnitLabel matches unit labels that are plain unit numbers: "MU 7",
+// "u12", "unit-3", "#4", "07", "1.5" (a number of at most four digits, an
+// optional decimal part, an optional short prefix).
+var plainUnitLabel = regexp.MustCompile(`(?i)^(?:mu|mn|u|unit|motor unit|#)?[ _\-.#]?[0-9]{1,4}(?:\.[0-9]{1,3})?$`)
+
+// IsPlainUnitLabel reports whether a unit label is a plain unit number
+// (empty counts as plain).
+func IsPlainUnitLabel(s string) bool {
+	s = strings.TrimSpace(s)
+	return s == "" || plainUnitLabel.MatchString(s)
+}
+
+// unitLabels applies the policy to a decomposition's unit labels: keep,
+// drop (every label emptied: the unit id names the unit) or generalize
+// (every label emptied when any is not a plain unit number).
+func (a *applier) unitLabels(p string, in []record.Unit) []record.Unit {
+	out := append([]record.Unit(nil), in...)
+	odd, any := 0, false
+	for _, u := range in {
+		any = any || u.Label != ""
+		if !IsPlainUnitLabel(u.Label) {
+			odd++
+		}
+	}
+	if !any {
+		return out
+	}
+	path := p + ".units[].label"
+	act, named := a.action(path)
+	note := ""
+	switch {
+	case act == Keep:
+	case act == Generalize && odd == 0:
+		act, note = Keep, "every label a plain unit number"
+	default:
+		if act != Drop && act != Generalize {
+			act = Drop
+		}
+		for i := range out {
+			if !IsPlainUnitLabel(in[i].Label) {
+				a.text = append(a.text, valueNeedles(in[i].Label, 4)...)
+			}
+			out[i].Label = ""
+		}
+		note = fmt.Sprintf("%d of %d label(s) not plain unit numbers; every label emptied (the unit id names each unit)", odd, len(in))
 	}
 	a.note(path, act, named, note)
 	return out

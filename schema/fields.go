@@ -42,7 +42,7 @@ const (
 	ClassSource  Class = "source"   // a source file name
 	ClassData    Class = "data"     // a signal or template block
 	ClassFixed   Class = "fixed"    // always carried unchanged (a yes/no without "unknown")
-	ClassLabel   Class = "label"    // a short code the layout requires (a channel label): kept, or replaced by one made from the position
+	ClassLabel   Class = "label"    // a short code a lab types (a channel or unit label): kept, or replaced when it is more than a plain code
 	ClassCarried Class = "carried"  // recorded data and their description: always carried bit-exact, not a policy field
 	ClassFile    Class = "file"     // written by muarc itself (root attributes)
 )
@@ -329,7 +329,7 @@ var Fields = []Field{
 	{Group: "decomposition", Name: "muaps", Kind: KindData, Class: ClassData, Default: ActKeep, ViewOnly: true, Since: "1.0", Meaning: "the MUAP templates (dataset)"},
 
 	{Group: "unit", Name: "id", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "unit identifier, unique within the decomposition; assigned by the writer (muarc's import numbers units 1..N in the order of the discharge file), never read out of a label"},
-	{Group: "unit", Name: "label", Kind: KindString, Storage: "string", Class: ClassCarried, Since: "1.1", Meaning: "the unit's name exactly as the lab wrote it (`MU 7`, `1.5`, `07`); empty when the source gave none"},
+	{Group: "unit", Name: "label", Kind: KindString, Storage: "string", Class: ClassLabel, Default: ActGeneralize, Since: "1.1", Meaning: "the unit's name exactly as the lab wrote it (`MU 7`, `1.5`, `07`); empty when the source gave none; the built-in policy empties the labels of a decomposition when one is not a plain unit number, so the id names each unit"},
 	{Group: "unit", Name: "discharge_count", Kind: KindInteger, Storage: "int64", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "number of discharges (equals the unit's span in `discharge_offsets`)"},
 	{Group: "unit", Name: "silhouette", Kind: KindNumber, Storage: "float64", Unit: "1", Class: ClassCarried, Since: "1.0", Meaning: "silhouette measure of the unit's source, 0..1"},
 	{Group: "unit", Name: "pnr_db", Kind: KindNumber, Storage: "float64", Unit: "dB", Class: ClassCarried, Since: "1.0", Meaning: "pulse-to-noise ratio"},

@@ -53,7 +53,7 @@ const corpusOperator = "Perpetua Aldwinckle"
 
 // corpusRecording puts p's identifiers in every string-bearing part of the
 // layout: subject, session and extra fields, free text, channel labels, a
-// free-text unit column, source names, history details, and (kept) group
+// free-text unit column, a unit label, source names, history details, and (kept) group
 // names.
 func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Recording {
 	r := *base
@@ -95,6 +95,11 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 			a.Decompositions = append([]record.Decomposition(nil), a.Decompositions...)
 			for di := range a.Decompositions {
 				d := &a.Decompositions[di]
+				d.Units = append([]record.Unit(nil), d.Units...)
+				for u := range d.Units {
+					d.Units[u].Label = fmt.Sprintf("MU %d", u+1)
+				}
+				d.Units[0].Label = "MU 1 " + p.first // a unit label with a name in it
 				d.Notes = "checked by " + corpusOperator + " with " + p.first
 				text := make([]string, len(d.Units))
 				for u := range text {
