@@ -83,6 +83,9 @@ func (rep *StudyReport) WriteText(w io.Writer, outDir string) {
 				line += fmt.Sprintf(": %d original values searched in %d bytes, no leak; %d datasets bit-exact", f.Scan.Values, f.Scan.Bytes, f.DataChecked)
 			}
 			fmt.Fprintln(w, line)
+			if f.InStudy > 0 {
+				fmt.Fprintf(w, "      not searched: %d word(s) of the site, operator or notes that the study's own metadata (kept) also holds\n", f.InStudy)
+			}
 			if f.Scan != nil && len(f.Scan.Unscannable) > 0 {
 				fmt.Fprintf(w, "      not searched, 1-2 characters long: %s\n", strings.Join(f.Scan.Unscannable, ", "))
 			}

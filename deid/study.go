@@ -64,6 +64,9 @@ type FileOutcome struct {
 	Unlisted []string       `json:"unlisted_dropped,omitempty"`
 	Scrubbed []Removal      `json:"scrubbed,omitempty"`
 	Notes    []string       `json:"notes,omitempty"`
+	// InStudy counts words of the session's site, operator and other free
+	// text not searched because the study's own kept metadata holds them.
+	InStudy int `json:"words_also_in_study_metadata,omitempty"`
 	// Scan is the leak scan of the written output.
 	Scan *ScanSummary `json:"scan,omitempty"`
 	// DataChecked is the number of datasets whose values were compared with

@@ -345,3 +345,47 @@ func TestCheckPatterns(t *testing.T) {
 		t.Errorf("needles: %+v", c)
 	}
 }
+
+// TestPreconditionsBeforeWriting: a linkage file whose folder does not exist
+// is refused before anything is written (the output folder is not even
+// made), and a dry run reports an output that already exists as the real
+// run would.
+func TestPreconditionsBeforeWriting(t *testing.T) {
+	src, _ := studyDir(t)
+	root := t.TempDir()
+	out := filepath.Join(root, "shared")
+	key, _ := KeyFromBytes(make([]byte, 32))
+	_, err := DeidentifyStudy(src, out, StudyOptions{Key: key, Linkage: filepath.Join(root, "missing", "link.json")})
+	if err == nil || !strings.Contains(err.Error(), "does not exist") {
+		t.Fatalf("linkage in a missing folder: %v", err)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Fatalf("output folder made before the linkage folder was checked: %v", err)
+	}
+	rep, err := DeidentifyStudy(src, out, StudyOptions{Key: key})
+	if err != nil || rep.Written != 2 {
+		t.Fatalf("%v %+v", err, rep)
+	}
+	dry, err := DeidentifyStudy(src, out, StudyOptions{Key: key, DryRun: true})
+	if err != nil || dry.Failed != 2 || !strings.Contains(dry.Files[0].Error, "exists") {
+		t.Fatalf("dry run over existing outputs: %v %+v", err, dry)
+	}
+}
+
+// TestScanInsideTokens: an identifier glued to digits, letters of another
+// case or underscores is found (a channel label from an EMG header); one
+// inside an ordinary word is not.
+func TestScanInsideTokens(t *testing.T) {
+	needles := []string{"Hallbeck", "5520917"}
+	for text, want := range map[string]bool{
+		"Hallbeck01": true, "S01Hallbeck": true, "AnnaHallbeck": true, "hallbeck_s01": true,
+		"MRN5520917": true, "HALLBECK": true, "Hallbecks": false, "xhallbeck": false, "155209170": false,
+	} {
+		if got := len(scanText(text, needles)) > 0; got != want {
+			t.Errorf("%q: found %v, want %v", text, got, want)
+		}
+	}
+	if ordinary("Hallbeck") || !ordinary("Hand") || !ordinary("mass") || !ordinary("edited") {
+		t.Error("ordinary words: Hand, mass and edited are; Hallbeck is not")
+	}
+}
