@@ -301,6 +301,8 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		rep.Plan = pol.Plan()
 	} else if err := os.MkdirAll(outDir, 0o755); err != nil {
 		return nil, err
+	} else {
+		atomicfile.CleanDir(outDir) // what killed runs left
 	}
 	checkSources(jobs, opt)
 	// Pre-pass: ids, pseudonyms, collisions and output names, before any write.

@@ -212,6 +212,7 @@ func importStudyDir(src, outDir string, prof *convert.Profile, dtype record.Samp
 	if err := os.MkdirAll(outDir, 0o755); err != nil {
 		return nil, err
 	}
+	atomicfile.CleanDir(outDir) // what killed runs left
 	res := make([]studyResult, len(names))
 	bar := newProgress(label, int64(len(names)))
 	batch.Run(len(names), workers, func(i int) error {

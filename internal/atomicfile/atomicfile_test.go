@@ -132,6 +132,15 @@ func TestCleanLeftovers(t *testing.T) {
 	if kept != 3 {
 		t.Fatalf("want 3 kept files listed with their rm command: %q", notes)
 	}
+	// CleanDir, for a batch writing many outputs into dir, also takes the
+	// dead writer's file of the other target.
+	notes = nil
+	if found := CleanDir(dir); len(found) != 4 {
+		t.Fatalf("CleanDir found %+v", found)
+	}
+	if _, err := os.Stat(filepath.Join(dir, fmt.Sprintf(".other.h5.tmp-%s-%d-123", thisHost, dead))); !os.IsNotExist(err) {
+		t.Fatal("CleanDir left the dead writer's file of other.h5")
+	}
 }
 
 // A full file system gives a *NoSpaceError naming the target and leaves

@@ -136,7 +136,32 @@ func bootTime() (time.Time, error) {
 // their writer may still be at work, and reported through Notice with the
 // command that removes them. It returns what it found.
 func Clean(target string) []Leftover {
-	dir, prefix := filepath.Dir(target), tempPrefix(target)
+	prefix := tempPrefix(target)
+	return clean(filepath.Dir(target), func(name string) (string, string, bool) {
+		if !strings.HasPrefix(name, prefix) {
+			return "", "", false
+		}
+		return target, name[len(prefix):], true
+	})
+}
+
+// CleanDir does what Clean does for every target in dir at once: a batch
+// that writes many outputs into dir calls it first, so temporary files of
+// outputs it will not write again (a file since refused, another shard's)
+// are dealt with too.
+func CleanDir(dir string) []Leftover {
+	return clean(dir, func(name string) (string, string, bool) {
+		i := strings.LastIndex(name, ".tmp-")
+		if !strings.HasPrefix(name, ".") || i < 1 {
+			return "", "", false
+		}
+		return filepath.Join(dir, name[1:i]), name[i+len(".tmp-"):], true
+	})
+}
+
+// clean handles the temporary files in dir that match reports: their
+// target and the owner part of their name.
+func clean(dir string, match func(name string) (target, owner string, ok bool)) []Leftover {
 	ents, err := os.ReadDir(dir)
 	if err != nil {
 		return nil
@@ -144,7 +169,8 @@ func Clean(target string) []Leftover {
 	var out []Leftover
 	for _, e := range ents {
 		name := e.Name()
-		if !strings.HasPrefix(name, prefix) || !e.Type().IsRegular() {
+		target, owner, ok := match(name)
+		if !ok || !e.Type().IsRegular() {
 			continue
 		}
 		lo := Leftover{Path: filepath.Join(dir, name)}
@@ -152,7 +178,7 @@ func Clean(target string) []Leftover {
 		if fi, err := e.Info(); err == nil {
 			lo.Bytes, mtime = fi.Size(), fi.ModTime()
 		}
-		host, pid, ok := parseOwner(name[len(prefix):])
+		host, pid, ok := parseOwner(owner)
 		lo.Host, lo.PID = host, pid
 		switch {
 		case !ok:
