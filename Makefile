@@ -64,6 +64,7 @@ bench: deps
 	sh convert/testdata/bench.sh | tee bench-out/import-vs-pandas.txt
 	sh validate/testdata/bench_validate.sh | tee bench-out/validate-vs-h5py.txt
 	bash scripts/bench-peak-rss.sh | tee bench-out/peak-rss.txt
+	bash scripts/bench-study.sh | tee bench-out/study.txt
 
 # fuzz runs each fuzz target for FUZZTIME (default 30s).
 FUZZTIME ?= 30s
