@@ -197,10 +197,11 @@ func IndexStudy(dir string, opt StudyOptions) ([]RecordingSummary, StudyInfo, er
 			toRead = append(toRead, i)
 		}
 	}
-	r := summaryReader{dir: dir, isolated: opt.Isolated}
+	writeCat := opt.Catalogue == CatalogueCreate || (opt.Catalogue == CatalogueUse && haveCat)
+	r := summaryReader{dir: dir, isolated: opt.Isolated, content: writeCat}
 	same := make([]bool, len(toCheck))
 	r.run(len(toCheck), opt.Workers, func(k int) error {
-		c, err := r.content(files[toCheck[k]])
+		c, err := r.contentCheck(files[toCheck[k]])
 		same[k] = err == nil && c == entries[toCheck[k]].Content
 		return nil
 	})
@@ -240,7 +241,7 @@ func IndexStudy(dir string, opt StudyOptions) ([]RecordingSummary, StudyInfo, er
 		keep = append(keep, e)
 	}
 	changed := info.Reused != len(keep) || len(keep) != len(old)
-	if opt.Catalogue == CatalogueCreate || (opt.Catalogue == CatalogueUse && haveCat && changed) {
+	if writeCat && (changed || opt.Catalogue == CatalogueCreate) {
 		if err := writeCatalogue(catPath, keep); err != nil {
 			info.Notes = append(info.Notes, fmt.Sprintf("the catalogue %s was not written: %v (the index itself is complete)", catPath, err))
 		} else {

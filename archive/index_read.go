@@ -20,6 +20,9 @@ const (
 type readArg struct {
 	Path string `json:"path"`
 	Rel  string `json:"rel"`
+	// Content asks for the content check too (one more open of the
+	// file; only a catalogue needs it).
+	Content bool `json:"content,omitempty"`
 }
 
 type readResult struct {
@@ -33,7 +36,7 @@ func init() {
 		if err := json.Unmarshal(raw, &a); err != nil {
 			return nil, err
 		}
-		s, c, err := summaryAndContent(a.Path, a.Rel)
+		s, c, err := summaryAndContent(a.Path, a.Rel, a.Content)
 		if err != nil {
 			return nil, err
 		}
@@ -53,6 +56,7 @@ func init() {
 type summaryReader struct {
 	dir      string
 	isolated bool
+	content  bool // summary also returns the content check
 }
 
 func (r summaryReader) path(rel string) string { return filepath.Join(r.dir, filepath.FromSlash(rel)) }
@@ -68,22 +72,22 @@ func (r summaryReader) run(n, workers int, job func(k int) error) []error {
 // summary reads one recording's summary and its content check.
 func (r summaryReader) summary(rel string) (*RecordingSummary, string, error) {
 	if !r.isolated {
-		return summaryAndContent(r.path(rel), rel)
+		return summaryAndContent(r.path(rel), rel, r.content)
 	}
 	pool, err := isolate.Default()
 	if err != nil {
 		return nil, "", err
 	}
 	var res readResult
-	if err := pool.Call(kindSummary, readArg{Path: r.path(rel), Rel: rel}, &res); err != nil {
+	if err := pool.Call(kindSummary, readArg{Path: r.path(rel), Rel: rel, Content: r.content}, &res); err != nil {
 		return nil, "", err
 	}
 	s := res.Summary.summary(rel, 0)
 	return &s, res.Content, nil
 }
 
-// content reads one recording's content check.
-func (r summaryReader) content(rel string) (string, error) {
+// contentCheck reads one recording's content check.
+func (r summaryReader) contentCheck(rel string) (string, error) {
 	if !r.isolated {
 		return contentOf(r.path(rel))
 	}
@@ -96,11 +100,15 @@ func (r summaryReader) content(rel string) (string, error) {
 	return c, err
 }
 
-// summaryAndContent reads a recording's summary and its content check.
-func summaryAndContent(path, rel string) (*RecordingSummary, string, error) {
-	c, err := contentOf(path)
-	if err != nil {
-		return nil, "", err
+// summaryAndContent reads a recording's summary and, when content, its
+// content check.
+func summaryAndContent(path, rel string, content bool) (*RecordingSummary, string, error) {
+	var c string
+	if content {
+		var err error
+		if c, err = contentOf(path); err != nil {
+			return nil, "", err
+		}
 	}
 	s, err := summarize(path, rel)
 	if err != nil {

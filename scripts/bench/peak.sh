@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # peak.sh OUT CMD...: runs CMD, writes "WALL_S PEAK_KIB" to OUT: the wall
 # time and the peak of the summed resident memory of CMD and its direct
-# children (muarc's worker processes), sampled from /proc every 50 ms.
+# children (muarc's worker processes), sampled from /proc every 50 ms, and
+# the exit status.
 out=$1; shift
 start=$(date +%s.%N)
 "$@" >/dev/null 2>"$out.err" &
