@@ -39,6 +39,7 @@ run() { # run NAME CMD... -> sets W (wall s) and M (peak MiB)
 	scripts/bench/peak.sh "$tmp/t-$1" "${@:2}"
 	read -r W K RC <"$tmp/t-$1"
 	M=$((K / 1024))
+	C=$(awk '{ printf "%.2f", $1 + $2 }' "$tmp/t-$1.cpu" 2>/dev/null || echo "?")
 	if [ "$RC" -gt 1 ]; then echo "bench: $1 exited $RC: $(tail -3 "$tmp/t-$1.err")" >&2; fi
 }
 row() { # row WORK MUARC_S BASE_S BASE_WHAT MIB
@@ -74,7 +75,7 @@ row "\`muarc index\` on $N recordings, no catalogue" "$W" "$B" "h5py root attrib
 run idxc "$muarc" index --catalogue "$L"
 row "\`muarc index --catalogue\` on $N (builds it)" "$W" "$B" "h5py root attributes" "$M"
 run idxf "$muarc" index --subject P00042 "$L"
-row "\`muarc index --subject P00042\` on $N, from the catalogue" "$W" "$B" "h5py root attributes" "$M"
+row "\`muarc index --subject P00042\` on $N, from the catalogue (CPU $C s)" "$W" "$B" "h5py root attributes" "$M"
 if [ "$BIG" -gt 0 ]; then
 	# BIG recordings: the N study's files hard-linked under BIG/N copies
 	# of its folder (distinct paths, the same contents). Its catalogue is
@@ -83,9 +84,9 @@ if [ "$BIG" -gt 0 ]; then
 	# checks every entry against its file's stamp on each run all the same.
 	"$py" scripts/bench/linkcat.py "$L/.muarc-catalogue.jsonl" "$G/.muarc-catalogue.jsonl" $(seq -f "copy%g" 1 "$copies")
 	run gidxf "$muarc" index --subject P00042 "$G"
-	row "\`muarc index --subject P00042\` on $BIG, from the catalogue" "$W" "$B" "h5py root attributes on $N" "$M"
+	row "\`muarc index --subject P00042\` on $BIG, from the catalogue (CPU $C s)" "$W" "$B" "h5py root attributes on $N" "$M"
 	run gidxm "$muarc" index --muscle soleus --level 30 --json "$G"
-	row "\`muarc index --muscle soleus --level 30 --json\` on $BIG, from the catalogue" "$W" "$B" "h5py root attributes on $N" "$M"
+	row "\`muarc index --muscle soleus --level 30 --json\` on $BIG, from the catalogue (CPU $C s)" "$W" "$B" "h5py root attributes on $N" "$M"
 fi
 fi
 if want validate; then
