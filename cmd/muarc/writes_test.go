@@ -49,7 +49,7 @@ func writesFixtureFor(t *testing.T) *writesFixture {
 }
 
 func makeWritesFixture() (*writesFixture, error) {
-	dir, err := os.MkdirTemp("", "muarc-writes-")
+	dir, err := os.MkdirTemp(filepath.Dir(muarcBin), "writes-") // removed with the built command
 	if err != nil {
 		return nil, err
 	}
