@@ -70,6 +70,7 @@ bench: deps
 FUZZTIME ?= 30s
 fuzz: deps
 	bash scripts/fuzz-all.sh $(FUZZTIME)
+	MUARC_DAMAGE_ALL=1 CI=true $(GO) test -count=1 -run 'TestDamagedCorpus' -timeout 60m ./cmd/muarc
 
 clean:
 	rm -rf bin $(DEMO) bench-out
