@@ -47,6 +47,11 @@ func (f *File) Close() error {
 // unit tables and MUAPs; samples stay in the file behind Array.Samples. It
 // refuses a file of a newer major layout version (ErrNewerLayout) and
 // reports layout violations as *FormatError.
+//
+// Warning: Open reads in this process through the HDF5 C library, which a
+// file with damaged HDF5 metadata can crash (Go cannot recover from that).
+// For files from untrusted places, screen them first with validate.Screen
+// (or validate them with validate.Isolated), which read in a worker process.
 func Open(path string) (*File, error) {
 	hf, err := h5.Open(path)
 	if err != nil {
