@@ -52,7 +52,9 @@ func TestIntegrityChecks(t *testing.T) {
 			t.Errorf("edit %q: want %s %s, got %v", snippets[i], w.sev, w.check, r.Findings)
 		}
 	}
-	if r := File(paths[3], DefaultOptions()); slices.ContainsFunc(r.Findings, func(f Finding) bool { return f.Check == "integrity.metadata_digest" || f.Check == "integrity.digest_absent" }) {
+	if r := File(paths[3], DefaultOptions()); slices.ContainsFunc(r.Findings, func(f Finding) bool {
+		return f.Check == "integrity.metadata_digest" || f.Check == "integrity.digest_absent"
+	}) {
 		t.Fatalf("an untouched file: %v", r.Findings)
 	}
 
