@@ -401,26 +401,7 @@ func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.A
 			a.Channels = append(a.Channels, record.Channel{Label: label(i), Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true})
 		}
 	}
-	for k := range a.Channels {
-		c := &a.Channels[k]
-		if pos, ok := prof.EMG.Channels[c.Label]; ok {
-			if pos.Row != nil {
-				c.Row = *pos.Row
-			}
-			if pos.Column != nil {
-				c.Column = *pos.Column
-			}
-			if pos.XMm != nil {
-				c.XMm = *pos.XMm
-			}
-			if pos.YMm != nil {
-				c.YMm = *pos.YMm
-			}
-			if pos.Usable != nil {
-				c.Usable = *pos.Usable
-			}
-		}
-	}
+	placeChannels(a.Channels, prof.EMG.Channels)
 	if a.Extra == nil {
 		a.Extra = record.Extra{}
 	}
@@ -521,4 +502,31 @@ func transducerArrays(h *edfplus.Header, skip map[string]bool) map[int][2]string
 		return nil
 	}
 	return out
+}
+
+// placeChannels sets grid positions and usability from the profile's
+// emg.channels, matched by label; members the profile leaves out stay.
+func placeChannels(chs []record.Channel, places map[string]ChannelPlace) {
+	for i := range chs {
+		c := &chs[i]
+		pos, ok := places[c.Label]
+		if !ok {
+			continue
+		}
+		if pos.Row != nil {
+			c.Row = *pos.Row
+		}
+		if pos.Column != nil {
+			c.Column = *pos.Column
+		}
+		if pos.XMm != nil {
+			c.XMm = *pos.XMm
+		}
+		if pos.YMm != nil {
+			c.YMm = *pos.YMm
+		}
+		if pos.Usable != nil {
+			c.Usable = *pos.Usable
+		}
+	}
 }

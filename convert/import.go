@@ -414,26 +414,7 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 			s.Notes = append(s.Notes, "no grid positions given (metadata or profile): channels are not on the grid")
 		}
 	}
-	for i := range a.Channels {
-		c := &a.Channels[i]
-		if pos, ok := prof.EMG.Channels[c.Label]; ok {
-			if pos.Row != nil {
-				c.Row = *pos.Row
-			}
-			if pos.Column != nil {
-				c.Column = *pos.Column
-			}
-			if pos.XMm != nil {
-				c.XMm = *pos.XMm
-			}
-			if pos.YMm != nil {
-				c.YMm = *pos.YMm
-			}
-			if pos.Usable != nil {
-				c.Usable = *pos.Usable
-			}
-		}
-	}
+	placeChannels(a.Channels, prof.EMG.Channels)
 	a.SampleType = s.DType
 	src := s.Source()
 	a.Samples = src

@@ -79,15 +79,7 @@ derivatives/muarc/) and says which required sidecar values it had to leave "n/a"
 
 func exportDone(w io.Writer, files []string, err error, asJSON bool) error {
 	if asJSON {
-		m := map[string]any{"files": files}
-		if err != nil {
-			m["error"] = err.Error()
-		}
-		printJSON(w, m)
-		if err != nil {
-			return silentExit(2)
-		}
-		return nil
+		return printJSONOutcome(w, map[string]any{"files": files}, err)
 	}
 	for _, f := range files {
 		fmt.Fprintln(w, "wrote", f)

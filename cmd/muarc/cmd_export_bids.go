@@ -13,15 +13,7 @@ import (
 func exportBIDS(w, errw io.Writer, studyDir, out string, allowIdent, overwrite, asJSON bool) error {
 	rep, err := bids.Export(studyDir, out, bids.Options{AllowIdentified: allowIdent, Overwrite: overwrite})
 	if asJSON {
-		m := map[string]any{"bids": rep}
-		if err != nil {
-			m["error"] = err.Error()
-		}
-		printJSON(w, m)
-		if err != nil {
-			return silentExit(2)
-		}
-		return nil
+		return printJSONOutcome(w, map[string]any{"bids": rep}, err)
 	}
 	if err != nil {
 		return withExit(2, err)

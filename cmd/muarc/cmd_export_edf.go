@@ -21,15 +21,7 @@ func exportEDF(w, errw io.Writer, path, out, format string, allowIdent, overwrit
 	}
 	reps, err := convert.ExportEDF(path, convert.EDFExportOptions{Format: f, Dir: out, AllowIdentified: allowIdent, Overwrite: overwrite})
 	if asJSON {
-		m := map[string]any{"files": reps}
-		if err != nil {
-			m["error"] = err.Error()
-		}
-		printJSON(w, m)
-		if err != nil {
-			return silentExit(2)
-		}
-		return nil
+		return printJSONOutcome(w, map[string]any{"files": reps}, err)
 	}
 	for _, r := range reps {
 		fmt.Fprintf(w, "wrote %s (%s, trial %s): %d signals, %d records of %g s, %d annotations (%d discharges)\n",
@@ -53,4 +45,17 @@ func exportEDF(w, errw io.Writer, path, out, format string, allowIdent, overwrit
 		}
 	}
 	return withExit(2, err)
+}
+
+// printJSONOutcome prints m as JSON, with "error" when err is set, and
+// exits 2 on an error.
+func printJSONOutcome(w io.Writer, m map[string]any, err error) error {
+	if err != nil {
+		m["error"] = err.Error()
+	}
+	printJSON(w, m)
+	if err != nil {
+		return silentExit(2)
+	}
+	return nil
 }
