@@ -66,28 +66,31 @@ type ArraySpec struct {
 type Site struct {
 	ArrayName string // e.g. "ta_grid"
 	Muscle    string // e.g. "tibialis anterior"
+	// MaxThresholdPctMVC is the highest recruitment threshold of the
+	// muscle's pool, % MVC (50-80 by muscle is common practice); 0 means 60.
+	MaxThresholdPctMVC float64
 }
 
 // DemoConfig is the built-in demo study: an invented ankle dorsiflexion
 // fatigue study with three subjects, trials at 10, 30 and 50 % MVC, an 8 x 8
 // grid on tibialis anterior and a 13 x 5 grid (one corner empty) on extensor
 // digitorum longus or extensor hallucis longus, both 64 electrodes 8 mm
-// apart, 2048 Hz, 12 s trials.
+// apart, 2048 Hz, 16 s trials with 5 s ramps (slow ramps, 2-10 % MVC/s).
 func DemoConfig() Config {
 	return Config{
 		Seed:           73091,
 		Subjects:       3,
 		LevelsPctMVC:   []float64{10, 30, 50},
 		SamplingRateHz: 2048,
-		RestS:          0.5, RampS: 3, PlateauS: 5,
+		RestS:          0.5, RampS: 5, PlateauS: 5,
 		UnitsPerMuscle: 20,
 		SNRdB:          20,
 		MVCRangeN:      [2]float64{200, 400},
 		Arrays: []ArraySpec{
 			{Rows: 8, Columns: 8, IEDMm: 8, BadChannel: -1,
-				Sites: []Site{{"ta_grid", "tibialis anterior"}}},
+				Sites: []Site{{"ta_grid", "tibialis anterior", 75}}},
 			{Rows: 13, Columns: 5, SkipCorner: true, IEDMm: 8, BadChannel: 37,
-				Sites: []Site{{"edl_grid", "extensor digitorum longus"}, {"ehl_grid", "extensor hallucis longus"}}},
+				Sites: []Site{{"edl_grid", "extensor digitorum longus", 60}, {"ehl_grid", "extensor hallucis longus", 55}}},
 		},
 		DetectionErrors:     true,
 		EditedDecomposition: true,
@@ -109,9 +112,9 @@ func TestConfig() Config {
 		MVCRangeN:      [2]float64{200, 400},
 		Arrays: []ArraySpec{
 			{Rows: 4, Columns: 4, IEDMm: 8, BadChannel: -1,
-				Sites: []Site{{"ta_grid", "tibialis anterior"}}},
+				Sites: []Site{{"ta_grid", "tibialis anterior", 75}}},
 			{Rows: 4, Columns: 4, IEDMm: 8, BadChannel: 5,
-				Sites: []Site{{"edl_grid", "extensor digitorum longus"}}},
+				Sites: []Site{{"edl_grid", "extensor digitorum longus", 60}}},
 		},
 		DetectionErrors:     true,
 		EditedDecomposition: true,
@@ -173,6 +176,9 @@ func (c Config) check() error {
 		for _, s := range a.Sites {
 			if s.ArrayName == "" || s.Muscle == "" {
 				bad("array %d: site %+v needs an array name and a muscle", i, s)
+			}
+			if s.MaxThresholdPctMVC != 0 && !(s.MaxThresholdPctMVC >= 5 && s.MaxThresholdPctMVC <= 100) {
+				bad("array %d: site %q: MaxThresholdPctMVC %g outside 5..100", i, s.ArrayName, s.MaxThresholdPctMVC)
 			}
 		}
 		if a.BadChannel >= n {

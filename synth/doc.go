@@ -2,27 +2,36 @@
 // known ground truth, for the demo, tests and benchmarks.
 //
 // The model (a property of this package, not a measurement): each muscle has
-// a pool of motor units with excitation thresholds spread exponentially over
-// 1.5-60 % of maximal excitation (more low-threshold units). A unit
-// discharges once the excitation reaches its threshold, at a rate that
-// starts at 6.4-7.2 pps and rises about 0.6 pps per % excitation above
-// threshold up to a ceiling that falls from 35 pps (earliest units) to about
-// 19 pps (latest), so on a plateau the units recruited earlier fire faster.
-// Intervals carry Gaussian jitter (CoV 0.12-0.19, clipped at 2.5 SD). A
-// unit stops below 0.88 x threshold - 0.5 % (derecruitment on the ramp
-// down), slowing to at most 1.5 pps under its initial rate on the way.
+// a pool of motor units whose recruitment thresholds (the steady-state force
+// at which they start) are spread exponentially from 2 % MVC to the
+// muscle's highest threshold (Site.MaxThresholdPctMVC; 75, 60 and 55 % MVC
+// in the demo, within the 50-80 % common for limb muscles), more
+// low-threshold units than high ones. The excitation at which each unit
+// starts is found from these by inverting the steady-state force (a fixed
+// point, as the force depends on the thresholds). A unit discharges once the
+// excitation reaches its threshold, at a rate that starts at 6-8 pps and
+// rises about 0.8 pps per % excitation above threshold up to a ceiling that
+// falls from 35 pps (earliest units) to about 19 pps (latest), so on a
+// plateau the units recruited earlier fire faster. Intervals carry Gaussian
+// jitter (CoV 0.12-0.19, clipped at 2.5 SD). A unit stops where the
+// steady-state force falls below max(0.4 x, 0.75 x its threshold - 1.5 %
+// MVC) (derecruitment below recruitment), slowing to at most 1.5 pps under
+// its initial rate on the way.
 //
 // Force is the sum of critically damped twitches peak (t/tc) exp(1 - t/tc),
 // contraction time tc from about 90 ms (first unit) to 35 ms (last), peak
-// growing 12-fold with threshold, over the pools of all arrays. The
-// excitation is the steady-state inverse of the trapezoidal target, taken
-// ahead by the mean twitch delay plus 50 ms (so force follows the target on
-// the ramps too), times a slow common-drive fluctuation (1 % SD, 1.5 Hz
-// low-pass). Each trial's summed twitches are then scaled by one factor so
-// that the plateau mean force is the target (Truth ForceScale, close to 1),
-// plus force-sensor noise of 0.05 % MVC. Recruitment thresholds measured as
-// the force at the first discharge therefore sit below the steady-state
-// ones in Truth, and derecruitment above, by the force lag on fast ramps.
+// growing 12-fold with threshold, over the pools of all arrays, plus the
+// force of the units no grid sees (75 % of the maximal force, growing in
+// proportion to the excitation one twitch delay late). The excitation is the
+// steady-state inverse of the trapezoidal target, taken ahead by the mean
+// twitch delay plus 50 ms (so force follows the target on the ramps too),
+// times a slow common-drive fluctuation (1 % SD, 1.5 Hz low-pass). Each
+// trial's force is then scaled by one factor so that the plateau mean force
+// is the target (Truth ForceScale, close to 1), plus force-sensor noise of
+// 0.05 % MVC. Recruitment thresholds measured as the force at the first
+// discharge therefore sit below the steady-state ones in Truth, and
+// derecruitment above, by the force lag (about 0.1-0.2 s of ramp): small on
+// the demo's slow ramps (5 s, 2-10 % MVC/s), larger on fast ones.
 //
 // MUAPs are triphasic waves starting at a unit-specific innervation point
 // and propagating along the fibres (grid rows) at 3.8-5 m/s, falling off
@@ -32,9 +41,9 @@
 // plateau SNR, in uV, quantised to 0.01 uV. A configured bad channel has
 // five times the noise and is marked not usable.
 //
-// Decompositions: "auto" holds, for every array, the units whose threshold
-// is at least 7 % excitation below the plateau excitation and that discharge
-// at least 10 times (units recruited just under the plateau are "not
+// Decompositions: "auto" holds, for every array, the units whose
+// recruitment threshold is at most 88 % of the target and that discharge at
+// least 10 times (units recruited just under the plateau are "not
 // found"), with a few missed and spurious discharges when
 // Config.DetectionErrors is set; "edited" (Config.EditedDecomposition, first
 // array) has the true trains and drops the lowest-SIL unit. Their figures

@@ -23,26 +23,44 @@ type Generated struct {
 // Model constants (a property of our model, chosen to give physiological
 // figures; see the package doc).
 const (
-	thresholdMinPct = 1.5 // lowest excitation threshold, % of maximal
-	thresholdMaxPct = 60  // highest excitation threshold
-	rateGainPPS     = 0.6 // rate rise per % excitation above threshold, pps
-	// A unit stops when the excitation falls below derecruitFrac x
-	// threshold - derecruitOffPct (%), firing at most derecruitSlowPPS
-	// below its initial rate on the way there.
-	derecruitFrac    = 0.88
-	derecruitOffPct  = 0.5
+	// Recruitment thresholds (steady-state force at which a unit starts,
+	// % MVC) are spread exponentially over the pool, many low-threshold
+	// units and few high ones (the exponential spread of the Fuglevand,
+	// Winter and Patla 1993 pool model, J Neurophysiol 70:2470; from
+	// memory), from thresholdMinPct to the muscle's highest threshold
+	// (Site.MaxThresholdPctMVC; 50-80 % MVC by muscle is common practice).
+	thresholdMinPct     = 2.0
+	defaultMaxThreshold = 60
+	rateGainPPS         = 0.8 // rate rise per % excitation above threshold, pps
+	// A unit stops when the steady-state force falls below
+	// max(derecruitMinFrac x threshold, derecruitFrac x threshold -
+	// derecruitOffPct) (% MVC): derecruitment below recruitment, as on
+	// slow ramps (common practice), firing at most derecruitSlowPPS below
+	// its initial rate on the way there.
+	derecruitFrac    = 0.75
+	derecruitOffPct  = 1.5
+	derecruitMinFrac = 0.4
 	derecruitSlowPPS = 1.5
 	driveSD          = 0.01 // relative SD of the slow common-drive fluctuation
 	driveCutHz       = 1.5  // its low-pass corner, Hz
-	// decompMarginPct: the "auto" decomposition finds the units whose
-	// threshold is at least this far below the plateau excitation (units
+	// foundBelowFrac: the "auto" decomposition finds the units whose
+	// recruitment threshold is at most this fraction of the target (units
 	// recruited just under the plateau discharge too few times at a stable
 	// rate to be found).
-	decompMarginPct = 7
-	minDischarges   = 10
-	forceNoiseRel   = 0.0005 // force sensor noise SD, fraction of MVC
-	badChannelNoise = 5
-	excitationSteps = 10000 // steady-state force table resolution (0.01 %)
+	foundBelowFrac = 0.88
+	// backgroundShare is the share of the maximal force made by the units
+	// a decomposition never sees (a surface grid finds a sample of a
+	// muscle's hundreds of units): a smooth force growing in proportion to
+	// the excitation, so the simulated units' steps do not dominate the
+	// force (a property of our model).
+	backgroundShare = 0.75
+	// calibrationRounds is how often thresholds are mapped through the
+	// steady-state force table, which depends on them (a fixed point).
+	calibrationRounds = 12
+	minDischarges     = 10
+	forceNoiseRel     = 0.0005 // force sensor noise SD, fraction of MVC
+	badChannelNoise   = 5
+	excitationSteps   = 10000 // steady-state force table resolution (0.01 %)
 	// leadExtraS is added to the twitch delay in the excitation lead: about
 	// half an interval, the delay of rate changes reaching the discharges.
 	leadExtraS = 0.05
@@ -69,7 +87,10 @@ const (
 
 // poolUnit is one simulated motor unit of a muscle.
 type poolUnit struct {
+	rtPct   float64 // recruitment threshold, steady-state force, % MVC
+	drtPct  float64 // derecruitment threshold, % MVC
 	rte     float64 // excitation threshold, %
+	dre     float64 // excitation below which a discharging unit stops, %
 	r0, rpk float64 // rate at recruitment and ceiling, pps
 	gain    float64 // pps per % excitation
 	cov     float64 // ISI jitter CoV
@@ -92,7 +113,7 @@ func (u *poolUnit) rate(e float64) float64 {
 }
 
 // derecruitAt is the excitation (%) below which a discharging unit stops.
-func (u *poolUnit) derecruitAt() float64 { return derecruitFrac*u.rte - derecruitOffPct }
+func (u *poolUnit) derecruitAt() float64 { return u.dre }
 
 // firingRate is the rate of a unit that is discharging at excitation e:
 // above the threshold as rate, below it falling with the same gain, to at
@@ -133,19 +154,25 @@ func makeGrid(a ArraySpec) (grid, []record.Channel) {
 	return g, chans
 }
 
-func makePool(rng *rand.Rand, n int, g grid, sh templateShape) []poolUnit {
-	rte := make([]float64, n)
-	for i := range rte {
-		f := (float64(i) + 0.3*(rng.Float64()-0.5)) / float64(n-1)
-		rte[i] = thresholdMinPct * math.Exp(math.Log(thresholdMaxPct/thresholdMinPct)*max(0, min(1, f)))
+func makePool(rng *rand.Rand, n int, g grid, sh templateShape, maxRT float64) []poolUnit {
+	if !(maxRT > 0) {
+		maxRT = defaultMaxThreshold
 	}
-	sort.Float64s(rte)
+	rt := make([]float64, n)
+	for i := range rt {
+		f := (float64(i) + 0.3*(rng.Float64()-0.5)) / float64(n-1)
+		rt[i] = thresholdMinPct * math.Exp(math.Log(maxRT/thresholdMinPct)*max(0, min(1, f)))
+	}
+	sort.Float64s(rt)
 	us := make([]poolUnit, n)
 	for i := range us {
 		f := float64(i) / float64(n-1)
-		u := poolUnit{rte: rte[i]}
-		u.r0 = 6.8 + 0.2*clampN(rng, 2)
-		u.rpk = max(u.r0+4, 35-16*rte[i]/thresholdMaxPct+clampN(rng, 2))
+		u := poolUnit{rtPct: rt[i], rte: rt[i], dre: rt[i] / 2}
+		u.drtPct = max(derecruitMinFrac*rt[i], derecruitFrac*rt[i]-derecruitOffPct)
+		// 6-10 pps at recruitment (common practice), a ceiling falling
+		// from 35 pps for the earliest units to about 19 pps for the last.
+		u.r0 = 7.0 + 0.5*clampN(rng, 2)
+		u.rpk = max(u.r0+4, 35-16*rt[i]/maxRT+clampN(rng, 2))
 		u.rpk = min(u.rpk, 35)
 		u.gain = rateGainPPS * (1 + 0.08*clampN(rng, 2))
 		u.cov = 0.12 + 0.07*rng.Float64()
@@ -172,14 +199,46 @@ func makePool(rng *rand.Rand, n int, g grid, sh templateShape) []poolUnit {
 	return us
 }
 
+// calibrate sets every unit's excitation thresholds so that the
+// steady-state force at them is the unit's recruitment and derecruitment
+// threshold in % MVC. The force table depends on the thresholds, so the
+// mapping is repeated to a fixed point; it returns the final table.
+func calibrate(plans []arrayPlan) []float64 {
+	tab := steadyForce(plans)
+	for range calibrationRounds {
+		for a := range plans {
+			for k := range plans[a].units {
+				u := &plans[a].units[k]
+				u.rte = excitationFor(tab, u.rtPct/100)
+			}
+		}
+		tab = steadyForce(plans)
+	}
+	for a := range plans {
+		for k := range plans[a].units {
+			u := &plans[a].units[k]
+			u.dre = min(u.rte, max(excitationFor(tab, u.drtPct/100), u.rte/4))
+		}
+	}
+	return tab
+}
+
 // steadyForce tabulates the steady-state force of all pools (sum of twitch
 // peak x contraction time x e x rate) on an excitation grid 0..100 %, in
 // model units.
 func steadyForce(plans []arrayPlan) []float64 {
 	t := make([]float64, excitationSteps+1)
+	var full float64
+	for _, p := range plans {
+		for k := range p.units {
+			u := &p.units[k]
+			full += u.peakRel * u.tcS * math.E * u.rpk
+		}
+	}
+	bg := backgroundPerPct(full)
 	for j := range t {
 		e := 100 * float64(j) / excitationSteps
-		var f float64
+		f := bg * e
 		for _, p := range plans {
 			for k := range p.units {
 				u := &p.units[k]
@@ -189,6 +248,12 @@ func steadyForce(plans []arrayPlan) []float64 {
 		t[j] = f
 	}
 	return t
+}
+
+// backgroundPerPct is the background force per % excitation, in model
+// units, for simulated units whose full force is full.
+func backgroundPerPct(full float64) float64 {
+	return backgroundShare / (1 - backgroundShare) * full / 100
 }
 
 // excitationFor returns the excitation (%) whose steady-state force is the
@@ -253,9 +318,9 @@ func generateSubject(cfg Config, s int) (*Generated, error) {
 		seen[site.ArrayName] = true
 		g, chans := makeGrid(spec)
 		plans[a] = arrayPlan{spec: spec, site: site, grid: g, channels: chans,
-			units: makePool(rngFor(cfg.Seed, purposePool, uint64(s), uint64(a)), cfg.UnitsPerMuscle, g, sh)}
+			units: makePool(rngFor(cfg.Seed, purposePool, uint64(s), uint64(a)), cfg.UnitsPerMuscle, g, sh, site.MaxThresholdPctMVC)}
 	}
-	tab := steadyForce(plans)
+	tab := calibrate(plans)
 	lead := int(math.Round((twitchLagS(plans) + leadExtraS) * fs))
 	newtonPerUnit := mvc / tab[len(tab)-1]
 
@@ -313,6 +378,19 @@ func generateSubject(cfg Config, s int) (*Generated, error) {
 		// Force: sum of critically damped twitches, then scaled per trial
 		// so the plateau mean equals the target.
 		raw := make([]float64, n)
+		// The background units follow the excitation one twitch delay late.
+		var full float64
+		for ai := range plans {
+			for ui := range plans[ai].units {
+				u := &plans[ai].units[ui]
+				full += u.peakRel * u.tcS * math.E * u.rpk
+			}
+		}
+		bg := backgroundPerPct(full) * newtonPerUnit
+		delay := int(math.Round(twitchLagS(plans) * fs))
+		for k := range raw {
+			raw[k] = bg * exc[max(0, k-delay)]
+		}
 		for ai := range plans {
 			for ui := range plans[ai].units {
 				u := &plans[ai].units[ui]
@@ -447,7 +525,7 @@ func buildArray(cfg Config, s, li, ai int, plan *arrayPlan, disc [][]int64, forc
 	// The units the "auto" decomposition finds, in order of recruitment.
 	var found []int
 	for ui, d := range disc {
-		if len(d) >= minDischarges && plan.units[ui].rte <= ePl-decompMarginPct {
+		if len(d) >= minDischarges && plan.units[ui].rtPct <= foundBelowFrac*100*forceAt(tab, ePl) {
 			found = append(found, ui)
 		}
 	}
@@ -460,7 +538,7 @@ func buildArray(cfg Config, s, li, ai int, plan *arrayPlan, disc [][]int64, forc
 	auto := record.Decomposition{
 		Name: "auto", Method: "simulated decomposition: true discharges with detection errors", MethodVersion: "1",
 		Parameters: mustJSON(map[string]any{"seed": cfg.Seed, "detection_errors": cfg.DetectionErrors,
-			"margin_pct_excitation": decompMarginPct, "min_discharges": minDischarges}),
+			"found_below_fraction_of_target": foundBelowFrac, "min_discharges": minDischarges}),
 		Notes: "generated by " + synthSoftware + "; ground truth in truth.json",
 	}
 	missed := map[int][]int64{}

@@ -418,7 +418,7 @@ func TestRecruitmentOrderAndDerecruitment(t *testing.T) {
 func TestMUAPsSmoothAcrossTheGrid(t *testing.T) {
 	cfg := TestConfig()
 	cfg.Arrays[0] = ArraySpec{Rows: 13, Columns: 5, SkipCorner: true, IEDMm: 8, BadChannel: -1,
-		Sites: []Site{{"ta_grid", "tibialis anterior"}}}
+		Sites: []Site{{"ta_grid", "tibialis anterior", 0}}}
 	g := generate(t, cfg)[0]
 	arr := g.Recording.Trials[1].Arrays[0]
 	m := arr.Decompositions[0].MUAPs
@@ -620,7 +620,7 @@ func TestConfigChecks(t *testing.T) {
 		"bad channel":    func(c *Config) { c.Arrays[0].BadChannel = 16 },
 		"no site":        func(c *Config) { c.Arrays[0].Sites = nil },
 		"same names":     func(c *Config) { c.Arrays[1].Sites = c.Arrays[0].Sites },
-		"site no muscle": func(c *Config) { c.Arrays[0].Sites = []Site{{"x", ""}} },
+		"site no muscle": func(c *Config) { c.Arrays[0].Sites = []Site{{"x", "", 0}} },
 		"same level":     func(c *Config) { c.LevelsPctMVC = []float64{20, 20} },
 	} {
 		cfg := TestConfig()
