@@ -15,7 +15,7 @@ DEMO    ?= demo-out
 # slurm-wlm and munge: archive/examples' job arrays run under a real
 # single-node Slurm started by the test.
 DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
-	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas chromium \
+	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium \
 	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge
 
 .PHONY: all deps build demo test bench fuzz vet clean

@@ -6,6 +6,10 @@ require github.com/spf13/cobra v1.10.2
 
 require go.yaml.in/yaml/v3 v3.0.6
 
+require gonum.org/v1/gonum v0.16.0
+
+require golang.org/x/tools v0.36.0 // indirect
+
 require (
 	codeberg.org/go-fonts/liberation v0.5.0 // indirect
 	codeberg.org/go-latex/latex v0.2.0 // indirect
