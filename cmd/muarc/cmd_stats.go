@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -11,16 +13,18 @@ import (
 	"github.com/spf13/cobra"
 
 	"muarc/analysis"
+	"muarc/analysis/study"
 	"muarc/internal/jsonclean"
 )
 
 var statsFlags struct {
 	json, tsv, write, noMUAPs bool
+	out                       string
 }
 
 var statsCmd = &cobra.Command{
-	Use:   "stats FILE",
-	Short: "Derive per-unit discharge rates, thresholds, plateau figures and MUAP templates",
+	Use:   "stats FILE | stats DIR",
+	Short: "Per-unit rates, thresholds and MUAP templates of a recording, or the rate-versus-threshold analysis of a study",
 	Long: `stats derives, for every motor unit of every decomposition in FILE:
   recruitment and derecruitment thresholds: the force (linearly interpolated)
     at the first and the last discharge, in % MVC and in force units;
@@ -44,6 +48,20 @@ the provenance history. The lab's own unit table and templates are never
 changed. The file is rewritten beside itself and renamed into place; on any
 error it is left as it was.
 
+Given a folder (the study), stats reads every recording in it one at a time
+and fits, per subject x muscle x target level, plateau mean rate and
+initial rate against recruitment threshold (least squares: slope with its
+95 % confidence interval, intercept, R^2, n; units and threshold range),
+using per array the decomposition summaries use (the last edited by hand,
+else the last). Per muscle x level, and per muscle over all levels, it gives
+the mean, SD and range of the subjects' slopes and intercepts and a linear
+mixed model (random intercept and slope per subject, REML) that splits the
+variability into between-subject and within-subject parts. --tsv prints one
+row per subject x muscle x level x relation; --write stores
+rate_threshold_fits.tsv, rate_threshold_summary.tsv and rate_threshold.json
+(with the method and every recording's SHA-256) in --out (default
+DIR/rate_threshold); the recordings are not changed.
+
 Exit status: 0 done, 2 the file could not be read or written (or bad usage).`,
 	Args: cobra.ExactArgs(1),
 	RunE: runStats,
@@ -55,12 +73,19 @@ func init() {
 	f.BoolVar(&statsFlags.tsv, "tsv", false, "print one tab-separated row per unit")
 	f.BoolVar(&statsFlags.write, "write", false, "store the figures and templates in FILE (rewritten atomically)")
 	f.BoolVar(&statsFlags.noMUAPs, "no-muaps", false, "skip the MUAP templates (the EMG samples are not read)")
+	f.StringVar(&statsFlags.out, "out", "", "with DIR and --write: the folder for the study's results (default DIR/rate_threshold)")
 	rootCmd.AddCommand(statsCmd)
 }
 
 func runStats(cmd *cobra.Command, args []string) error {
 	if statsFlags.json && statsFlags.tsv {
 		return withExit(2, fmt.Errorf("give --json or --tsv, not both"))
+	}
+	if st, err := os.Stat(args[0]); err == nil && st.IsDir() {
+		return runStudyStats(cmd, args[0])
+	}
+	if statsFlags.out != "" {
+		return withExit(2, fmt.Errorf("--out goes with a study folder, not a file"))
 	}
 	if err := checkRecordingInput(args[0], !statsFlags.noMUAPs); err != nil {
 		return withExit(2, err)
@@ -174,4 +199,39 @@ func printStatsTSV(w io.Writer, r *analysis.FileStats) error {
 		}
 	}
 	return nil
+}
+
+// runStudyStats analyses the study in dir.
+func runStudyStats(cmd *cobra.Command, dir string) error {
+	var bar *progress
+	res, err := study.Analyse(dir, func(done, total int) {
+		if bar == nil {
+			bar = newProgress("stats", int64(total))
+		}
+		bar.Add(1)
+	})
+	bar.Finish()
+	if err != nil {
+		return withExit(2, err)
+	}
+	w := cmd.OutOrStdout()
+	if statsFlags.write {
+		out := statsFlags.out
+		if out == "" {
+			out = filepath.Join(dir, "rate_threshold")
+		}
+		if err := study.Save(out, res); err != nil {
+			return withExit(2, err)
+		}
+		if !statsFlags.json && !statsFlags.tsv {
+			defer fmt.Fprintf(w, "\nstored %s, %s and %s in %s\n", study.FitsFile, study.SummaryFile, study.JSONFile, out)
+		}
+	}
+	switch {
+	case statsFlags.json:
+		return printJSON(w, jsonclean.Clean(res))
+	case statsFlags.tsv:
+		return study.WriteFitsTSV(w, res)
+	}
+	return study.WriteText(w, res)
 }
