@@ -346,9 +346,28 @@ func allowed(s ordered) string {
 		}
 	}
 	if p, ok := s.get("pattern").(string); ok {
-		parts = append(parts, "matches "+p)
+		parts = append(parts, readablePattern(p))
 	}
 	return strings.Join(parts, "; ")
+}
+
+// patternWords says in a reader's words what the schema's regular
+// expressions accept; a pattern not listed is quoted as it is.
+var patternWords = map[string]string{
+	`^[0-9a-f]{64}$`:                  "64 lower-case hex digits",
+	`^([0-9a-f]{64})?$`:               "64 lower-case hex digits, or empty",
+	`^[0-9]+\.[0-9]+$`:                "major.minor, e.g. 1.1",
+	`^[0-9]{4}(-[0-9]{2}-[0-9]{2})?$`: "YYYY-MM-DD, or YYYY",
+	`^[0-9]{4}-[0-9]{2}-[0-9]{2}[Tt][0-9]{2}:[0-9]{2}:[0-9]{2}(\.[0-9]+)?([Zz]|[+-][0-9]{2}:[0-9]{2})$`:    "YYYY-MM-DDThh:mm:ssZ (RFC 3339, with a time zone)",
+	`^[0-9]{4}-[0-9]{2}-[0-9]{2}([Tt][0-9]{2}:[0-9]{2}:[0-9]{2}(\.[0-9]+)?([Zz]|[+-][0-9]{2}:[0-9]{2}))?$`: "YYYY-MM-DD, or YYYY-MM-DDThh:mm:ssZ (RFC 3339)",
+	`^[A-Za-z0-9_-][A-Za-z0-9_.-]*$`: "letters, digits, _ - and . (not starting with .)",
+}
+
+func readablePattern(p string) string {
+	if w, ok := patternWords[p]; ok {
+		return w
+	}
+	return "matches " + p
 }
 
 func render(v any) string {

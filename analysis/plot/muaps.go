@@ -58,11 +58,11 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 	pr := (max(n, 1) + pc - 1) / pc
 	width := 10 * vg.Inch
 	panelW := width / vg.Length(pc)
-	titleH := vg.Points(14)
-	cellW := (panelW - vg.Points(8)) / vg.Length(cols)
+	titleH := vg.Points(16)
+	cellW := (panelW - vg.Points(34)) / vg.Length(cols) // room for the amplitude bar
 	cellH := cellW * 1.2
 	panelH := titleH + cellH*vg.Length(rows) + vg.Points(8)
-	headH := vg.Points(24)
+	headH := vg.Points(44)
 	height := headH + panelH*vg.Length(pr)
 	usable := func(ch int) bool { return ch >= len(arr.Channels) || arr.Channels[ch].Usable }
 	step := (m.Lags + maxWavePoints - 1) / maxWavePoints
@@ -72,10 +72,28 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 	draw1 := func(dc draw.Canvas) {
 		hdr := text.Style{Color: color.Black, Font: font.From(gplot.DefaultFont, 12), Handler: gplot.DefaultTextHandler, XAlign: draw.XLeft, YAlign: draw.YTop}
 		small := hdr
-		small.Font = font.From(gplot.DefaultFont, 7.5)
+		small.Font = font.From(gplot.DefaultFont, 9)
+		unit := displayUnit(m.Unit)
+		winMs := 1000 * float64(m.Lags-1) / arr.SamplingRateHz
 		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(5)},
-			fmt.Sprintf("%s — MUAP templates, %.0f to %.0f ms, %d units; shade = peak-to-peak amplitude map", title,
+			fmt.Sprintf("%s — MUAP templates, %.0f to %.0f ms, %d units", title,
 				1000*float64(m.FirstLag)/arr.SamplingRateHz, 1000*float64(m.FirstLag+m.Lags-1)/arr.SamplingRateHz, n))
+		// Keys: the time bar (one cell's trace), the shade key, and the
+		// amplitude bar beside every panel.
+		ky := dc.Max.Y - vg.Points(30)
+		kx := dc.Min.X + vg.Points(8)
+		bar := draw.LineStyle{Color: color.Black, Width: vg.Points(1.2)}
+		dc.StrokeLine2(bar, kx, ky, kx+cellW*0.9, ky)
+		dc.FillText(small, vg.Point{X: kx + cellW*0.9 + vg.Points(4), Y: ky + vg.Points(5)}, fmt.Sprintf("%.0f ms (one cell's trace)", winMs))
+		kx += cellW*0.9 + vg.Points(130)
+		dc.FillText(small, vg.Point{X: kx, Y: ky + vg.Points(5)}, "cell shade: peak-to-peak relative to the unit's largest")
+		kx += vg.Points(265)
+		for i := 0; i <= 4; i++ {
+			sh := uint8(255 - 90*float64(i)/4)
+			x := kx + vg.Points(34)*vg.Length(i)
+			dc.FillPolygon(color.RGBA{R: sh, G: sh, B: 255, A: 255}, []vg.Point{{X: x, Y: ky - vg.Points(5)}, {X: x + vg.Points(14), Y: ky - vg.Points(5)}, {X: x + vg.Points(14), Y: ky + vg.Points(5)}, {X: x, Y: ky + vg.Points(5)}})
+			dc.FillText(small, vg.Point{X: x + vg.Points(16), Y: ky + vg.Points(5)}, fmt.Sprintf("%d%%", 25*i))
+		}
 		for u := 0; u < n; u++ {
 			px := dc.Min.X + panelW*vg.Length(u%pc)
 			py := dc.Max.Y - headH - panelH*vg.Length(u/pc) // top of panel
@@ -85,14 +103,23 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 					maxP = v
 				}
 			}
-			label := fmt.Sprintf("unit %d: n=%d, max %.3g %s", unitID(t, u), t.Averaged[u], maxP, m.Unit)
+			label := fmt.Sprintf("unit %d: %d discharges averaged", unitID(t, u), t.Averaged[u])
 			if t.Averaged[u] < 0 {
-				label = fmt.Sprintf("unit %d: stored, max %.3g %s", unitID(t, u), maxP, m.Unit)
+				label = fmt.Sprintf("unit %d: stored templates", unitID(t, u))
 			}
 			dc.FillText(small, vg.Point{X: px + vg.Points(4), Y: py - vg.Points(2)}, label)
 			if !(maxP > 0) {
 				continue
 			}
+			// Amplitude bar: the unit's largest peak-to-peak at the traces'
+			// scale (0.9 of a cell's height), right of the grid.
+			bx := px + vg.Points(6) + cellW*vg.Length(cols)
+			btop := py - titleH - cellH*0.05
+			dc.StrokeLine2(draw.LineStyle{Color: color.Black, Width: vg.Points(1.2)}, bx, btop, bx, btop-cellH*0.9)
+			vs := small
+			vs.Rotation = math.Pi / 2
+			vs.XAlign, vs.YAlign = draw.XRight, draw.YTop
+			dc.FillText(vs, vg.Point{X: bx + vg.Points(2), Y: btop}, fmt.Sprintf("%.3g %s", maxP, unit))
 			for r := 0; r < rows; r++ {
 				for c := 0; c < cols; c++ {
 					ch := grid[r][c]
@@ -133,6 +160,17 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 		}
 	}
 	return &Figure{Width: width, Height: height, draw: draw1}
+}
+
+// displayUnit writes a UCUM unit for people: "uV" as µV.
+func displayUnit(u string) string {
+	switch u {
+	case "uV":
+		return "µV"
+	case "":
+		return "(unit not known)"
+	}
+	return u
 }
 
 // unitID returns the id of template row u (ids are carried beside the

@@ -85,15 +85,14 @@ func RecordingFigures(rec *record.Recording, st []analysis.DecompositionStats, o
 					Caption: fmt.Sprintf("Trial %s (%s), array %s (%s), decomposition %s: force and target with the plateau shaded, discharge raster, discharge rates smoothed by a 400 ms Hann window.",
 						tr.Name, levelText(tr.TargetPctMVC), arr.Name, arr.Muscle, dec.Name),
 					Figure: Overview(tr, arr, dec, ds)})
-				if ds != nil {
+				// The scatter shows one decomposition per array and trial:
+				// the one summaries use (record.ReportedDecomposition).
+				if ds != nil && di == record.ReportedDecomposition(arr.Decompositions) {
 					if _, ok := levels[arr.Name]; !ok {
 						arrayOrder = append(arrayOrder, arr.Name)
 					}
-					label := fmt.Sprintf("%s (%s)", tr.Name, levelText(tr.TargetPctMVC))
-					if len(pick) > 1 {
-						label += " " + dec.Name
-					}
-					levels[arr.Name] = append(levels[arr.Name], Level{Stats: ds, Label: label})
+					label := fmt.Sprintf("%s (%s, %s)", tr.Name, levelText(tr.TargetPctMVC), dec.Name)
+					levels[arr.Name] = append(levels[arr.Name], Level{Stats: ds, Label: label, LevelPct: tr.TargetPctMVC})
 				}
 				if opt.MUAPGrid != nil && !opt.MUAPGrid(ti, ai, di) {
 					continue
@@ -117,7 +116,7 @@ func RecordingFigures(rec *record.Recording, st []analysis.DecompositionStats, o
 	}
 	for _, a := range arrayOrder {
 		out = append(out, Named{Name: stem(a, "rates"), Kind: "rates",
-			Caption: fmt.Sprintf("Array %s: plateau mean rate (circles, solid least-squares line) and initial rate (triangles, dashed line) against recruitment threshold, one colour per trial.", a),
+			Caption: fmt.Sprintf("Array %s: plateau mean rate (circles, solid least-squares line) and initial rate (triangles, dashed line) against recruitment threshold, one colour per target level (the same in every figure); per trial the decomposition summaries use.", a),
 			Figure:  RateThreshold(levels[a])})
 	}
 	return out, notes

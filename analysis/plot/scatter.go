@@ -2,7 +2,10 @@ package plot
 
 import (
 	"fmt"
+	"image/color"
 	"math"
+	"strconv"
+	"strings"
 
 	gplot "gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -18,6 +21,48 @@ type Level struct {
 	Stats *analysis.DecompositionStats
 	// Label names the series in the legend, e.g. "ramp_30 (30 % MVC)".
 	Label string
+	// LevelPct is the trial's target level (% MVC); it picks the colour
+	// (LevelColor), the same in every figure and the report.
+	LevelPct float64
+}
+
+// levelPalette gives the usual target levels fixed colours; other levels
+// take one from their value.
+var levelPalette = map[float64]color.Color{
+	5: color.RGBA{166, 206, 227, 255}, 10: color.RGBA{31, 120, 180, 255}, 15: color.RGBA{178, 223, 138, 255},
+	20: color.RGBA{51, 160, 44, 255}, 25: color.RGBA{253, 191, 111, 255}, 30: color.RGBA{255, 127, 0, 255},
+	40: color.RGBA{202, 178, 214, 255}, 50: color.RGBA{227, 26, 28, 255}, 60: color.RGBA{106, 61, 154, 255},
+	70: color.RGBA{177, 89, 40, 255}, 80: color.RGBA{90, 90, 90, 255},
+}
+
+// LevelColor is the colour of target level pct (% MVC) in every figure.
+func LevelColor(pct float64) color.Color {
+	if c, ok := levelPalette[pct]; ok {
+		return c
+	}
+	if math.IsNaN(pct) {
+		return color.Black
+	}
+	return palette[int(math.Abs(math.Round(pct*7)))%len(palette)]
+}
+
+// slopeText writes a slope with three significant digits and no "-0".
+func slopeText(v float64) string {
+	s := strconv.FormatFloat(v, 'g', 3, 64)
+	if strings.Trim(s, "-0.") == "" {
+		return "0"
+	}
+	return s
+}
+
+// padRange widens [lo, hi] by 6 % on each side so that no point sits on an
+// axis edge.
+func padRange(lo, hi float64) (float64, float64) {
+	d := 0.06 * (hi - lo)
+	if d == 0 {
+		d = 1
+	}
+	return lo - d, hi + d
 }
 
 // RateThreshold draws plateau mean rate (filled circles, solid regression
@@ -36,8 +81,9 @@ func RateThreshold(levels []Level) *Figure {
 	p.X.Label.Text = "recruitment threshold (% MVC)"
 	p.Y.Label.Text = "discharge rate (pps)"
 	p.Add(plotter.NewGrid())
-	for i, lv := range levels {
-		col := unitColor(i)
+	xlo, xhi, ylo, yhi := math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
+	for _, lv := range levels {
+		col := LevelColor(lv.LevelPct)
 		var plat, init plotter.XYs
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, u := range lv.Stats.Units {
@@ -47,10 +93,12 @@ func RateThreshold(levels []Level) *Figure {
 			if !math.IsNaN(u.PlateauRatePPS) {
 				plat = append(plat, plotter.XY{X: u.RecruitPctMVC, Y: u.PlateauRatePPS})
 				lo, hi = math.Min(lo, u.RecruitPctMVC), math.Max(hi, u.RecruitPctMVC)
+				ylo, yhi = math.Min(ylo, u.PlateauRatePPS), math.Max(yhi, u.PlateauRatePPS)
 			}
 			if !math.IsNaN(u.InitialRatePPS) {
 				init = append(init, plotter.XY{X: u.RecruitPctMVC, Y: u.InitialRatePPS})
 				lo, hi = math.Min(lo, u.RecruitPctMVC), math.Max(hi, u.RecruitPctMVC)
+				ylo, yhi = math.Min(ylo, u.InitialRatePPS), math.Max(yhi, u.InitialRatePPS)
 			}
 		}
 		series := func(xy plotter.XYs, shape draw.GlyphDrawer, fit analysis.Fit, dashed bool, what string) {
@@ -73,13 +121,18 @@ func RateThreshold(levels []Level) *Figure {
 						l.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
 					}
 					p.Add(l)
-					label += fmt.Sprintf(", slope %.2f pps/%%MVC, R² %.2f", fit.Slope, fit.R2)
+					label += fmt.Sprintf(", slope %s pps/%%MVC, R² %.2f", slopeText(fit.Slope), fit.R2)
 				}
 			}
 			leg.Add(label, s)
 		}
 		series(plat, draw.CircleGlyph{}, lv.Stats.PlateauRateFit, false, "plateau")
 		series(init, draw.TriangleGlyph{}, lv.Stats.InitialRateFit, true, "initial")
+		xlo, xhi = math.Min(xlo, lo), math.Max(xhi, hi)
+	}
+	if !math.IsInf(xlo, 0) {
+		p.X.Min, p.X.Max = padRange(math.Min(0, xlo), xhi)
+		_, p.Y.Max = padRange(math.Min(0, ylo), yhi)
 	}
 	p.Y.Min = 0
 	p.X.Tick.Marker = plainTicks{}

@@ -13,6 +13,7 @@ import (
 
 	"muarc/analysis"
 	"muarc/analysis/plot"
+	"muarc/analysis/study"
 	"muarc/archive"
 	"muarc/recfile"
 	"muarc/record"
@@ -63,8 +64,7 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 	}
 	title := opt.Title
 	if title == "" {
-		abs, _ := filepath.Abs(dir)
-		title = "Study report: " + filepath.Base(abs)
+		title = studyTitle(dir, files)
 	}
 	p := &Page{Title: title, Generated: now.UTC().Format(time.RFC3339), Software: schema.Software, Folder: dir}
 	if len(skipped) > 0 {
@@ -81,6 +81,17 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 			opt.Progress(i+1, len(files))
 		}
 	}
+	if res, err := study.Analyse(dir, nil); err != nil {
+		p.Notes = append(p.Notes, "The study analysis could not run: "+err.Error())
+	} else {
+		p.Study = studyTable(res)
+		for _, n := range plot.StudyFigures(res) {
+			var b bytes.Buffer
+			if err := n.Figure.WriteSVG(&b); err == nil {
+				p.StudyFigures = append(p.StudyFigures, Figure{Caption: n.Caption, SVG: b.Bytes()})
+			}
+		}
+	}
 	p.Derived = derivedTable()
 	dict, derr := archive.DataDictionary()
 	if derr != nil {
@@ -95,7 +106,11 @@ func fmtNum(v float64, prec int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "–"
 	}
-	return strconv.FormatFloat(v, 'f', prec, 64)
+	s := strconv.FormatFloat(v, 'f', prec, 64)
+	if strings.Trim(s, "-0.") == "" {
+		s = strings.TrimPrefix(s, "-") // no "-0.00"
+	}
+	return s
 }
 
 func indexTable(rows []archive.IndexRow) Table {
@@ -306,6 +321,42 @@ func figures(rec *record.Recording, st []analysis.DecompositionStats) ([]Figure,
 		out = append(out, Figure{Caption: cap, SVG: b.Bytes()})
 	}
 	return out, notes, errors.Join(errs...)
+}
+
+// studyTitle is "Study report: " and the study title of the first
+// recording that has one, else the folder's name.
+func studyTitle(dir string, files []string) string {
+	for _, rel := range files {
+		f, err := recfile.Open(filepath.Join(dir, filepath.FromSlash(rel)))
+		if err != nil {
+			continue
+		}
+		t := f.Recording().Study.Title
+		f.Close()
+		if t != "" {
+			return "Study report: " + t
+		}
+	}
+	abs, _ := filepath.Abs(dir)
+	return "Study report: " + filepath.Base(abs)
+}
+
+// studyTable lists the across-subject summary of the study analysis.
+func studyTable(res *study.Result) Table {
+	t := Table{Caption: "Per muscle and target level (all: levels pooled): the subjects' least-squares slopes (pps per % MVC) and intercepts (pps), and the mixed model (random intercept and slope per subject, REML): fixed slope and the between-subject share of the variance. muarc stats DIR gives the per-subject lines.",
+		Columns: []string{"muscle", "level (% MVC)", "relation", "lines", "slope mean ± SD", "slope range", "intercept mean ± SD", "mixed slope ± SE", "between-subject share", "within-subject variance"},
+		Empty:   "no units with thresholds"}
+	for _, s := range res.Summary {
+		lvl := fmtNum(s.LevelPct, 0)
+		if s.AllLevels {
+			lvl = "all"
+		}
+		t.Rows = append(t.Rows, []string{s.Muscle, lvl, strings.ReplaceAll(s.Relation, "_", " "), strconv.Itoa(s.Slope.N),
+			fmtNum(s.Slope.Mean, 3) + " ± " + fmtNum(s.Slope.SD, 3), fmtNum(s.Slope.Min, 3) + " to " + fmtNum(s.Slope.Max, 3),
+			fmtNum(s.Intercept.Mean, 2) + " ± " + fmtNum(s.Intercept.SD, 2), fmtNum(s.Mixed.Slope, 3) + " ± " + fmtNum(s.Mixed.SlopeSE, 3),
+			fmtNum(s.Mixed.BetweenShare, 2), fmtNum(s.Mixed.WithinVar, 2)})
+	}
+	return t
 }
 
 func derivedTable() Table {

@@ -23,6 +23,10 @@ type Page struct {
 	Notes      []string
 	Index      Table
 	Recordings []Section
+	// Study is the study-level rate-versus-threshold analysis
+	// (analysis/study): its summary table and its figures per muscle.
+	Study        Table
+	StudyFigures []Figure
 	// Derived explains the figures the report derives (see analysis).
 	Derived    Table
 	Dictionary Table
@@ -113,6 +117,10 @@ ethics board, the consent given and local data-protection law decide what may le
 lab; muarc helps to de-identify, it does not certify that a file is anonymous.</p>
 <h2 id="index">Recordings</h2>
 {{template "table" .Index}}
+{{if or .Study.Rows .StudyFigures}}<h2 id="study">Rate against recruitment threshold, across subjects</h2>
+{{template "table" .Study}}
+{{range .StudyFigures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
+{{end}}{{end}}
 {{if .Recordings}}<nav><ul>{{range $i, $r := .Recordings}}<li><a href="#rec-{{$i}}">{{$r.File}}</a></li>{{end}}</ul></nav>{{end}}
 {{range $i, $r := .Recordings}}
 <section id="rec-{{$i}}" class="recording">

@@ -1,0 +1,136 @@
+package plot
+
+import (
+	"fmt"
+	"image/color"
+	"math"
+	"sort"
+
+	gplot "gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/text"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+
+	"muarc/analysis/study"
+)
+
+// StudyFigures draws, per muscle of a study analysis, the subjects side by
+// side (one column each) with plateau mean rate (top row) and initial rate
+// (bottom row) against recruitment threshold: points and least-squares
+// lines in one colour per target level (LevelColor), R^2 of each line
+// written in the panel, the same axes in a row.
+func StudyFigures(res *study.Result) []Named {
+	var muscles []string
+	seen := map[string]bool{}
+	for _, r := range res.Rows {
+		if !seen[r.Muscle] {
+			seen[r.Muscle] = true
+			muscles = append(muscles, r.Muscle)
+		}
+	}
+	var out []Named
+	for _, m := range muscles {
+		out = append(out, Named{Name: stem("study", m, "rate_threshold"), Kind: "study",
+			Caption: fmt.Sprintf("%s: discharge rate against recruitment threshold per subject (columns); top plateau mean rate, bottom initial rate; one colour per target level, least-squares line and its R² per level.", m),
+			Figure:  muscleFigure(res, m)})
+	}
+	return out
+}
+
+// r2Labels writes "<level> % MVC: R² x" lines in the top right of a panel.
+type r2Labels struct {
+	lines  []string
+	colors []color.Color
+}
+
+func (l r2Labels) Plot(c draw.Canvas, p *gplot.Plot) {
+	for i, s := range l.lines {
+		st := text.Style{Color: l.colors[i], Font: font.From(gplot.DefaultFont, 8), Handler: gplot.DefaultTextHandler,
+			XAlign: draw.XRight, YAlign: draw.YTop}
+		c.FillText(st, vg.Point{X: c.Max.X - vg.Points(3), Y: c.Max.Y - vg.Points(3) - vg.Points(10)*vg.Length(i)}, s)
+	}
+}
+
+func muscleFigure(res *study.Result, muscle string) *Figure {
+	var subjects []string
+	seen := map[string]bool{}
+	for _, r := range res.Rows {
+		if r.Muscle == muscle && !seen[r.Subject] {
+			seen[r.Subject] = true
+			subjects = append(subjects, r.Subject)
+		}
+	}
+	sort.Strings(subjects)
+	plots := make([][]*gplot.Plot, len(study.Relations))
+	for ri, rel := range study.Relations {
+		xmax, ymax := 0.0, 0.0
+		for _, r := range res.Rows {
+			if r.Muscle == muscle && r.Relation == rel {
+				for _, p := range r.Points {
+					xmax, ymax = math.Max(xmax, p[0]), math.Max(ymax, p[1])
+				}
+			}
+		}
+		for _, subj := range subjects {
+			p := gplot.New()
+			p.Add(plotter.NewGrid())
+			if ri == 0 {
+				p.Title.Text = "subject " + subj
+			}
+			if subj == subjects[0] {
+				p.Y.Label.Text = map[string]string{study.PlateauRate: "plateau rate (pps)", study.InitialRate: "initial rate (pps)"}[rel]
+			}
+			if ri == len(study.Relations)-1 {
+				p.X.Label.Text = "recruitment threshold (% MVC)"
+			}
+			var labels r2Labels
+			for _, r := range res.Rows {
+				if r.Muscle != muscle || r.Relation != rel || r.Subject != subj || len(r.Points) == 0 {
+					continue
+				}
+				col := LevelColor(r.LevelPct)
+				xy := make(plotter.XYs, len(r.Points))
+				lo, hi := math.Inf(1), math.Inf(-1)
+				for i, pt := range r.Points {
+					xy[i] = plotter.XY{X: pt[0], Y: pt[1]}
+					lo, hi = math.Min(lo, pt[0]), math.Max(hi, pt[0])
+				}
+				if s, err := plotter.NewScatter(xy); err == nil {
+					s.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.2), Shape: draw.CircleGlyph{}}
+					p.Add(s)
+				}
+				f := r.Fit
+				if !math.IsNaN(f.Slope) {
+					if l, err := plotter.NewLine(plotter.XYs{{X: lo, Y: f.Slope*lo + f.Intercept}, {X: hi, Y: f.Slope*hi + f.Intercept}}); err == nil {
+						l.Color, l.Width = col, vg.Points(1.2)
+						p.Add(l)
+					}
+					labels.lines = append(labels.lines, fmt.Sprintf("%g %% MVC: R² %.2f", r.LevelPct, f.R2))
+					labels.colors = append(labels.colors, col)
+				}
+			}
+			p.Add(labels)
+			p.X.Min, p.X.Max = padRange(0, xmax)
+			p.Y.Min, p.Y.Max = 0, ymax*1.35+1
+			p.X.Tick.Marker, p.Y.Tick.Marker = plainTicks{}, plainTicks{}
+			plots[ri] = append(plots[ri], p)
+		}
+	}
+	cols := max(1, len(subjects))
+	w := vg.Length(cols)*3.2*vg.Inch + 0.6*vg.Inch
+	return &Figure{Width: w, Height: 6.4 * vg.Inch, draw: func(dc draw.Canvas) {
+		hdr := text.Style{Color: color.Black, Font: font.From(gplot.DefaultFont, 12), Handler: gplot.DefaultTextHandler, XAlign: draw.XLeft, YAlign: draw.YTop}
+		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(4)}, muscle)
+		body := draw.Crop(dc, 0, 0, 0, -vg.Points(18))
+		tiles := draw.Tiles{Rows: len(study.Relations), Cols: cols, PadTop: vg.Points(4), PadBottom: vg.Points(4),
+			PadLeft: vg.Points(4), PadRight: vg.Points(10), PadX: vg.Points(10), PadY: vg.Points(10)}
+		canv := gplot.Align(plots, tiles, body)
+		for i := range plots {
+			for j := range plots[i] {
+				plots[i][j].Draw(canv[i][j])
+			}
+		}
+	}}
+}
