@@ -327,7 +327,11 @@ func figures(rec *record.Recording, st []analysis.DecompositionStats) ([]Figure,
 // recording that has one, else the folder's name.
 func studyTitle(dir string, files []string) string {
 	for _, rel := range files {
-		f, err := recfile.Open(filepath.Join(dir, filepath.FromSlash(rel)))
+		path := filepath.Join(dir, filepath.FromSlash(rel))
+		if validate.ScreenFirst(path, false) != nil {
+			continue
+		}
+		f, err := recfile.Open(path)
 		if err != nil {
 			continue
 		}

@@ -23,6 +23,7 @@ import (
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/schema"
+	"muarc/validate"
 )
 
 // Relations fitted against recruitment threshold (% MVC).
@@ -117,6 +118,12 @@ func Analyse(dir string, progress func(done, total int)) (*Result, error) {
 	var order []key
 	for i, rel := range recs {
 		path := filepath.Join(dir, filepath.FromSlash(rel))
+		// A damaged file could end the process inside the HDF5 library:
+		// it is screened first (validate.ScreenFirst) and left out.
+		if err := validate.ScreenFirst(path, false); err != nil {
+			res.Notes = append(res.Notes, fmt.Sprintf("%s could not be read and is left out: %v", rel, err))
+			continue
+		}
 		src, err := hashFile(path, rel)
 		if err != nil {
 			return nil, err
@@ -124,7 +131,8 @@ func Analyse(dir string, progress func(done, total int)) (*Result, error) {
 		res.Sources = append(res.Sources, src)
 		f, err := recfile.Open(path)
 		if err != nil {
-			return nil, fmt.Errorf("%s: %w", rel, err)
+			res.Notes = append(res.Notes, fmt.Sprintf("%s could not be read and is left out: %v", rel, err))
+			continue
 		}
 		rec := f.Recording()
 		subject := rec.Subject.ID
