@@ -120,9 +120,8 @@ func Unscannable(needles []string) []string {
 
 // ScanBytes reads the raw bytes of the file at path and reports every needle
 // found in it as UTF-8 (ASCII letters without regard to case), UTF-16LE or
-// UTF-16BE. A match counts only when the bytes around it are not ASCII
-// letters or digits (in the same encoding), so "Ana" is not found inside
-// "analysis". The file is read in blocks; memory stays flat. Needles shorter
+// UTF-16BE. A match counts only at token boundaries (bounded): "Hallbeck"
+// is found in "Hallbeck01", "Ana" is not found inside "analysis". The file is read in blocks; memory stays flat. Needles shorter
 // than MinNeedleBytes in an encoding are not searched in it (see
 // Unscannable).
 func ScanBytes(path string, needles []string) ([]Leak, error) {
@@ -315,8 +314,8 @@ func isDigit(c byte) bool  { return c >= '0' && c <= '9' }
 func isLetter(c byte) bool { return isLower(c) || isUpper(c) }
 
 // scanText searches decoded text (a metadata view as JSON, a string column)
-// for needles as whole words, ASCII letters without regard to case. It finds
-// what compression hides from ScanBytes.
+// for needles at token boundaries (bounded), ASCII letters without regard
+// to case. It finds what compression hides from ScanBytes.
 func scanText(text string, needles []string) []string {
 	orig := []byte(text)
 	low := string(lowerASCII([]byte(text)))
