@@ -3,6 +3,7 @@ package validate
 import (
 	"fmt"
 	"math"
+	"sort"
 
 	"muarc/record"
 )
@@ -48,6 +49,12 @@ func CheckRecording(rec *record.Recording, r Rules) []Finding {
 		}
 		trialNames[t.Name] = true
 		checkTrial(t, th, tj, r, add)
+		for _, s := range []struct {
+			name string
+			v    []float64
+		}{{"force", t.Force.Values}, {"force_target", t.ForceTarget.Values}} {
+			reportInfinite(s.v, th+"/"+s.name, tj+"/"+s.name, s.name, add)
+		}
 		arrayNames := map[string]bool{}
 		for ai := range t.Arrays {
 			a := &t.Arrays[ai]
@@ -75,6 +82,7 @@ func CheckRecording(rec *record.Recording, r Rules) []Finding {
 				}
 				decNames[d.Name] = true
 				checkDecomposition(d, a, rows, dh, dj, r, add)
+				checkDecompositionInfinite(d, dh, dj, add)
 			}
 		}
 	}
@@ -300,4 +308,53 @@ func plural(n int, one, many string) string {
 		return one
 	}
 	return many
+}
+
+// reportInfinite adds one values.infinite finding for the first ±Inf in v
+// with the count.
+func reportInfinite(v []float64, h, j, what string, add addFunc) {
+	first, n := -1, 0
+	for i, x := range v {
+		if math.IsInf(x, 0) {
+			if first < 0 {
+				first = i
+			}
+			n++
+		}
+	}
+	if n > 0 {
+		add("values.infinite", h, j, "store NaN for a value not known, or the finite value; import refuses infinities unless --allow-out-of-range",
+			"%s holds %d infinities (first at index %d: %v)", what, n, first, v[first])
+	}
+}
+
+func checkDecompositionInfinite(d *record.Decomposition, dh, dj string, add addFunc) {
+	figures := map[string]func(u *record.Unit) float64{
+		"silhouette": func(u *record.Unit) float64 { return u.Silhouette }, "pnr_db": func(u *record.Unit) float64 { return u.PNRdB },
+		"accuracy_pct": func(u *record.Unit) float64 { return u.AccuracyPct }, "isi_cov": func(u *record.Unit) float64 { return u.ISICoV },
+		"recruit_pct_mvc": func(u *record.Unit) float64 { return u.RecruitPctMVC }, "derecruit_pct_mvc": func(u *record.Unit) float64 { return u.DerecruitPctMVC },
+		"initial_rate_pps": func(u *record.Unit) float64 { return u.InitialRatePPS }, "mean_rate_pps": func(u *record.Unit) float64 { return u.MeanRatePPS },
+	}
+	names := make([]string, 0, len(figures))
+	for k := range figures {
+		names = append(names, k)
+	}
+	sort.Strings(names)
+	for _, name := range names {
+		v := make([]float64, len(d.Units))
+		for i := range d.Units {
+			v[i] = figures[name](&d.Units[i])
+		}
+		reportInfinite(v, dh+"/units/"+name, dj+"/units/"+name, "unit column "+name, add)
+	}
+	for _, c := range d.ExtraColumns {
+		reportInfinite(c.Values, dh+"/units/"+c.Name, dj+"/units/"+c.Name, "unit column "+c.Name, add)
+	}
+	if m := d.MUAPs; m != nil {
+		v := make([]float64, len(m.Data))
+		for i, x := range m.Data {
+			v[i] = float64(x)
+		}
+		reportInfinite(v, dh+"/muaps", dj+"/muaps", "MUAP templates", add)
+	}
 }

@@ -294,3 +294,26 @@ func TestSeverityJSON(t *testing.T) {
 		t.Fatal("unknown severity accepted")
 	}
 }
+
+// Stored infinities are reported where they are (an import with
+// --allow-out-of-range can store them; NaN stays "not known" and silent).
+func TestStoredInfinities(t *testing.T) {
+	r := goodRecording()
+	r.Trials[0].Force.Values[7] = math.Inf(1)
+	r.Trials[0].Force.Values[9] = math.Inf(-1)
+	unitOf(r, 1).PNRdB = math.Inf(1)
+	unitOf(r, 2).Silhouette = math.NaN()
+	var got []string
+	for _, f := range CheckRecording(r, DefaultRules()) {
+		if f.Check == "values.infinite" {
+			got = append(got, f.HDF5Path+": "+f.Message)
+		}
+	}
+	want := []string{
+		"/trials/" + r.Trials[0].Name + "/force: force holds 2 infinities (first at index 7: +Inf)",
+		"/trials/" + r.Trials[0].Name + "/arrays/" + r.Trials[0].Arrays[0].Name + "/decompositions/" + r.Trials[0].Arrays[0].Decompositions[0].Name + "/units/pnr_db: unit column pnr_db holds 1 infinities (first at index 1: +Inf)",
+	}
+	if strings.Join(got, "\n") != strings.Join(want, "\n") {
+		t.Fatalf("got\n%s\nwant\n%s", strings.Join(got, "\n"), strings.Join(want, "\n"))
+	}
+}
