@@ -34,7 +34,7 @@ type ExportOptions struct {
 }
 
 // ExportKinds lists what Export can write.
-var ExportKinds = []string{"signals", "discharges", "units", "metadata"}
+var ExportKinds = []string{"signals", "discharges", "units", "muaps", "history", "metadata"}
 
 // Export writes the chosen parts of a muarc file as text and returns the
 // files written. Every number is written with the shortest digits that read
@@ -153,8 +153,34 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 					}
 				}
 			}
+		case "muaps":
+			if opt.Format == "json" {
+				return out, fmt.Errorf("MUAP templates are exported as csv or tsv, not json")
+			}
+			for ti := range rec.Trials {
+				t := &rec.Trials[ti]
+				for ai := range t.Arrays {
+					a := &t.Arrays[ai]
+					for di := range a.Decompositions {
+						d := &a.Decompositions[di]
+						if d.MUAPs == nil {
+							continue
+						}
+						if err := emit(t.Name+"/muaps_"+a.Name+"_"+d.Name+ext, func(w *bufio.Writer) error { return writeMUAPs(w, a, d, delim) }); err != nil {
+							return out, err
+						}
+					}
+				}
+			}
+		case "history":
+			if opt.Format == "json" {
+				continue // metadata.json holds the history
+			}
+			if err := emit("history"+ext, func(w *bufio.Writer) error { return writeHistory(w, rec.Provenance.History, delim) }); err != nil {
+				return out, err
+			}
 		default:
-			return out, fmt.Errorf("--what %q: want signals, discharges, units or metadata", k)
+			return out, fmt.Errorf("--what %q: want signals, discharges, units, muaps, history or metadata", k)
 		}
 	}
 	return out, nil

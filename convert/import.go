@@ -7,12 +7,10 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
 	"regexp"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -33,6 +31,10 @@ type Inputs struct {
 	EMG        []string
 	Discharges []string
 	Units      []string
+	// MUAPs are MUAP template tables and History a history table, as
+	// muarc export writes them (optional).
+	MUAPs   []string
+	History string
 	// Profile is the mapping profile; nil = DefaultProfile.
 	Profile *Profile
 	// DType forces the EMG sample type ("" = decide by the digits written).
@@ -90,6 +92,8 @@ type Plan struct {
 type input struct {
 	path, rel, role  string
 	trial, array, dc string
+	// notes say how a name not given by the template was decided.
+	notes []string
 }
 
 // Read runs the first pass over every input of one recording and builds the
@@ -155,26 +159,35 @@ func Read(in Inputs) (*Plan, error) {
 		}
 		return it
 	}
-	sopt := prof.signalOptions()
-	if in.RateHz > 0 {
-		sopt.RateHz = in.RateHz
-	}
-	sopt.AllowGaps = sopt.AllowGaps || in.AllowGaps
-	if in.DType != "" {
-		sopt.DType = in.DType
+	// Reading options per role: the profile's signals section, the role's
+	// own members over it, then the command line's overrides.
+	roleOpt := func(role string) SignalOptions {
+		o := prof.readingFor(role)
+		if in.RateHz > 0 {
+			o.RateHz = in.RateHz
+		}
+		o.AllowGaps = o.AllowGaps || in.AllowGaps
+		if in.DType != "" {
+			o.DType = in.DType
+		}
+		return o
 	}
 	for _, p := range in.Force {
 		it := name(p, prof.Files.Force, nil, "force")
 		files = append(files, it)
-		if err := pl.force(it, sopt, prof); err != nil {
+		if err := pl.force(it, roleOpt("force"), prof); err != nil {
 			return nil, err
 		}
 	}
 	var arrays []string
 	for _, p := range in.EMG {
 		it := name(p, prof.Files.EMG, nil, "emg")
-		if it.array == "" {
+		if it.array == "" && IsEDF(p) {
 			it.array = strings.TrimSuffix(strings.TrimPrefix(filepath.Base(p), "emg_"), filepath.Ext(p))
+		} else if it.array == "" {
+			if err := pl.arrayForUnnamed(&it, len(in.EMG), prof); err != nil {
+				return nil, err
+			}
 		}
 		arrays = append(arrays, it.array)
 		files = append(files, it)
@@ -185,7 +198,7 @@ func Read(in Inputs) (*Plan, error) {
 			}
 			continue
 		}
-		o := sopt
+		o := roleOpt("emg")
 		o.Unit = prof.EMG.Unit
 		o.Skip, o.Rename = prof.EMG.Skip, prof.EMG.Columns
 		if err := pl.emg(it, o, prof); err != nil {
@@ -193,10 +206,13 @@ func Read(in Inputs) (*Plan, error) {
 			return nil, err
 		}
 	}
-	for _, role := range []string{"discharges", "units"} {
+	for _, role := range []string{"discharges", "units", "muaps"} {
 		list, tmpl := in.Discharges, prof.Files.Discharges
-		if role == "units" {
+		switch role {
+		case "units":
 			list, tmpl = in.Units, prof.Files.Units
+		case "muaps":
+			list, tmpl = in.MUAPs, prof.Files.MUAPs
 		}
 		for _, p := range list {
 			it := name(p, tmpl, arrays, role)
@@ -208,19 +224,27 @@ func Read(in Inputs) (*Plan, error) {
 				it.array = arrays[0]
 			}
 			if it.dc == "" {
-				it.dc = "imported"
+				if err := pl.decompositionForUnnamed(&it, tmpl); err != nil {
+					pl.Close()
+					return nil, err
+				}
 			}
 			files = append(files, it)
 			var err error
-			if role == "discharges" {
+			switch role {
+			case "discharges":
 				err = pl.discharges(it, prof)
-			} else {
+			case "units":
 				err = pl.units(it, prof)
+			default:
+				err = pl.muaps(it, prof)
 			}
 			if err != nil {
 				pl.Close()
 				return nil, err
 			}
+			last := &pl.Report.Files[len(pl.Report.Files)-1]
+			last.Notes = append(it.notes, last.Notes...)
 		}
 	}
 	if err := pl.finish(); err != nil {
@@ -243,6 +267,22 @@ func Read(in Inputs) (*Plan, error) {
 			return nil, err
 		}
 		rec.Provenance.Sources = append(rec.Provenance.Sources, sf)
+	}
+	if in.History != "" {
+		// The steps before this import, as an export wrote them.
+		h, err := ReadHistory(in.History)
+		if err != nil {
+			pl.Close()
+			return nil, err
+		}
+		rec.Provenance.History = append(h, rec.Provenance.History...)
+		sf, err := sourceFile(in.History, rel(in.History), "history")
+		if err != nil {
+			pl.Close()
+			return nil, err
+		}
+		rec.Provenance.Sources = append(rec.Provenance.Sources, sf)
+		rep.Files = append(rep.Files, FileReport{Name: rel(in.History), Role: "history", Notes: []string{fmt.Sprintf("%d earlier steps of the history kept", len(h))}})
 	}
 	details, _ := json.Marshal(map[string]any{"profile": prof.Name, "report": rep})
 	rec.Provenance.History = append(rec.Provenance.History, record.Operation{Action: "import", Software: schema.Software, Time: time.Now().UTC(), Details: string(details)})
@@ -270,163 +310,6 @@ func sourceFile(path, rel, role string) (record.SourceFile, error) {
 		return record.SourceFile{}, err
 	}
 	return record.SourceFile{Name: rel, Role: role, SHA256: hex.EncodeToString(h.Sum(nil)), Bytes: n}, nil
-}
-
-func (pl *Plan) force(it input, opt SignalOptions, prof *Profile) error {
-	opt.DType = record.Float64
-	s, err := ScanSignals(it.path, opt)
-	if err != nil {
-		return err
-	}
-	cols, err := s.Columns()
-	if err != nil {
-		return err
-	}
-	t := trialNamed(pl.Rec, it.trial)
-	fi, ti := -1, -1
-	for i, l := range s.Labels {
-		switch {
-		case prof.Force.TargetColumn != "" && strings.EqualFold(l, prof.Force.TargetColumn),
-			prof.Force.TargetColumn == "" && strings.Contains(strings.ToLower(l), "target"):
-			ti = i
-		case prof.Force.Column != "" && strings.EqualFold(l, prof.Force.Column), prof.Force.Column == "" && fi < 0:
-			fi = i
-		default:
-			return perr(it.path, s.lay.headerLine, i+1, "a force file holds a force column and optionally a target column; name them in the profile (force.column, force.target_column)", "column %q is neither the force nor the target", l)
-		}
-	}
-	if fi < 0 {
-		return perr(it.path, s.lay.headerLine, 0, "name the force column in the profile (force.column)", "no force column")
-	}
-	unit := func(i int) string {
-		if s.Units[i] != "" {
-			return s.Units[i]
-		}
-		return prof.Force.Unit
-	}
-	t.Force = record.Signal{SamplingRateHz: s.RateHz, StartS: s.StartS, Unit: unit(fi), Values: cols[fi]}
-	if ti >= 0 {
-		t.ForceTarget = record.Signal{SamplingRateHz: s.RateHz, StartS: s.StartS, Unit: unit(ti), Values: cols[ti]}
-	}
-	if t.MVCUnit == "" {
-		t.MVCUnit = t.Force.Unit
-	}
-	if err := checkCount(s, "samples", s.Samples); err != nil {
-		return err
-	}
-	for k, v := range MetaExtra(dropKeys(s.Meta, "samples")) {
-		if t.Extra == nil {
-			t.Extra = record.Extra{}
-		}
-		t.Extra["force_"+k] = v
-	}
-	fr := FileReport{Name: it.rel, Role: "force", Trial: t.Name, Delimiter: DelimiterName(s.Dialect.Delimiter), Rows: s.Rows,
-		RateHz: s.RateHz, JitterS: s.JitterS, Gaps: s.Gaps, DType: "float64", DTypeWhy: "force traces are kept as float64", Notes: s.Notes}
-	pl.Report.Files = append(pl.Report.Files, fr)
-	return nil
-}
-
-func dropKeys(meta []MetaLine, keys ...string) []MetaLine {
-	var out []MetaLine
-	for _, m := range meta {
-		drop := false
-		for _, k := range keys {
-			drop = drop || normKey(m.Key) == k
-		}
-		if !drop {
-			out = append(out, m)
-		}
-	}
-	return out
-}
-
-// checkCount compares a "samples: N" or "channels: N" line with the table.
-func checkCount(s *Signals, key string, want int) error {
-	v := metaValue(s.Meta, key)
-	if v == "" {
-		return nil
-	}
-	if v != fmt.Sprint(want) {
-		return perr(s.File, metaLineOf(s.Meta, key), 0, "the file may be cut short or padded; check it", "the line above the table says %s: %s but the table has %d", key, v, want)
-	}
-	return nil
-}
-
-func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
-	s, err := ScanSignals(it.path, opt)
-	if err != nil {
-		return err
-	}
-	t := trialNamed(pl.Rec, it.trial)
-	a := arrayNamed(t, it.array)
-	if a.SamplingRateHz > 0 && math.Abs(a.SamplingRateHz-s.RateHz) > 1e-9*s.RateHz {
-		return perr(it.path, 0, 0, "fix the rate in the metadata or in the EMG file", "EMG rate %g Hz, the metadata says %g Hz for array %s", s.RateHz, a.SamplingRateHz, a.Name)
-	}
-	a.SamplingRateHz, a.StartS = s.RateHz, s.StartS
-	unit := ""
-	for i, u := range s.Units {
-		if i > 0 && u != unit {
-			return perr(it.path, s.lay.headerLine, i+2, "all EMG channels of one array share one unit", "unit %q differs from %q", u, unit)
-		}
-		unit = u
-	}
-	if unit != "" {
-		if a.Unit != "" && a.Unit != unit {
-			return perr(it.path, s.lay.headerLine, 0, "fix the unit in the metadata or in the header", "EMG unit %q, the metadata says %q", unit, a.Unit)
-		}
-		a.Unit = unit
-	}
-	if v := metaValue(s.Meta, "array"); v != "" && v != a.Name {
-		return perr(it.path, metaLineOf(s.Meta, "array"), 0, "the file name and the array line above the table must agree", "file says array %q, its name gives %q", v, a.Name)
-	}
-	if v := metaValue(s.Meta, "muscle"); v != "" && a.Muscle == "" {
-		a.Muscle = v
-	}
-	if err := checkCount(s, "samples", s.Samples); err != nil {
-		return err
-	}
-	if err := checkCount(s, "channels", len(s.Labels)); err != nil {
-		return err
-	}
-	for k, v := range MetaExtra(dropKeys(s.Meta, "samples", "channels", "array", "muscle")) {
-		if a.Extra == nil {
-			a.Extra = record.Extra{}
-		}
-		if _, ok := a.Extra[k]; !ok {
-			a.Extra[k] = v
-		}
-	}
-	// Channels: the metadata's (matched by label) or new ones.
-	if len(a.Channels) > 0 {
-		if len(a.Channels) != len(s.Labels) {
-			return perr(it.path, s.lay.headerLine, 0, "the metadata's channel list and the EMG columns must match", "%d EMG columns, the metadata lists %d channels", len(s.Labels), len(a.Channels))
-		}
-		for i, l := range s.Labels {
-			if a.Channels[i].Label != l {
-				return perr(it.path, s.lay.headerLine, i+2, "list the channels in the metadata in the order of the EMG columns", "column %q, the metadata's channel %d is %q", l, i+1, a.Channels[i].Label)
-			}
-		}
-	} else {
-		for _, l := range s.Labels {
-			a.Channels = append(a.Channels, record.Channel{Label: l, Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true})
-		}
-		if len(prof.EMG.Channels) == 0 {
-			s.Notes = append(s.Notes, "no grid positions given (metadata or profile): channels are not on the grid")
-		}
-	}
-	placeChannels(a.Channels, prof.EMG.Channels)
-	a.SampleType = s.DType
-	src := s.Source()
-	a.Samples = src
-	pl.sources = append(pl.sources, src)
-	pl.sigs = append(pl.sigs, s)
-	pl.reportIdx = append(pl.reportIdx, len(pl.Report.Files))
-	pl.arrays = append(pl.arrays, [2]string{t.Name, a.Name})
-	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, Array: a.Name, Delimiter: DelimiterName(s.Dialect.Delimiter), Rows: s.Rows,
-		Channels: len(s.Labels), RateHz: s.RateHz, Gaps: s.Gaps, DType: string(s.DType), DTypeWhy: s.DTypeWhy,
-		LossyCells: s.LossyCells, MaxAbsError: s.MaxAbsError, Notes: s.Notes}
-	pl.Report.Files = append(pl.Report.Files, fr)
-	return nil
 }
 
 func (pl *Plan) arrayOf(it input) (*record.Array, error) {
@@ -483,8 +366,10 @@ func (pl *Plan) units(it input, prof *Profile) error {
 	if err != nil {
 		return err
 	}
-	d, _ := ParseDelimiter(prof.Signals.Delimiter)
-	ut, err := ReadUnitTable(it.path, UnitTableOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: prof.Signals.DecimalComma}, Columns: prof.Units.Columns})
+	// Unit tables have their own dialect (units.delimiter, units.decimal_comma);
+	// the signal files' settings do not apply to them.
+	d, _ := ParseDelimiter(prof.Units.Delimiter)
+	ut, err := ReadUnitTable(it.path, UnitTableOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: prof.Units.DecimalComma}, Columns: prof.Units.Columns, AllowOutOfRange: prof.Signals.AllowOutOfRange})
 	if err != nil {
 		return err
 	}
@@ -577,6 +462,10 @@ func (pl *Plan) finish() error {
 			}
 			for di := range a.Decompositions {
 				d := &a.Decompositions[di]
+				if len(d.Units) == 0 {
+					return &ParseError{Msg: fmt.Sprintf("trial %q array %q: decomposition %q is in the metadata but no discharge or unit file was read for it", t.Name, a.Name, d.Name),
+						Hint: "give its files (--discharges, --units; a profile template with {decomposition}), or remove it from the metadata"}
+				}
 				for ci := range d.ExtraColumns {
 					c := &d.ExtraColumns[ci]
 					for len(c.Values) > 0 && len(c.Values) < len(d.Units) {
@@ -650,124 +539,6 @@ func ImportRecording(in Inputs, out string, opt recfile.WriteOptions) (*Report, 
 		return pl.Report, err
 	}
 	return pl.Report, nil
-}
-
-// StudyRecording is one recording folder of a study with its inputs.
-type StudyRecording struct {
-	// Name is the folder's path relative to the study folder; the output
-	// file is <Name>.h5 with '/' turned into '_'.
-	Name   string
-	Inputs Inputs
-}
-
-// FindRecordings lists the recording folders under dir that the profile
-// describes, with each one's files matched to roles. A folder is a
-// recording when it holds the profile's metadata file (or matches
-// Profile.Recordings).
-func FindRecordings(dir string, prof *Profile) ([]StudyRecording, error) {
-	if prof == nil {
-		prof = DefaultProfile()
-	}
-	var folders []string
-	if prof.Recordings != "" {
-		m, err := filepath.Glob(filepath.Join(dir, prof.Recordings))
-		if err != nil {
-			return nil, err
-		}
-		for _, f := range m {
-			if st, err := os.Stat(f); err == nil && st.IsDir() {
-				folders = append(folders, f)
-			}
-		}
-	} else {
-		err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				return err
-			}
-			if !d.IsDir() && filepath.ToSlash(d.Name()) == filepath.Base(prof.Files.Metadata) {
-				root := filepath.Dir(p)
-				if strings.Contains(prof.Files.Metadata, "/") {
-					root = filepath.Clean(strings.TrimSuffix(p, filepath.FromSlash(prof.Files.Metadata)))
-				}
-				folders = append(folders, root)
-			}
-			return nil
-		})
-		if err != nil {
-			return nil, err
-		}
-	}
-	sort.Strings(folders)
-	var out []StudyRecording
-	for _, f := range folders {
-		r, err := MatchRecording(f, prof)
-		if err != nil {
-			return nil, err
-		}
-		name, _ := filepath.Rel(dir, f)
-		out = append(out, StudyRecording{Name: filepath.ToSlash(name), Inputs: r})
-	}
-	return out, nil
-}
-
-// MatchRecording matches the files of one recording folder to roles by the
-// profile's templates.
-func MatchRecording(dir string, prof *Profile) (Inputs, error) {
-	in := Inputs{Dir: dir, Profile: prof}
-	var rels []string
-	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
-		if err != nil {
-			return err
-		}
-		if !d.IsDir() {
-			r, _ := filepath.Rel(dir, p)
-			rels = append(rels, filepath.ToSlash(r))
-		}
-		return nil
-	})
-	if err != nil {
-		return in, err
-	}
-	sort.Strings(rels)
-	reF, _ := compileTemplate(prof.Files.Force, nil)
-	reE, _ := compileTemplate(prof.Files.EMG, nil)
-	reD0, _ := compileTemplate(prof.Files.Discharges, nil)
-	reU0, _ := compileTemplate(prof.Files.Units, nil)
-	var arrays, rest []string
-	for _, r := range rels {
-		p := filepath.Join(dir, filepath.FromSlash(r))
-		switch {
-		case r == prof.Files.Metadata:
-			in.Meta = p
-		case matches(reF, r):
-			in.Force = append(in.Force, p)
-		case matches(reD0, r), matches(reU0, r):
-			rest = append(rest, r) // named once the arrays are known
-		case matches(reE, r):
-			in.EMG = append(in.EMG, p)
-			m, _ := matchTemplate(reE, r)
-			arrays = append(arrays, m["array"])
-		default:
-			in.Unmatched = append(in.Unmatched, r)
-		}
-	}
-	reD, _ := compileTemplate(prof.Files.Discharges, arrays)
-	reU, _ := compileTemplate(prof.Files.Units, arrays)
-	for _, r := range rest {
-		p := filepath.Join(dir, filepath.FromSlash(r))
-		switch {
-		case matches(reD, r):
-			in.Discharges = append(in.Discharges, p)
-		case matches(reU, r):
-			in.Units = append(in.Units, p)
-		default:
-			in.Unmatched = append(in.Unmatched, r)
-		}
-	}
-	if len(in.EMG) == 0 && len(in.Force) == 0 {
-		return in, &ParseError{File: dir, Msg: "no force or EMG files match the profile", Hint: fmt.Sprintf("the profile expects %s and %s", prof.Files.Force, prof.Files.EMG)}
-	}
-	return in, nil
 }
 
 func matches(re *regexp.Regexp, s string) bool {

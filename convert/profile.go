@@ -43,6 +43,10 @@ type ProfileFiles struct {
 	EMG        string `yaml:"emg" json:"emg"`
 	Discharges string `yaml:"discharges" json:"discharges"`
 	Units      string `yaml:"units" json:"units"`
+	// MUAPs and History are the files muarc export writes beside them:
+	// MUAP templates per decomposition and the recording's history.
+	MUAPs   string `yaml:"muaps" json:"muaps"`
+	History string `yaml:"history" json:"history"`
 }
 
 // ProfileSignals are the reading options of force and EMG files.
@@ -65,6 +69,8 @@ type ProfileForce struct {
 	Column       string `yaml:"column" json:"column"`
 	TargetColumn string `yaml:"target_column" json:"target_column"`
 	Unit         string `yaml:"unit" json:"unit"`
+	// Reading options of force files only, over the signals section.
+	ProfileReading `yaml:",inline"`
 }
 
 // ProfileEMG gives the EMG unit and channel positions.
@@ -76,6 +82,8 @@ type ProfileEMG struct {
 	Columns map[string]string `yaml:"columns" json:"columns"`
 	// Skip lists EMG columns that are not channels (trigger, auxiliary).
 	Skip []string `yaml:"skip" json:"skip"`
+	// Reading options of EMG files only, over the signals section.
+	ProfileReading `yaml:",inline"`
 }
 
 // ChannelPlace is a channel's grid position (0-based), electrode centre in
@@ -107,6 +115,8 @@ type ProfileDischarges struct {
 // ProfileUnits maps unit-table headers to layout fields.
 type ProfileUnits struct {
 	Columns map[string]string `yaml:"columns" json:"columns"`
+	// The unit tables' own dialect ("" = detect).
+	ProfileTableReading `yaml:",inline"`
 }
 
 //go:embed default-profile.yaml
@@ -150,19 +160,29 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 		return nil, err
 	}
 	def := Profile{Files: ProfileFiles{Metadata: "metadata.json", Force: "{trial}/force.csv", EMG: "{trial}/emg_{array}.csv",
-		Discharges: "{trial}/discharges_{array}_{decomposition}.csv", Units: "{trial}/units_{array}_{decomposition}.csv"}}
+		Discharges: "{trial}/discharges_{array}_{decomposition}.csv", Units: "{trial}/units_{array}_{decomposition}.csv",
+		MUAPs: "{trial}/muaps_{array}_{decomposition}.csv", History: "history.csv"}}
 	f := &p.Files
 	for _, x := range []struct {
 		dst *string
 		def string
 	}{{&f.Metadata, def.Files.Metadata}, {&f.Force, def.Files.Force},
-		{&f.EMG, def.Files.EMG}, {&f.Discharges, def.Files.Discharges}, {&f.Units, def.Files.Units}} {
+		{&f.EMG, def.Files.EMG}, {&f.Discharges, def.Files.Discharges}, {&f.Units, def.Files.Units},
+		{&f.MUAPs, def.Files.MUAPs}, {&f.History, def.Files.History}} {
 		if *x.dst == "" {
 			*x.dst = x.def
 		}
 	}
 	if _, err := ParseDelimiter(p.Signals.Delimiter); err != nil {
 		return nil, &ParseError{File: path, Msg: "profile: signals: " + err.Error(), Hint: "see convert/PROFILES.md"}
+	}
+	for role, r := range map[string]*ProfileReading{"force": &p.Force.ProfileReading, "emg": &p.EMG.ProfileReading} {
+		if err := r.check(role); err != nil {
+			return nil, &ParseError{File: path, Msg: "profile: " + err.Error(), Hint: "see convert/PROFILES.md"}
+		}
+	}
+	if _, err := ParseDelimiter(p.Units.Delimiter); err != nil {
+		return nil, &ParseError{File: path, Msg: "profile: units: " + err.Error(), Hint: "see convert/PROFILES.md"}
 	}
 	switch p.Signals.DType {
 	case "", "float32", "float64":
@@ -197,7 +217,7 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 			return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: units: column %q maps to unknown field %q", h, fld), Hint: "fields: id, silhouette, pnr_db, accuracy_pct, isi_cov, recruit_pct_mvc, derecruit_pct_mvc, initial_rate_pps, mean_rate_pps"}
 		}
 	}
-	for _, t := range []string{f.Force, f.EMG, f.Discharges, f.Units} {
+	for _, t := range []string{f.Force, f.EMG, f.Discharges, f.Units, f.MUAPs} {
 		if _, err := compileTemplate(t, nil); err != nil {
 			return nil, &ParseError{File: path, Msg: "profile: files: " + err.Error(), Hint: "use {trial}, {array} and {decomposition} in file templates"}
 		}

@@ -153,6 +153,10 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 		t.Profile = record.ForceProfile{Shape: str(m, "profile_shape"), RestS: num(m, "rest_s"), RampUpS: num(m, "ramp_up_s"),
 			PlateauS: num(m, "plateau_s"), RampDownS: num(m, "ramp_down_s")}
 		t.Notes = str(m, "notes")
+		if fm, ok := m["force"].(map[string]any); ok {
+			// The force trace's rate and start: defaults for its file.
+			t.Force.SamplingRateHz, t.Force.StartS = num0(fm, "sampling_rate_hz"), num0(fm, "start_s")
+		}
 		t.Extra = extras(m, "name", "task", "target_pct_mvc", "mvc", "mvc_unit", "profile_shape", "rest_s", "ramp_up_s", "plateau_s", "ramp_down_s", "notes", "force", "force_target", "arrays")
 		arrays, _ := m["arrays"].([]any)
 		for _, av := range arrays {

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
 	"path/filepath"
 	"strings"
 
@@ -19,7 +18,7 @@ import (
 
 type importFlags struct {
 	meta, profile, out, dtype, shard, shardReport string
-	force, emg, dis, units                        []string
+	force, emg, dis, units, read                  []string
 	overwrite, json, allowGaps, allowRange        bool
 	rate                                          float64
 	workers                                       int
@@ -77,6 +76,7 @@ file is which and how to read it.`,
 	f.StringVar(&fl.shard, "shard", "", "study form: import only part i of n (i/n)")
 	f.StringVar(&fl.shardReport, "shard-report", "", "study form: also write this run's shard report (muarc-shard-report JSON) to `FILE`, for muarc merge-reports")
 	f.IntVar(&fl.workers, "workers", 0, "study form: recordings imported at once (0 = one per core)")
+	f.StringArrayVar(&fl.read, "read", nil, "a reading option for one file role, ROLE.MEMBER=VALUE as in a profile (repeat): e.g. emg.rate_hz=2048, force.time_column=none, units.delimiter=semicolon")
 	f.StringVar(&fl.delimiter, "delimiter", "", "signal files: auto, comma, semicolon, tab or whitespace")
 	f.StringVar(&fl.decimalComma, "decimal-comma", "", "signal files: auto, yes or no")
 	f.StringVar(&fl.header, "header", "", "signal files: auto, yes or no")
@@ -148,89 +148,8 @@ func runImport(w io.Writer, fl importFlags, args []string) error {
 	if fl.json {
 		return printJSON(w, rep)
 	}
-	printReport(w, rep)
+	rep.WriteText(w)
 	return nil
-}
-
-func printReport(w io.Writer, rep *convert.Report) {
-	fmt.Fprintf(w, "wrote %s\n", rep.Output)
-	for _, f := range rep.Files {
-		where := strings.Trim(strings.Join([]string{f.Trial, f.Array, f.Decomposition}, "/"), "/")
-		fmt.Fprintf(w, "  %-10s %s", f.Role, f.Name)
-		if where != "" {
-			fmt.Fprintf(w, " -> %s", where)
-		}
-		switch f.Role {
-		case "emg":
-			fmt.Fprintf(w, ": %d rows x %d channels, %g Hz, %s", f.Rows, f.Channels, f.RateHz, f.DTypeWhy)
-			if f.JitterS > 0 {
-				fmt.Fprintf(w, "; time jitter %.3g s", f.JitterS)
-			}
-		case "force":
-			fmt.Fprintf(w, ": %d rows, %g Hz", f.Rows, f.RateHz)
-		case "discharges":
-			fmt.Fprintf(w, ": %d units, %d discharges", f.Units, f.Discharges)
-		case "units":
-			fmt.Fprintf(w, ": %d units", f.Units)
-		}
-		fmt.Fprintln(w)
-		for _, n := range f.Notes {
-			fmt.Fprintf(w, "      %s\n", n)
-		}
-	}
-	for _, n := range rep.Notes {
-		fmt.Fprintf(w, "  note: %s\n", n)
-	}
-}
-
-// studyResult is one recording's outcome in the study form.
-type studyResult struct {
-	Recording string          `json:"recording"`
-	Output    string          `json:"output,omitempty"`
-	Report    *convert.Report `json:"report,omitempty"`
-	Error     string          `json:"error,omitempty"`
-	err       error
-}
-
-// importStudyDir imports every recording of a study folder into outDir and
-// returns the results in order (used by the command and the demo).
-func importStudyDir(src, outDir string, prof *convert.Profile, dtype record.SampleType, shard batch.Shard, workers int, overwrite bool, label string) ([]studyResult, error) {
-	recs, err := convert.FindRecordings(src, prof)
-	if err != nil {
-		return nil, err
-	}
-	if len(recs) == 0 {
-		return nil, fmt.Errorf("%s: no recording folders found (each needs its metadata file, see the profile)", src)
-	}
-	byName := map[string]convert.StudyRecording{}
-	var names []string
-	for _, r := range recs {
-		byName[r.Name] = r
-		names = append(names, r.Name)
-	}
-	names = shard.Select(names)
-	if err := os.MkdirAll(outDir, 0o755); err != nil {
-		return nil, err
-	}
-	atomicfile.CleanDir(outDir) // what killed runs left
-	res := make([]studyResult, len(names))
-	bar := newProgress(label, int64(len(names)))
-	batch.Run(len(names), workers, func(i int) error {
-		r := byName[names[i]]
-		r.Inputs.DType = dtype
-		out := filepath.Join(outDir, strings.ReplaceAll(r.Name, "/", "_")+".h5")
-		res[i] = studyResult{Recording: r.Name}
-		rep, err := convert.ImportRecording(r.Inputs, out, recfile.WriteOptions{Overwrite: overwrite})
-		res[i].Report = rep
-		if err != nil {
-			res[i].Error, res[i].err = err.Error(), err
-			return err
-		}
-		res[i].Output = out
-		return nil
-	}, func(int, error) { bar.Add(1) })
-	bar.Finish()
-	return res, nil
 }
 
 func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile, dtype record.SampleType) error {
@@ -238,10 +157,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 	if err != nil {
 		return withExit(2, err)
 	}
-	if st, err := os.Stat(src); err != nil || !st.IsDir() {
-		return withExit(2, fmt.Errorf("%s: not a folder", src))
-	}
-	res, err := importStudyDir(src, fl.out, prof, dtype, shard, fl.workers, fl.overwrite, "import")
+	res, err := importStudyDir(src, fl.out, convert.StudyOptions{Profile: prof, DType: dtype, Shard: shard, Workers: fl.workers, Overwrite: fl.overwrite}, "import")
 	if err != nil {
 		return withExit(2, err)
 	}
@@ -268,7 +184,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 				fmt.Fprintf(w, "FAILED %s: %s\n", r.Recording, r.Error)
 				continue
 			}
-			printReport(w, r.Report)
+			r.Report.WriteText(w)
 		}
 		if len(failed) > 0 {
 			fmt.Fprintf(w, "%d of %d recordings failed: %s\n", len(failed), len(res), strings.Join(failed, ", "))
@@ -278,7 +194,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 	}
 	for _, r := range res {
 		var ns *atomicfile.NoSpaceError
-		if errors.As(r.err, &ns) {
+		if errors.As(r.Err, &ns) {
 			return withExit(2, ns)
 		}
 	}
@@ -307,7 +223,7 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 		return nil
 	}
 	if _, err := convert.ParseDelimiter(fl.delimiter); err != nil {
-		return err
+		return fmt.Errorf("--%s", err)
 	}
 	for _, e := range []error{
 		set("delimiter", &p.Signals.Delimiter, fl.delimiter),
@@ -335,6 +251,11 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 		return fmt.Errorf("--first-index %d: want 0 or 1", fl.firstIndex)
 	}
 	p.Signals.AllowOutOfRange = p.Signals.AllowOutOfRange || fl.allowRange
+	for _, r := range fl.read {
+		if err := p.SetReading(r); err != nil {
+			return err
+		}
+	}
 	if fl.tolerance < 0 {
 		return fmt.Errorf("--tolerance %g: want a positive number of samples", fl.tolerance)
 	}
@@ -342,4 +263,16 @@ func overrideProfile(p *convert.Profile, fl importFlags) error {
 		p.Discharges.ToleranceSamples = fl.tolerance
 	}
 	return nil
+}
+
+// importStudyDir runs convert.ImportStudy with a progress bar (the command
+// and the demo).
+func importStudyDir(src, outDir string, opt convert.StudyOptions, label string) ([]convert.StudyResult, error) {
+	bar := newProgress(label, 0)
+	opt.Progress = func(done, total int) {
+		bar.total = int64(total)
+		bar.Add(int64(done) - bar.done)
+	}
+	defer bar.Finish()
+	return convert.ImportStudy(src, outDir, opt)
 }

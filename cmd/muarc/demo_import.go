@@ -6,7 +6,6 @@ import (
 	"strings"
 
 	"muarc/convert"
-	"muarc/internal/batch"
 )
 
 func init() {
@@ -17,7 +16,7 @@ func init() {
 // recording under ctx.ExportsDir) into muarc files in ctx.RecordingsDir with
 // the built-in profile, as `muarc import EXPORTS -o RECORDINGS` would.
 func demoImport(ctx *demoContext) error {
-	res, err := importStudyDir(ctx.ExportsDir, ctx.RecordingsDir, convert.DefaultProfile(), "", batch.All, 0, true, "import")
+	res, err := importStudyDir(ctx.ExportsDir, ctx.RecordingsDir, convert.StudyOptions{Profile: convert.DefaultProfile(), Overwrite: true}, "import")
 	if err != nil {
 		return err
 	}
