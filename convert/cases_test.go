@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"runtime"
 	"strconv"
 	"strings"
 	"testing"
@@ -233,5 +234,86 @@ func TestUnitTableQuotedCells(t *testing.T) {
 		if pe := AsParseError(err); pe == nil || pe.Line != 2 || pe.Column != 2 || !strings.Contains(pe.Msg, bad.msg) {
 			t.Errorf("%q: %v", bad.text, err)
 		}
+	}
+}
+
+// A sidecar nested 40,000 deep (an 80 KB file) took about 1.7 GB before it
+// was refused; now it is refused at the stated depth having allocated far
+// less than 64 MiB (runtime.MemStats.TotalAlloc bounds the peak).
+func TestSidecarNestingBounded(t *testing.T) {
+	for _, c := range []struct{ name, text string }{
+		{"deep.json", `{"study": ` + strings.Repeat("[", 40000) + strings.Repeat("]", 40000) + "}"},
+		{"deep.yaml", "study: " + strings.Repeat("[", 40000) + strings.Repeat("]", 40000) + "\n"},
+		{"deepmap.json", strings.Repeat(`{"a":`, 20000) + "1" + strings.Repeat("}", 20000)},
+	} {
+		p := writeTemp(t, c.name, c.text)
+		var before, after runtime.MemStats
+		runtime.GC()
+		runtime.ReadMemStats(&before)
+		_, err := ReadSidecar(p)
+		runtime.ReadMemStats(&after)
+		if err == nil || !strings.Contains(err.Error(), "nested deeper than 64 levels") {
+			t.Errorf("%s: %v", c.name, err)
+		}
+		if got := after.TotalAlloc - before.TotalAlloc; got > 64<<20 {
+			t.Errorf("%s: allocated %d MiB", c.name, got>>20)
+		}
+	}
+}
+
+// A headerless EMG file whose first column is time was stored with the time
+// as channel 1. Now a first column rising by one step on every row is time
+// only on conclusive evidence, else refused naming both readings.
+func TestHeaderlessFirstColumnTime(t *testing.T) {
+	rows := "0.000,5,6\n0.001,7,8\n0.002,9,1\n0.003,2,3\n"
+	_, err := scanText(t, rows, SignalOptions{RateHz: 1000})
+	pe := AsParseError(err)
+	if pe == nil || pe.Line != 1 || pe.Column != 1 || !strings.Contains(pe.Hint, "--time-column first") || !strings.Contains(pe.Hint, "--time-column none") {
+		t.Fatalf("got %v", err)
+	}
+	// "channels: 2" leaves the first column out and 0.001 s is one sample
+	// at 1000 Hz: time in seconds.
+	s, err := scanText(t, "channels: 2\n"+rows, SignalOptions{RateHz: 1000})
+	if err != nil || s.tcol != 0 || s.TimeUnit != "s" || len(s.Labels) != 2 || s.StartS != 0 {
+		t.Fatalf("%v %v", s, err)
+	}
+	// The same in ms at 500 Hz; at 1000 Hz a step of 1 is one sample in
+	// ms and in samples alike, so it is refused.
+	s, err = scanText(t, "channels: 2\nsampling rate: 500 Hz\n0,5,6\n2,7,8\n4,9,1\n", SignalOptions{})
+	if err != nil || s.TimeUnit != "ms" {
+		t.Fatalf("%v %v", s, err)
+	}
+	_, err = scanText(t, "channels: 2\nsampling rate: 1000 Hz\n0,5,6\n1,7,8\n2,9,1\n", SignalOptions{})
+	if pe := AsParseError(err); pe == nil || !strings.Contains(pe.Msg, "in ms and samples alike") {
+		t.Fatalf("%v", err)
+	}
+	// "channels: 3" counts it: a channel.
+	s, err = scanText(t, "channels: 3\n"+rows, SignalOptions{RateHz: 1000})
+	if err != nil || s.tcol != -1 || len(s.Labels) != 3 {
+		t.Fatalf("%v %v", s, err)
+	}
+	// Given: no question.
+	s, err = scanText(t, rows, SignalOptions{RateHz: 1000, TimeColumn: "none"})
+	if err != nil || len(s.Labels) != 3 {
+		t.Fatalf("%v %v", s, err)
+	}
+	s, err = scanText(t, rows, SignalOptions{RateHz: 1000, TimeColumn: "first", TimeUnit: "s"})
+	if err != nil || len(s.Labels) != 2 {
+		t.Fatalf("%v %v", s, err)
+	}
+	// A first column that does not step evenly is a channel.
+	s, err = scanText(t, "0.5,5\n0.2,7\n0.9,9\n", SignalOptions{RateHz: 1000})
+	if err != nil || len(s.Labels) != 2 {
+		t.Fatalf("%v %v", s, err)
+	}
+	// A time column whose header gives no unit: s, ms or samples by its
+	// step at the known rate, else refused (it was assumed to be seconds).
+	s, err = scanText(t, "sampling rate: 500 Hz\nZeit,a\n0,1\n2,2\n4,3\n", SignalOptions{TimeColumn: "Zeit"})
+	if err != nil || s.TimeUnit != "ms" {
+		t.Fatalf("%v %v", s, err)
+	}
+	_, err = scanText(t, "Zeit,a\n0,1\n2,2\n4,3\n", SignalOptions{TimeColumn: "Zeit"})
+	if pe := AsParseError(err); pe == nil || !strings.Contains(pe.Hint, "--time-unit") {
+		t.Fatalf("%v", err)
 	}
 }

@@ -103,9 +103,12 @@ type Signals struct {
 
 	lay        *layout
 	allowRange bool
-	cols       int
-	tcol       int
-	skip       []bool
+	// detectedUnit is the unit of a headerless time column decided by
+	// headerlessTime.
+	detectedUnit string
+	cols         int
+	tcol         int
+	skip         []bool
 
 	forced             record.SampleType
 	lossy32, lossy64   int64
@@ -184,6 +187,11 @@ func (s *Signals) columns(opt SignalOptions) error {
 	case "first":
 		s.tcol = 0
 	case "", "auto":
+		if lay.header == nil && s.cols >= 2 {
+			if err := s.headerlessTime(opt); err != nil {
+				return err
+			}
+		}
 		if lay.header != nil {
 			if _, ok := timeLabels[strings.ToLower(labels[0])]; ok {
 				s.tcol = 0
@@ -211,8 +219,10 @@ func (s *Signals) columns(opt SignalOptions) error {
 			unit = timeLabels[strings.ToLower(labels[s.tcol])]
 			why = "from the label " + strconv.Quote(labels[s.tcol])
 			if unit == "" {
-				unit = "s"
-				why = "assumed: the time column has no unit"
+				var err error
+				if unit, why, err = s.timeUnitFromRate(opt); err != nil {
+					return err
+				}
 			}
 		}
 		switch unit {

@@ -3,6 +3,7 @@ package convert
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 )
 
@@ -190,4 +191,132 @@ func rateChoices(err error) string {
 		return "give the rate: --rate R (all signal files) or --read emg.rate_hz=R / --read force.rate_hz=R, or sampling_rate_hz in the metadata"
 	}
 	return "give the rate with --rate R (or --read ROLE.rate_hz=R, or sampling_rate_hz in the metadata); the time column is then checked against it to within half a sample"
+}
+
+// firstColumnSteps reads the first column of up to 64 rows: it looks like
+// time when it rises by the same step (to the digits written) on every
+// row, over at least 3 rows.
+func (s *Signals) firstColumnSteps(col int) (looks bool, step, res float64, err error) {
+	rows, _, err := headRows(s.lay, 64)
+	if err != nil || len(rows) < 3 {
+		return false, 0, 0, err
+	}
+	var v []float64
+	dec := 0
+	for _, r := range rows {
+		if col >= len(r.cells) {
+			return false, 0, 0, nil
+		}
+		n, k := parseNumber(r.cells[col], s.Dialect.DecimalComma)
+		if k != cellNumber || n.rng != rangeOK {
+			return false, 0, 0, nil
+		}
+		v = append(v, n.v)
+		dec = max(dec, n.decimals)
+	}
+	res = math.Pow(10, -float64(dec))
+	step = (v[len(v)-1] - v[0]) / float64(len(v)-1)
+	for i := 1; i < len(v); i++ {
+		d := v[i] - v[i-1]
+		if !(d > 0) || math.Abs(d-(v[1]-v[0])) > res*(1+1e-9) {
+			return false, 0, 0, nil
+		}
+	}
+	// res becomes how far the true step may lie from the mean step: the
+	// first and last cells are each within half a digit of their times.
+	return true, step, res / float64(len(v)-1), nil
+}
+
+// knownRate is the rate given, on a preamble line or in the metadata (0
+// when none).
+func (s *Signals) knownRate(opt SignalOptions) float64 {
+	if opt.RateHz > 0 {
+		return opt.RateHz
+	}
+	if v, line, err := metaRate(s.File, s.Meta); err == nil && line > 0 {
+		return v
+	}
+	if opt.DefaultRateHz > 0 && !math.IsInf(opt.DefaultRateHz, 0) {
+		return opt.DefaultRateHz
+	}
+	return 0
+}
+
+// stepUnit names the time unit in which step is one sample at rate: s, ms
+// or samples; "" when none or more than one fits to the resolution, and
+// why in words.
+func stepUnit(step, res, rate float64) (string, string) {
+	var found []string
+	for _, c := range []struct {
+		unit string
+		step float64
+	}{{"s", 1 / rate}, {"ms", 1000 / rate}, {"samples", 1}} {
+		if math.Abs(step-c.step) <= res*(1+1e-9) {
+			found = append(found, c.unit)
+		}
+	}
+	switch len(found) {
+	case 1:
+		return found[0], ""
+	case 0:
+		return "", fmt.Sprintf("its step %g is one sample at %g Hz in neither s, ms nor samples", step, rate)
+	}
+	return "", fmt.Sprintf("its step %g is one sample at %g Hz in %s alike", step, rate, strings.Join(found, " and "))
+}
+
+// headerlessTime decides whether the first column of a file without a
+// header is time. A first column that does not rise by one step on every
+// row is a channel. One that does is time only on conclusive evidence: a
+// "channels: N" line counting the other columns, and a known rate whose
+// sample step the column's step is in s, ms or samples. Anything else is
+// refused naming the two readings.
+func (s *Signals) headerlessTime(opt SignalOptions) error {
+	looks, step, res, err := s.firstColumnSteps(0)
+	if err != nil || !looks {
+		return err
+	}
+	readings := "--time-column first --time-unit s|ms|samples (it is time) or --time-column none (it is channel 1)"
+	ch := metaValue(s.Meta, "channels")
+	switch ch {
+	case strconv.Itoa(s.cols):
+		s.Notes = append(s.Notes, fmt.Sprintf("first column kept as a channel: the line \"channels: %s\" counts it", ch))
+		return nil
+	case strconv.Itoa(s.cols - 1):
+		rate := s.knownRate(opt)
+		if rate == 0 {
+			return perr(s.File, s.lay.firstRowLine, 1, "give the rate (--rate or a \"sampling rate:\" line) or "+readings, "no header; the first column rises by %g on every row and \"channels: %s\" leaves it out, but without a rate its unit is not known", step, ch)
+		}
+		u, why := stepUnit(step, res, rate)
+		if u == "" {
+			return perr(s.File, s.lay.firstRowLine, 1, readings, "no header; the first column rises by one step on every row, but %s", why)
+		}
+		s.tcol = 0
+		s.detectedUnit = u
+		s.Notes = append(s.Notes, fmt.Sprintf("no header: the first column is time in %s (\"channels: %s\" leaves it out, and it rises by one sample at %g Hz on every row)", u, ch, rate))
+		return nil
+	}
+	return perr(s.File, s.lay.firstRowLine, 1, "give "+readings+"; or a header line, or a \"channels: N\" line above the table", "no header, and the first column rises by %g on every row like a time column: it is time or a channel, and the two readings store different values", step)
+}
+
+// timeUnitFromRate gives the unit of a time column whose header names
+// none: s, ms or samples when exactly one makes its step one sample at the
+// known rate; otherwise an error asking for --time-unit.
+func (s *Signals) timeUnitFromRate(opt SignalOptions) (string, string, error) {
+	if s.detectedUnit != "" {
+		return s.detectedUnit, "from its step at the known rate", nil
+	}
+	hint := "give --time-unit s, ms or samples (or write the unit in the header, e.g. \"time [ms]\")"
+	looks, step, res, err := s.firstColumnSteps(s.tcol)
+	if err != nil {
+		return "", "", err
+	}
+	rate := s.knownRate(opt)
+	if !looks || rate == 0 {
+		return "", "", perr(s.File, s.lay.headerLine, s.tcol+1, hint, "the time column %q has no unit", s.TimeLabel)
+	}
+	u, why := stepUnit(step, res, rate)
+	if u == "" {
+		return "", "", perr(s.File, s.lay.headerLine, s.tcol+1, hint, "the time column %q has no unit, and %s", s.TimeLabel, why)
+	}
+	return u, fmt.Sprintf("its step %g is one sample at %g Hz", step, rate), nil
 }
