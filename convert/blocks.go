@@ -98,7 +98,7 @@ func (sp *blockSpec) parse(b *block) {
 			l, data = data[:nl], data[nl+1:]
 		}
 		t := trimLine(l, sp.d.Delimiter)
-		if bt := trimBlank(t); len(bt) != 0 && !isComment(bt) {
+		if bt := trimBlank(t); !blankLine(t, sp.d.Delimiter) && !isComment(bt) {
 			if sp.mode == modeCount {
 				if err := sp.countRow(b, t, line); err != nil {
 					b.err = err

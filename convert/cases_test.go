@@ -317,3 +317,29 @@ func TestHeaderlessFirstColumnTime(t *testing.T) {
 		t.Fatalf("%v", err)
 	}
 }
+
+// Found by the differential test: one column of decimal-comma numbers
+// without a header ("-14,5") was read as two whole-number columns.
+func TestCommaOrDecimalComma(t *testing.T) {
+	text := "sampling rate: 100 Hz\n-14,5\n81,76044\n-1,9066516e+03\n"
+	_, err := scanText(t, text, SignalOptions{})
+	if pe := AsParseError(err); pe == nil || pe.Line != 2 || !strings.Contains(pe.Msg, `"-14,5"`) || !strings.Contains(pe.Hint, "--decimal-comma yes") {
+		t.Fatalf("%v", err)
+	}
+	s, err := scanText(t, text, SignalOptions{TextOptions: TextOptions{Delimiter: ' ', DecimalComma: "yes"}})
+	if err != nil || len(s.Labels) != 1 {
+		t.Fatalf("%v %v", s, err)
+	}
+	if cols, _ := s.Columns(); cols[0][0] != -14.5 || cols[0][2] != -1906.6516 {
+		t.Errorf("%v", cols)
+	}
+	s, err = scanText(t, text, SignalOptions{TextOptions: TextOptions{Delimiter: ','}})
+	if err != nil || len(s.Labels) != 2 {
+		t.Fatalf("%v %v", s, err)
+	}
+	// A tab-delimited row of empty cells is a row, not a blank line.
+	s, err = scanText(t, "sampling rate: 100 Hz\na\tb\n1\t2\n\t\n3\t4\n", SignalOptions{})
+	if err != nil || s.Rows != 3 {
+		t.Fatalf("%v %v", s, err)
+	}
+}

@@ -24,7 +24,7 @@ func splitRecords(file string, data []byte, d byte, line int, fn func(textRow) e
 		} else {
 			end += i
 		}
-		if t := trimBlank(data[i:end]); len(t) == 0 || isComment(t) {
+		if t := trimBlank(data[i:end]); blankLine(data[i:end], d) || isComment(t) {
 			i, line = end+1, line+1
 			continue
 		}

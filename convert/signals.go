@@ -1,6 +1,7 @@
 package convert
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"strconv"
@@ -132,6 +133,9 @@ func ScanSignals(path string, opt SignalOptions) (*Signals, error) {
 		return nil, err
 	}
 	s := &Signals{File: path, Dialect: lay.dialect, Meta: lay.meta, lay: lay, cols: lay.fields, tcol: -1, allowRange: opt.AllowOutOfRange}
+	if err := s.commaOrDecimalComma(opt); err != nil {
+		return nil, err
+	}
 	s.Notes = append(s.Notes, lay.dialect.Why)
 	if lay.bom {
 		s.Notes = append(s.Notes, "UTF-8 byte order mark skipped")
@@ -505,4 +509,43 @@ func (s *Signals) decideType(forced record.SampleType) {
 		s.LossyCells, s.MaxAbsError = s.lossy64, s.maxErr64
 		s.DTypeWhy += fmt.Sprintf("; %d cells have more digits than float64 holds (first at line %d, column %d), largest error about %.3g", s.lossy64, s.first64.Line, s.first64.Column, s.maxErr64)
 	}
+}
+
+// commaOrDecimalComma refuses a headerless file whose every line is "a,b"
+// with digits on both sides and no point: two whole-number columns split
+// at the comma, or one column of numbers with a decimal comma ("-14,5").
+// The two readings store different values; detection does not pick one.
+func (s *Signals) commaOrDecimalComma(opt SignalOptions) error {
+	if !s.Dialect.Detected || s.Dialect.Delimiter != ',' || s.lay.header != nil || opt.DecimalComma != "" && opt.DecimalComma != "auto" {
+		return nil
+	}
+	rows, _, err := headRows(s.lay, 64)
+	if err != nil || len(rows) == 0 {
+		return nil
+	}
+	whole := func(b []byte, sign bool) bool {
+		i := 0
+		if sign && len(b) > 0 && (b[0] == '-' || b[0] == '+') {
+			i++
+		}
+		j := i
+		for j < len(b) && isDigit(b[j]) {
+			j++
+		}
+		if j == i {
+			return false
+		}
+		if j < len(b) && (b[j] == 'e' || b[j] == 'E') {
+			_, k := parseNumber(b[j+1:], false)
+			return !sign && k == cellNumber && bytes.IndexByte(b[j+1:], '.') < 0
+		}
+		return j == len(b)
+	}
+	for _, r := range rows {
+		if len(r.cells) != 2 || !whole(r.cells[0], true) || !whole(r.cells[1], false) {
+			return nil
+		}
+	}
+	return perr(s.File, rows[0].line, 0, "give --delimiter comma (two columns) or --delimiter whitespace --decimal-comma yes (one column), or a header line",
+		"every line reads as two whole-number columns split at ',' or as one column with a decimal comma (%q)", string(rows[0].cells[0])+","+string(rows[0].cells[1]))
 }

@@ -105,6 +105,18 @@ func isComment(l []byte) bool {
 	return len(l) > 0 && (l[0] == '#' || l[0] == '%' || (l[0] == '/' && len(l) > 1 && l[1] == '/'))
 }
 
+// blankLine reports whether a line holds no cells: nothing but spaces and
+// CR, and tabs unless tab is the delimiter (a line of tabs is a row of
+// empty cells there).
+func blankLine(l []byte, d byte) bool {
+	for _, c := range l {
+		if c != ' ' && c != '\r' && (c != '\t' || d == '\t') {
+			return false
+		}
+	}
+	return true
+}
+
 func trimBlank(b []byte) []byte {
 	i, j := 0, len(b)
 	for i < j && (b[i] == ' ' || b[i] == '\t' || b[i] == '\r') {
@@ -412,7 +424,7 @@ func eachRow(lay *layout, fn func(line int, cells [][]byte) error) error {
 		}
 		if len(l) > 0 {
 			t := trimLine(bytes.TrimSuffix(l, []byte{'\n'}), lay.dialect.Delimiter)
-			if bt := trimBlank(t); len(bt) > 0 && !isComment(bt) {
+			if bt := trimBlank(t); !blankLine(t, lay.dialect.Delimiter) && !isComment(bt) {
 				cells, serr := splitLine(t, lay.dialect.Delimiter)
 				if pe := AsParseError(serr); pe != nil {
 					pe.File, pe.Line = lay.file, line
