@@ -416,7 +416,7 @@ var fieldHeads = map[string]string{
 
 func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
 	ds := string(d)
-	w.WriteString("unit")
+	w.WriteString("unit" + ds + StoredIDColumn)
 	for _, f := range unitFields {
 		w.WriteString(ds + fieldHeads[f])
 	}
@@ -432,6 +432,8 @@ func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
 			return err
 		}
 		b = append(b[:0], name...)
+		b = append(b, d)
+		b = strconv.AppendInt(b, u.ID, 10)
 		for _, f := range unitFields {
 			b = append(b, d)
 			if v := getField(u, f); !math.IsNaN(v) {

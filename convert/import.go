@@ -424,6 +424,22 @@ func (pl *Plan) units(it input, prof *Profile) error {
 		}
 		rowOf[u.ID] = r
 	}
+	if ut.StoredIDs != nil {
+		// The ids an export wrote (muarc_id) come back.
+		rowOf = map[int64]int{}
+		for r, u := range ut.Units {
+			dec.Units[idx[u.Label]].ID = ut.StoredIDs[r]
+			rowOf[ut.StoredIDs[r]] = r
+		}
+		seen := map[int64]string{}
+		for _, u := range dec.Units {
+			if l, dup := seen[u.ID]; dup {
+				return perr(it.path, 0, 0, "give every unit of the decomposition its own muarc_id, or drop the column", "muarc_id %d names units %q and %q", u.ID, l, u.Name())
+			}
+			seen[u.ID] = u.Name()
+		}
+		notes = append(notes, "unit ids from the muarc_id column")
+	}
 	// Extra columns in the decomposition's unit order.
 	for _, c := range ut.Extra {
 		col := record.Column{Name: c.Name, Unit: c.Unit}

@@ -17,8 +17,8 @@ import (
 // (RFC 4180), the details JSON text as written.
 
 // unitKey is how a unit is named in the MUAP file: as in the discharge
-// file written beside it.
-func unitKey(u *record.Unit) string { return strconv.FormatInt(u.ID, 10) }
+// file written beside it (its label, or its id when it has none).
+func unitKey(u *record.Unit) string { return u.Name() }
 
 func writeMUAPs(w *bufio.Writer, a *record.Array, d *record.Decomposition, delim byte) error {
 	m := d.MUAPs

@@ -2,6 +2,7 @@ package convert
 
 import (
 	"fmt"
+	"strconv"
 	"math"
 	"strings"
 
@@ -20,6 +21,11 @@ const (
 	FieldInitialRate = "initial_rate_pps"
 	FieldMeanRate    = "mean_rate_pps"
 )
+
+// StoredIDColumn is the unit-table column in which muarc export writes
+// muarc's own unit ids beside the labels, so that an import of the export
+// gives the units their ids back.
+const StoredIDColumn = "muarc_id"
 
 // unitSpellings maps common header spellings (lower case, without blanks,
 // '_', '-' and '.') to layout fields. Common practice in decomposition
@@ -77,6 +83,9 @@ type UnitTableOptions struct {
 type UnitTable struct {
 	File  string
 	Units []record.Unit
+	// StoredIDs are the unit ids of a muarc_id column (one per row), nil
+	// when the table has none.
+	StoredIDs []int64
 	Extra []record.Column
 	// Mapped says which header went to which field.
 	Mapped map[string]string
@@ -102,8 +111,14 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 	units := make([]string, len(lay.header))
 	idCol := -1
 	used := map[string]int{}
+	storedCol := -1
 	for i, h := range lay.header {
 		l, u, _ := splitLabelUnit(h)
+		if l == StoredIDColumn {
+			// muarc's own unit ids, written by export (not a lab's column).
+			fields[i], storedCol = StoredIDColumn, i
+			continue
+		}
 		nu, err := NormalizeUnit(u)
 		if err != nil {
 			return nil, perr(path, lay.headerLine, i+1, "write the unit in UCUM in brackets after the label", "%v", err)
@@ -184,8 +199,15 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 		idQuoted = idQuoted || r.quoted[idCol]
 		u := record.NewUnit(int64(len(ut.Units) + 1))
 		u.Label = label
+		if storedCol >= 0 {
+			id, err := strconv.ParseInt(string(r.cells[storedCol]), 10, 64)
+			if err != nil || id < 0 {
+				return nil, perr(path, r.line, storedCol+1, "leave muarc_id as export wrote it (whole numbers), or drop the column", "muarc_id %q is not a whole number", clip(r.cells[storedCol]))
+			}
+			ut.StoredIDs = append(ut.StoredIDs, id)
+		}
 		for i, f := range fields {
-			if f == "" || f == FieldID {
+			if f == "" || f == FieldID || f == StoredIDColumn {
 				continue
 			}
 			n, k := parseNumber(r.cells[i], lay.dialect.DecimalComma)
