@@ -6,25 +6,31 @@
 GO      ?= go
 BIN     := bin/muarc
 DEMO    ?= demo-out
-# Debian packages: HDF5 and the compressor for building, and the outside
-# references the tests check against (h5dump, h5py, jsonschema, numpy/scipy,
-# pandas, headless Chromium for the report).
+# Debian packages. RUN_PACKAGES are what muarc needs to build and run (HDF5,
+# the compressor, pkg-config): make build and make demo install only these.
+# DEB_PACKAGES add the outside references the tests check against (h5dump,
+# h5py, jsonschema, numpy/scipy, pandas, headless Chromium for the report):
+# make test, bench and fuzz install them.
 # EDF+/BDF+ references: EDFlib (libedf-dev, compiled with gcc in a test),
 # MNE-Python and biosig's save2gdf. R's hdf5r and npm's h5wasm (installed
 # into scripts/h5wasm from its package-lock.json) run LAYOUT.md's snippets.
 # slurm-wlm and munge: archive/examples' job arrays run under a real
 # single-node Slurm started by the test.
-DEB_PACKAGES := libhdf5-dev libdeflate-dev pkg-config hdf5-tools python3-h5py \
+RUN_PACKAGES := libhdf5-dev libdeflate-dev pkg-config
+DEB_PACKAGES := $(RUN_PACKAGES) hdf5-tools python3-h5py \
 	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium \
 	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge
 
-.PHONY: all deps build demo test bench fuzz vet clean
+.PHONY: all deps deps-run build demo test bench fuzz vet clean
 
 all: build
 
-# deps installs whatever of DEB_PACKAGES is missing (apt-get update once).
-deps:
-	@missing=""; for p in $(DEB_PACKAGES); do \
+# deps installs whatever of DEB_PACKAGES is missing, deps-run whatever of
+# RUN_PACKAGES (apt-get update once, only when something is missing).
+deps: PKGS = $(DEB_PACKAGES)
+deps-run: PKGS = $(RUN_PACKAGES)
+deps deps-run:
+	@missing=""; for p in $(PKGS); do \
 		dpkg-query -W -f='$${Status}' $$p 2>/dev/null | grep -q "install ok installed" || missing="$$missing $$p"; \
 	done; \
 	if [ -n "$$missing" ]; then \
@@ -33,13 +39,13 @@ deps:
 		$$SUDO apt-get update -qq && DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq $$missing; \
 	fi
 
-build: deps
+build: deps-run
 	$(GO) build -o $(BIN) ./cmd/muarc
 
 demo: build
 	./$(BIN) demo --out $(DEMO)
 
-vet: deps
+vet: deps-run
 	$(GO) vet ./...
 
 # test runs every package's tests, the fuzz seed corpora included, with the

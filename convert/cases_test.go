@@ -343,3 +343,17 @@ func TestCommaOrDecimalComma(t *testing.T) {
 		t.Fatalf("%v %v", s, err)
 	}
 }
+
+// The example printed by muarc schema --example is a valid sidecar.
+func TestExampleSidecarIsValid(t *testing.T) {
+	p := writeTemp(t, "metadata.json", string(ExampleSidecar))
+	sc, err := ReadSidecar(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"study", "subject", "session", "trials"} {
+		if sc.View[k] == nil {
+			t.Errorf("no %s", k)
+		}
+	}
+}

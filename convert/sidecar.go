@@ -1,6 +1,7 @@
 package convert
 
 import (
+	_ "embed"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -12,6 +13,14 @@ import (
 	"muarc/record"
 	"muarc/validate"
 )
+
+// ExampleSidecar is a complete metadata sidecar to start from (muarc
+// schema --example): every member of study, subject, session, a trial with
+// its force and one array with a decomposition. Channels are left out: the
+// EMG file's header gives them, the profile places them on the grid.
+//
+//go:embed example-sidecar.json
+var ExampleSidecar []byte
 
 // Sidecar is a metadata sidecar (a partial metadata view written by hand or
 // by an export) read from JSON or YAML.

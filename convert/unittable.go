@@ -2,8 +2,8 @@ package convert
 
 import (
 	"fmt"
-	"strconv"
 	"math"
+	"strconv"
 	"strings"
 
 	"muarc/record"
@@ -86,7 +86,7 @@ type UnitTable struct {
 	// StoredIDs are the unit ids of a muarc_id column (one per row), nil
 	// when the table has none.
 	StoredIDs []int64
-	Extra []record.Column
+	Extra     []record.Column
 	// Mapped says which header went to which field.
 	Mapped map[string]string
 	Notes  []string

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io/fs"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"time"
@@ -90,7 +91,7 @@ func runDemo(cmd *cobra.Command, out string, asJSON bool) error {
 		}
 		fmt.Fprintf(ctx.Out, "  %s%s  %s\n", e.Name(), suffix, demoWhat(e.Name()))
 	}
-	fmt.Fprintf(ctx.Out, "\nDone in %.1f s. Try: muarc inspect %s\n", totalSeconds(steps), firstOr(ctx.Recordings, filepath.Join(ctx.RecordingsDir, "FILE.h5")))
+	fmt.Fprintf(ctx.Out, "\nDone in %.1f s. Try: %s inspect %s\n", totalSeconds(steps), runnable(), shortPath(firstOr(ctx.Recordings, filepath.Join(ctx.RecordingsDir, "FILE.h5"))))
 	return nil
 }
 
@@ -153,4 +154,44 @@ func prepareDemoDir(dir string) error {
 		return err
 	}
 	return atomicfile.WriteFile(filepath.Join(dir, demoMarker), []byte("made by muarc demo; the next demo run may clear this folder\n"), true)
+}
+
+// runnable is how this binary is run from the current folder: "muarc" when
+// that is the one on PATH, else its path ("./bin/muarc" after make demo), so
+// that the command printed works as printed.
+func runnable() string {
+	exe, err := os.Executable()
+	if err != nil {
+		return "muarc"
+	}
+	if p, err := exec.LookPath("muarc"); err == nil {
+		if a, b := evalPath(p), evalPath(exe); a == b {
+			return "muarc"
+		}
+	}
+	return shortPath(exe)
+}
+
+func evalPath(p string) string {
+	if r, err := filepath.EvalSymlinks(p); err == nil {
+		p = r
+	}
+	a, _ := filepath.Abs(p)
+	return a
+}
+
+// shortPath is p relative to the current folder when it lies below it
+// ("./bin/muarc"), else p.
+func shortPath(p string) string {
+	wd, err := os.Getwd()
+	if err != nil {
+		return p
+	}
+	if r, err := filepath.Rel(wd, p); err == nil && !strings.HasPrefix(r, "..") {
+		if !strings.ContainsRune(r, filepath.Separator) || !strings.HasPrefix(r, ".") {
+			return "." + string(filepath.Separator) + r
+		}
+		return r
+	}
+	return p
 }

@@ -43,13 +43,19 @@ or a whole study, one recording per folder, in parallel:
 
   muarc import --profile P SOURCE_DIR -o OUT_DIR
 
-Delimiters, headers, units, time columns and decimal commas are detected; the
-report says what was found and why. A discharge file (one line per unit,
-"MU1: t1 t2 ...", one column per unit, a unit,time table or a 0/1 matrix) is
-read the way that fits; when two readings fit and would store different values
-(labels or times, s, ms or samples, 0- or 1-based, ...) nothing is written and
-the message names the readings and the flags (--shape, --labels, --time-base,
---first-index, --discharge-*) that pick each. Unit labels are kept as written. EMG samples are stored as float32 only when every value reads back at the
+Start the metadata sidecar from "muarc schema --example > metadata.json".
+
+Delimiters, headers, units, time columns and decimal commas are detected only
+where one reading fits. A discharge file (one line per unit, "MU1: t1 t2 ...",
+one column per unit, a unit,time table or a 0/1 matrix) is read the way that
+fits. Where two readings would store different values (labels or times, s,
+ms or samples, 0- or 1-based, a time column or a channel, ...) nothing is
+written and the message names the readings and the flags that pick each
+(--shape, --labels, --time-base, --first-index, --discharge-*, and
+--read ROLE.MEMBER=VALUE for one file role, e.g. --read emg.rate_hz=2048).
+Unit labels are kept as written. The report names every file read, what was
+found and what was not stored. An export folder (muarc export FILE -o D)
+imports back as OUT_DIR/D.h5. EMG samples are stored as float32 only when every value reads back at the
 digits written, else float64 (--dtype forces one and the report gives the
 largest error that causes). Nothing is written when an input is bad; inputs
 are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which
