@@ -4,10 +4,14 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"os"
+	"path/filepath"
 	"runtime"
 	"strconv"
 	"strings"
 	"testing"
+
+	"muarc/recfile"
 )
 
 // Regression tests: each input once stored changed values with exit 0; now
@@ -355,5 +359,72 @@ func TestExampleSidecarIsValid(t *testing.T) {
 		if sc.View[k] == nil {
 			t.Errorf("no %s", k)
 		}
+	}
+}
+
+// Sidecar problems come in file order, a missing top-level part first.
+func TestSidecarProblemOrder(t *testing.T) {
+	p := writeTemp(t, "metadata.json", "{\n \"study\": {\"id\": \"S\"},\n \"subject\": {\"sex\": \"F\",\n  \"birth_date\": \"14.03.1990\"},\n \"session\": {\"date\": \"2026/03/14\"}\n}\n")
+	_, err := ReadSidecar(p)
+	se, ok := err.(*SidecarError)
+	if !ok || len(se.Problems) != 4 {
+		t.Fatalf("%v", err)
+	}
+	want := []string{"/trials", "/subject/sex", "/subject/birth_date", "/session/date"}
+	for i, w := range want {
+		if !strings.HasPrefix(se.Problems[i].Msg, w+":") {
+			t.Errorf("problem %d: %s, want %s first", i, se.Problems[i].Msg, w)
+		}
+	}
+	if se.Problems[1].Line != 3 || se.Problems[2].Line != 4 {
+		t.Errorf("lines %d %d", se.Problems[1].Line, se.Problems[2].Line)
+	}
+}
+
+// One trial, one array, one EMG file whose name follows no template: that
+// array (it was refused as "no EMG file was given for it"). A discharge
+// file whose name gives no decomposition goes to the metadata's only one
+// (it went to a new "imported" decomposition without a word); with two it
+// is refused naming them; a named decomposition no file fills is not
+// stored and the report says so.
+func TestUnnamedFilesTakeTheOnlyChoice(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	meta := func(decs string) string {
+		return write("metadata.json", `{"study": {"id": "S"}, "subject": {"id": "P1"}, "session": {"date": "2026-03-14"},
+ "trials": [{"name": "t1", "arrays": [{"name": "ta", "sampling_rate_hz": 1000, "decompositions": [`+decs+`]}]}]}`)
+	}
+	emg := write("emg.csv", "sampling rate: 1000 Hz\na [uV],b [uV]\n1,2\n3,4\n5,6\n7,8\n")
+	dis := write("spikes.csv", "unit,sample (0-based)\n1,1\n1,3\n2,2\n")
+	out := filepath.Join(dir, "out.h5")
+	rep, err := ImportRecording(Inputs{Meta: meta(`{"name": "auto", "method": "m"}`), EMG: []string{emg}, Discharges: []string{dis}}, out, recfile.WriteOptions{Overwrite: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := r.Trials[0].Arrays[0]
+	if a.Name != "ta" || len(a.Decompositions) != 1 || a.Decompositions[0].Name != "auto" || len(a.Decompositions[0].Units) != 2 {
+		t.Fatalf("%+v", a.Decompositions)
+	}
+	notes := fmt.Sprint(rep.Files)
+	if !strings.Contains(notes, `the only EMG file given, for the metadata's only array "ta"`) || !strings.Contains(notes, `decomposition "auto": the metadata's only decomposition`) {
+		t.Errorf("report does not say how the names were decided: %s", notes)
+	}
+	_, err = ImportRecording(Inputs{Meta: meta(`{"name": "auto"}, {"name": "edited"}`), EMG: []string{emg}, Discharges: []string{dis}}, out, recfile.WriteOptions{Overwrite: true})
+	if pe := AsParseError(err); pe == nil || !strings.Contains(pe.Msg, `"auto", "edited"`) || !strings.Contains(pe.Hint, "{decomposition}") {
+		t.Fatalf("two decompositions: %v", err)
+	}
+	rep, err = ImportRecording(Inputs{Meta: meta(`{"name": "auto"}`), EMG: []string{emg}}, out, recfile.WriteOptions{Overwrite: true})
+	if err != nil || !strings.Contains(strings.Join(rep.Notes, "\n"), `decomposition "auto" of trial "t1" array "ta" is in the metadata but no discharge or unit file was read for it: not stored`) {
+		t.Fatalf("%v %v", rep, err)
 	}
 }

@@ -476,12 +476,19 @@ func (pl *Plan) finish() error {
 			if a.Samples == nil {
 				return &ParseError{Msg: fmt.Sprintf("trial %q array %q is in the metadata but no EMG file was given for it", t.Name, a.Name), Hint: "give its EMG file (--emg) or remove it from the metadata"}
 			}
+			// A decomposition the metadata names but no file filled is not
+			// stored (an empty one breaks later steps); the report says so.
+			kept := a.Decompositions[:0]
+			for _, d := range a.Decompositions {
+				if len(d.Units) == 0 && d.MUAPs == nil {
+					pl.Report.Notes = append(pl.Report.Notes, fmt.Sprintf("decomposition %q of trial %q array %q is in the metadata but no discharge or unit file was read for it: not stored (give its files with --discharges/--units, or a profile template with {decomposition})", d.Name, t.Name, a.Name))
+					continue
+				}
+				kept = append(kept, d)
+			}
+			a.Decompositions = kept
 			for di := range a.Decompositions {
 				d := &a.Decompositions[di]
-				if len(d.Units) == 0 {
-					return &ParseError{Msg: fmt.Sprintf("trial %q array %q: decomposition %q is in the metadata but no discharge or unit file was read for it", t.Name, a.Name, d.Name),
-						Hint: "give its files (--discharges, --units; a profile template with {decomposition}), or remove it from the metadata"}
-				}
 				for ci := range d.ExtraColumns {
 					c := &d.ExtraColumns[ci]
 					for len(c.Values) > 0 && len(c.Values) < len(d.Units) {

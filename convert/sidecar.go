@@ -86,6 +86,7 @@ func ReadSidecar(path string) (*Sidecar, error) {
 	}
 	sc.View = m
 	se := &SidecarError{File: path}
+	var rank []int
 	for _, f := range validate.CheckMetadata(m) {
 		// A sidecar is a partial view: the sampling rates come from the
 		// signal files, so a missing one is not a problem of the sidecar.
@@ -98,8 +99,34 @@ func ReadSidecar(path string) (*Sidecar, error) {
 			msg = pointerOrTop(f.JSONPath) + ": " + msg
 		}
 		se.Problems = append(se.Problems, &ParseError{File: path, Line: line, Column: col, Msg: msg, Hint: f.Hint})
+		// A missing or mistyped top-level part causes the problems below
+		// it: it comes first, then the rest in file order.
+		r := 1
+		if (f.Check == "metadata.required" || f.Check == "metadata.invalid_type") && strings.Count(f.JSONPath, "/") <= 1 {
+			r = 0
+		}
+		rank = append(rank, r)
 	}
 	if len(se.Problems) > 0 {
+		idx := make([]int, len(se.Problems))
+		for i := range idx {
+			idx[i] = i
+		}
+		sort.SliceStable(idx, func(a, b int) bool {
+			pa, pb := se.Problems[idx[a]], se.Problems[idx[b]]
+			if rank[idx[a]] != rank[idx[b]] {
+				return rank[idx[a]] < rank[idx[b]]
+			}
+			if pa.Line != pb.Line {
+				return pa.Line < pb.Line
+			}
+			return pa.Column < pb.Column
+		})
+		sorted := make([]*ParseError, len(idx))
+		for i, j := range idx {
+			sorted[i] = se.Problems[j]
+		}
+		se.Problems = sorted
 		return nil, se
 	}
 	return sc, nil

@@ -74,7 +74,7 @@ func CheckMetadata(view map[string]any) []Finding {
 			Check:    "metadata." + kind,
 			Message:  metadataMessage(ptr, e),
 			JSONPath: ptr,
-			Hint:     metadataHint(kind),
+			Hint:     metadataHint(kind, e),
 		})
 	}
 	sort.SliceStable(out, func(i, j int) bool { return out[i].JSONPath < out[j].JSONPath })
@@ -117,6 +117,9 @@ func metadataMessage(ptr string, e gojsonschema.ResultError) string {
 		where = "the top level"
 	}
 	d := e.Description()
+	if form := dateForm(e); form != "" {
+		d = "not a date in the form " + form
+	}
 	if v := e.Value(); v != nil && e.Type() != "required" {
 		if b, err := json.Marshal(v); err == nil && len(b) <= 60 {
 			return fmt.Sprintf("%s: %s (value %s)", where, d, b)
@@ -125,7 +128,43 @@ func metadataMessage(ptr string, e gojsonschema.ResultError) string {
 	return fmt.Sprintf("%s: %s", where, d)
 }
 
-func metadataHint(kind string) string {
+// dateForm names the form a date pattern asks for in words ("" when the
+// pattern is not a date's), instead of the regular expression.
+func dateForm(e gojsonschema.ResultError) string {
+	if e.Type() != "pattern" && e.Type() != "does_not_match_pattern" {
+		return ""
+	}
+	p := fmt.Sprint(e.Details()["pattern"])
+	switch {
+	case !strings.HasPrefix(p, "^[0-9]{4}"):
+		return ""
+	case strings.Contains(p, "[Tt]"):
+		return "YYYY-MM-DD (e.g. 2026-03-14) or an RFC 3339 date-time (e.g. 2026-03-14T09:30:00Z)"
+	case strings.Contains(p, "(-[0-9]{2}-[0-9]{2})?"):
+		return "YYYY-MM-DD (e.g. 1990-05-17), or the year alone"
+	}
+	return "YYYY-MM-DD (e.g. 2026-03-14)"
+}
+
+func metadataHint(kind string, e gojsonschema.ResultError) string {
+	if kind == "enum" {
+		// "F" for sex: suggest the word it abbreviates.
+		if s, ok := e.Value().(string); ok && s != "" {
+			var match []string
+			for _, a := range strings.Split(fmt.Sprint(e.Details()["allowed"]), ",") {
+				a = strings.Trim(strings.TrimSpace(a), `"`)
+				if a != s && strings.HasPrefix(strings.ToLower(a), strings.ToLower(s)) {
+					match = append(match, a)
+				}
+			}
+			if len(match) == 1 {
+				return fmt.Sprintf("did you mean %q? (`muarc schema` lists the words)", match[0])
+			}
+		}
+	}
+	if dateForm(e) != "" {
+		return "write the date as the message shows; `muarc schema --example` has one of each"
+	}
 	switch kind {
 	case "required":
 		return "add the field; see schema/LAYOUT.md for what it holds"

@@ -1,6 +1,9 @@
 package validate
 
-import "testing"
+import (
+	"strings"
+	"testing"
+)
 
 func TestCheckMetadataPaths(t *testing.T) {
 	fs, err := CheckMetadataJSON([]byte(`{"study": {}, "subject": {"sex": "f"}, "session": {},
@@ -27,5 +30,23 @@ func TestCheckMetadataPaths(t *testing.T) {
 	}
 	if _, err := CheckMetadataJSON([]byte("{\n  \"study\": ,\n}")); err == nil {
 		t.Fatal("bad JSON accepted")
+	}
+}
+
+// A bad date names the form expected, not a regular expression; "F" for
+// sex suggests the word.
+func TestMetadataMessagesForPeople(t *testing.T) {
+	m := map[string]any{"study": map[string]any{}, "subject": map[string]any{"sex": "F", "birth_date": "14.03.1990"}, "session": map[string]any{"date": "2026/03/14"}, "trials": []any{}}
+	got := map[string]Finding{}
+	for _, f := range CheckMetadata(m) {
+		got[f.JSONPath] = f
+	}
+	if f := got["/subject/sex"]; !strings.Contains(f.Hint, `did you mean "female"?`) {
+		t.Errorf("sex: %+v", f)
+	}
+	for _, p := range []string{"/subject/birth_date", "/session/date"} {
+		if f := got[p]; !strings.Contains(f.Message, "not a date in the form YYYY-MM-DD") || strings.Contains(f.Message, "[0-9]") {
+			t.Errorf("%s: %+v", p, f)
+		}
 	}
 }
