@@ -3,6 +3,7 @@ package convert
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	"muarc/record"
@@ -115,7 +116,8 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 	unit := ""
 	for i, u := range s.Units {
 		if i > 0 && u != unit {
-			return perr(it.path, s.lay.headerLine, i+2, "all EMG channels of one array share one unit", "unit %q differs from %q", u, unit)
+			return perr(it.path, s.lay.headerLine, 0, fmt.Sprintf("all EMG channels of one array share one unit; a column that is not a channel (a trigger, an auxiliary signal) is named in emg.skip of a profile (--profile lab.yaml holding \"emg: {skip: [%s]}\", see convert/PROFILES.md)", s.Labels[i]),
+				"column %q has %s, the channels before it have %s", s.Labels[i], describeUnit(u), describeUnit(unit))
 		}
 		unit = u
 	}
@@ -177,4 +179,11 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 		LossyCells: s.LossyCells, MaxAbsError: s.MaxAbsError, Notes: s.Notes}
 	pl.Report.Files = append(pl.Report.Files, fr)
 	return nil
+}
+
+func describeUnit(u string) string {
+	if u == "" {
+		return "no unit"
+	}
+	return "unit " + strconv.Quote(u)
 }
