@@ -77,6 +77,7 @@ FUZZTIME ?= 30s
 fuzz: deps
 	bash scripts/fuzz-all.sh $(FUZZTIME)
 	MUARC_DAMAGE_ALL=1 CI=true $(GO) test -count=1 -run 'TestDamagedCorpus' -timeout 60m ./cmd/muarc
+	DIFF_CASES=20000 CI=true $(GO) test -count=1 -timeout 60m -run Differential ./convert
 
 clean:
 	rm -rf bin $(DEMO) bench-out
