@@ -212,63 +212,10 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 
 // overrideProfile applies the reading flags over the profile.
 func overrideProfile(p *convert.Profile, fl importFlags) error {
-	set := func(flag string, dst *string, v string, ok ...string) error {
-		if v == "" {
-			return nil
-		}
-		if len(ok) > 0 {
-			found := false
-			for _, o := range ok {
-				found = found || o == v
-			}
-			if !found {
-				return fmt.Errorf("--%s %q: want one of %s", flag, v, strings.Join(ok, ", "))
-			}
-		}
-		*dst = v
-		return nil
-	}
-	if _, err := convert.ParseDelimiter(fl.delimiter); err != nil {
-		return fmt.Errorf("--%s", err)
-	}
-	for _, e := range []error{
-		set("delimiter", &p.Signals.Delimiter, fl.delimiter),
-		set("decimal-comma", &p.Signals.DecimalComma, fl.decimalComma, "auto", "yes", "no"),
-		set("header", &p.Signals.Header, fl.header, "auto", "yes", "no"),
-		set("time-column", &p.Signals.TimeColumn, fl.timeColumn),
-		set("time-unit", &p.Signals.TimeUnit, fl.timeUnit, "s", "ms", "samples"),
-		set("shape", &p.Discharges.Shape, fl.shape, convert.ShapeLong, convert.ShapeColumns, convert.ShapeLines, convert.ShapeMatrix),
-		set("time-base", &p.Discharges.TimeBase, fl.timeBase, "s", "ms", "samples"),
-		set("labels", &p.Discharges.Labels, fl.labels, "yes", "no"),
-		set("discharge-delimiter", &p.Discharges.Delimiter, fl.disDelimiter, "comma", "semicolon", "tab", "whitespace", ",", ";"),
-		set("discharge-decimal-comma", &p.Discharges.DecimalComma, fl.disDecimalComma, "yes", "no"),
-		set("discharge-header", &p.Discharges.Header, fl.disHeader, "yes", "no"),
-	} {
-		if e != nil {
-			return e
-		}
-	}
-	switch fl.firstIndex {
-	case -1:
-	case 0, 1:
-		fi := fl.firstIndex
-		p.Discharges.FirstIndex = &fi
-	default:
-		return fmt.Errorf("--first-index %d: want 0 or 1", fl.firstIndex)
-	}
-	p.Signals.AllowOutOfRange = p.Signals.AllowOutOfRange || fl.allowRange
-	for _, r := range fl.read {
-		if err := p.SetReading(r); err != nil {
-			return err
-		}
-	}
-	if fl.tolerance < 0 {
-		return fmt.Errorf("--tolerance %g: want a positive number of samples", fl.tolerance)
-	}
-	if fl.tolerance > 0 {
-		p.Discharges.ToleranceSamples = fl.tolerance
-	}
-	return nil
+	return p.Override(convert.Overrides{Delimiter: fl.delimiter, DecimalComma: fl.decimalComma, Header: fl.header,
+		TimeColumn: fl.timeColumn, TimeUnit: fl.timeUnit, Shape: fl.shape, TimeBase: fl.timeBase, Labels: fl.labels,
+		DischargeDelimiter: fl.disDelimiter, DischargeDecimalComma: fl.disDecimalComma, DischargeHeader: fl.disHeader,
+		FirstIndex: fl.firstIndex, ToleranceSamples: fl.tolerance, AllowOutOfRange: fl.allowRange, Read: fl.read})
 }
 
 // importStudyDir runs convert.ImportStudy with a progress bar (the command
