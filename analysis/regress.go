@@ -19,6 +19,17 @@ type Fit struct {
 // both x and y are finite. With fewer than two such points, or all x equal,
 // Slope, Intercept and R2 are NaN; with all y equal R2 is NaN.
 func LinearFit(x, y []float64) Fit {
+	f, _ := LeastSquares(x, y)
+	return f
+}
+
+// Sums are the centred sums of a least-squares fit, for figures built on
+// it (standard errors, confidence intervals): Sxx = sum (x - mean x)^2,
+// Syy likewise for y, Sxy = sum (x - mean x)(y - mean y).
+type Sums struct{ Sxx, Syy, Sxy float64 }
+
+// LeastSquares is LinearFit that also returns the centred sums.
+func LeastSquares(x, y []float64) (Fit, Sums) {
 	var xs, ys []float64
 	for i := range x {
 		if i < len(y) && finite(x[i]) && finite(y[i]) {
@@ -28,26 +39,26 @@ func LinearFit(x, y []float64) Fit {
 	}
 	f := Fit{N: len(xs), Slope: math.NaN(), Intercept: math.NaN(), R2: math.NaN()}
 	if f.N < 2 {
-		return f
+		return f, Sums{}
 	}
 	mx, _ := meanStd(xs)
 	my, _ := meanStd(ys)
-	var sxx, syy, sxy float64
+	var s Sums
 	for i := range xs {
 		dx, dy := xs[i]-mx, ys[i]-my
-		sxx += dx * dx
-		syy += dy * dy
-		sxy += dx * dy
+		s.Sxx += dx * dx
+		s.Syy += dy * dy
+		s.Sxy += dx * dy
 	}
-	if sxx == 0 {
-		return f
+	if s.Sxx == 0 {
+		return f, s
 	}
-	f.Slope = sxy / sxx
+	f.Slope = s.Sxy / s.Sxx
 	f.Intercept = my - f.Slope*mx
-	if syy > 0 {
-		f.R2 = sxy * sxy / (sxx * syy)
+	if s.Syy > 0 {
+		f.R2 = s.Sxy * s.Sxy / (s.Sxx * s.Syy)
 	}
-	return f
+	return f, s
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

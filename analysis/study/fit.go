@@ -2,6 +2,7 @@ package study
 
 import (
 	"math"
+	"muarc/analysis"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -21,38 +22,16 @@ type LineFit struct {
 	SlopeCIHigh float64 `json:"slope_ci_high"`
 }
 
-// FitLine fits y on x over the pairs where both are finite.
+// FitLine fits y on x over the pairs where both are finite
+// (analysis.LeastSquares), with the slope's standard error and 95 %
+// confidence interval.
 func FitLine(x, y []float64) LineFit {
-	var xs, ys []float64
-	for i := range x {
-		if i < len(y) && finite(x[i]) && finite(y[i]) {
-			xs, ys = append(xs, x[i]), append(ys, y[i])
-		}
-	}
+	ls, sum := analysis.LeastSquares(x, y)
 	nan := math.NaN()
-	f := LineFit{N: len(xs), Slope: nan, Intercept: nan, R2: nan, SlopeSE: nan, SlopeCILow: nan, SlopeCIHigh: nan}
-	if f.N < 2 {
-		return f
-	}
-	mx, my := mean(xs), mean(ys)
-	var sxx, syy, sxy float64
-	for i := range xs {
-		dx, dy := xs[i]-mx, ys[i]-my
-		sxx += dx * dx
-		syy += dy * dy
-		sxy += dx * dy
-	}
-	if sxx == 0 {
-		return f
-	}
-	f.Slope = sxy / sxx
-	f.Intercept = my - f.Slope*mx
-	if syy > 0 {
-		f.R2 = sxy * sxy / (sxx * syy)
-	}
-	if f.N >= 3 {
-		rss := math.Max(0, syy-f.Slope*sxy)
-		f.SlopeSE = math.Sqrt(rss / float64(f.N-2) / sxx)
+	f := LineFit{N: ls.N, Slope: ls.Slope, Intercept: ls.Intercept, R2: ls.R2, SlopeSE: nan, SlopeCILow: nan, SlopeCIHigh: nan}
+	if f.N >= 3 && sum.Sxx > 0 {
+		rss := math.Max(0, sum.Syy-f.Slope*sum.Sxy)
+		f.SlopeSE = math.Sqrt(rss / float64(f.N-2) / sum.Sxx)
 		t := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(f.N - 2)}.Quantile(0.975)
 		f.SlopeCILow, f.SlopeCIHigh = f.Slope-t*f.SlopeSE, f.Slope+t*f.SlopeSE
 	}
