@@ -65,7 +65,7 @@ func diffDims(a, b reading) []string {
 func dimValue(r reading, dim string) string {
 	switch dim {
 	case "delimiter":
-		return delimWord(r.delim) + "-delimited"
+		return DelimiterName(r.delim) + "-delimited"
 	case "decimal_comma":
 		return "decimal comma " + yesNo(r.comma)
 	case "header":
@@ -246,7 +246,7 @@ func pick(r reading, dims []string, opt DischargeOptions) (string, string) {
 				add("first-index", "first_index", fmt.Sprint(r.first))
 			}
 		case d == "delimiter" && !r.colon:
-			add("discharge-delimiter", "delimiter", delimWord(r.delim))
+			add("discharge-delimiter", "delimiter", DelimiterName(r.delim))
 		case d == "decimal_comma":
 			add("discharge-decimal-comma", "decimal_comma", yesNo(r.comma))
 		}

@@ -109,7 +109,7 @@ func (r reading) flags(opt DischargeOptions) (cli, prof string) {
 		p = append(p, "discharges."+member+": "+v)
 	}
 	if opt.Delimiter == 0 && !r.colon {
-		add("discharge-delimiter", "delimiter", delimWord(r.delim))
+		add("discharge-delimiter", "delimiter", DelimiterName(r.delim))
 	}
 	if opt.DecimalComma == "" || opt.DecimalComma == "auto" {
 		add("discharge-decimal-comma", "decimal_comma", yesNo(r.comma))
@@ -130,18 +130,6 @@ func (r reading) flags(opt DischargeOptions) (cli, prof string) {
 		add("first-index", "first_index", fmt.Sprint(r.first))
 	}
 	return strings.Join(c, " "), strings.Join(p, ", ")
-}
-
-func delimWord(d byte) string {
-	switch d {
-	case ',':
-		return "comma"
-	case ';':
-		return "semicolon"
-	case '\t':
-		return "tab"
-	}
-	return "whitespace"
 }
 
 func yesNo(b bool) string {
@@ -186,7 +174,7 @@ func (r reading) describe() string {
 		}
 	}
 	if !r.colon {
-		parts = append(parts, delimWord(r.delim)+"-delimited")
+		parts = append(parts, DelimiterName(r.delim)+"-delimited")
 	}
 	if r.comma {
 		parts = append(parts, "decimal comma")

@@ -270,10 +270,8 @@ func writeEMG(w *bufio.Writer, a *record.Array, d byte) error {
 				b = append(b, d)
 				if f64 {
 					b = fmt64(b, b64[r*ch+c])
-				} else if v := b32[r*ch+c]; v != v {
-					b = append(b, "NaN"...)
 				} else {
-					b = strconv.AppendFloat(b, float64(v), 'g', -1, 32)
+					b = appendF32(b, b32[r*ch+c])
 				}
 			}
 			b = append(b, '\n')
@@ -530,4 +528,13 @@ func headCell(label, mark string, d byte) string {
 		s = `"` + strings.ReplaceAll(s, `"`, `""`) + `"`
 	}
 	return s
+}
+
+// appendF32 writes a float32 cell at the digits float32 keeps (the
+// shortest text that reads back to the same value), NaN as "NaN".
+func appendF32(b []byte, v float32) []byte {
+	if v != v {
+		return append(b, "NaN"...)
+	}
+	return strconv.AppendFloat(b, float64(v), 'g', -1, 32)
 }

@@ -39,11 +39,7 @@ func writeMUAPs(w *bufio.Writer, a *record.Array, d *record.Decomposition, delim
 			b = appendQuoted(b, a.Channels[c].Label)
 			for l := 0; l < m.Lags; l++ {
 				b = append(b, delim)
-				if v := m.At(u, c, l); v != v {
-					b = append(b, "NaN"...)
-				} else {
-					b = strconv.AppendFloat(b, float64(v), 'g', -1, 32)
-				}
+				b = appendF32(b, m.At(u, c, l))
 			}
 			b = append(b, '\n')
 			w.Write(b)
