@@ -194,16 +194,11 @@ func (f *File) readDerived(dec *h5.Group, ids []int64, channels int) (*record.De
 	if !dec.Has(grpDerived) {
 		return nil, nil
 	}
-	g, err := dec.OpenGroup(grpDerived)
+	g, a, err := openWithAttrs(f.path, dec, grpDerived)
 	if err != nil {
 		return nil, err
 	}
 	defer g.Close()
-	as, err := g.Attrs()
-	if err != nil {
-		return nil, err
-	}
-	a := newAttrGet(f.path, g.Path(), as)
 	dv := &record.Derived{Software: a.str(attrSoftware), Method: a.str(attrMethod), ForceUnit: a.str(attrForceUnit)}
 	if c := a.str(attrDerivedWhen); c != "" {
 		t, err := time.Parse(time.RFC3339Nano, c)

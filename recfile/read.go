@@ -276,6 +276,32 @@ func mustGroup(file string, parent *h5.Group, name string) (*h5.Group, error) {
 	return parent.OpenGroup(name)
 }
 
+// openWithAttrs opens a subgroup and reads its attributes; the caller
+// closes the group.
+func openWithAttrs(file string, parent *h5.Group, name string) (*h5.Group, *attrGet, error) {
+	g, err := parent.OpenGroup(name)
+	if err != nil {
+		return nil, nil, err
+	}
+	as, err := g.Attrs()
+	if err != nil {
+		g.Close()
+		return nil, nil, err
+	}
+	return g, newAttrGet(file, g.Path(), as), nil
+}
+
+// openListMember is openWithAttrs for a trial, array or decomposition:
+// its list_position attribute is known, not an extra (the reader follows
+// creation order; validate checks that the two agree).
+func openListMember(file string, parent *h5.Group, name string) (*h5.Group, *attrGet, error) {
+	g, a, err := openWithAttrs(file, parent, name)
+	if err == nil {
+		a.int(attrListPosition)
+	}
+	return g, a, err
+}
+
 func groupAttrs(file string, parent *h5.Group, name string, optional bool) (*attrGet, error) {
 	if optional && !parent.Has(name) {
 		return newAttrGet(file, "/"+name, nil), nil
@@ -327,17 +353,11 @@ func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
 
 func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
 	t := record.Trial{Name: name}
-	g, err := parent.OpenGroup(name)
+	g, a, err := openListMember(f.path, parent, name)
 	if err != nil {
 		return t, err
 	}
 	defer g.Close()
-	as, err := g.Attrs()
-	if err != nil {
-		return t, err
-	}
-	a := newAttrGet(f.path, g.Path(), as)
-	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	t.Task = a.str("task")
 	t.TargetPctMVC = a.num("target_pct_mvc")
 	t.MVC = a.num("mvc")
@@ -408,17 +428,11 @@ func (f *File) readSignal(g *h5.Group, name string) (record.Signal, error) {
 
 func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 	ar := record.Array{Name: name}
-	g, err := parent.OpenGroup(name)
+	g, a, err := openListMember(f.path, parent, name)
 	if err != nil {
 		return ar, err
 	}
 	defer g.Close()
-	as, err := g.Attrs()
-	if err != nil {
-		return ar, err
-	}
-	a := newAttrGet(f.path, g.Path(), as)
-	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	a.required("sampling_rate_hz")
 	ar.Muscle, ar.Side = a.str("muscle"), a.str("side")
 	ar.Rows, ar.Columns = a.int("rows"), a.int("columns")

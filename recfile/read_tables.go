@@ -117,17 +117,11 @@ func (f *File) readChannels(parent *h5.Group, n int) ([]record.Channel, error) {
 
 func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (record.Decomposition, error) {
 	dec := record.Decomposition{Name: name}
-	g, err := parent.OpenGroup(name)
+	g, a, err := openListMember(f.path, parent, name)
 	if err != nil {
 		return dec, err
 	}
 	defer g.Close()
-	as, err := g.Attrs()
-	if err != nil {
-		return dec, err
-	}
-	a := newAttrGet(f.path, g.Path(), as)
-	a.int(attrListPosition) // the place among siblings; the reader follows creation order
 	dec.Method, dec.MethodVersion = a.str("method"), a.str("method_version")
 	dec.Parameters = a.str("parameters")
 	dec.EditedByHand = a.boolean("edited_by_hand")
