@@ -28,6 +28,11 @@ type Finding struct {
 	Dataset string `json:"dataset,omitempty"`
 	Chunk   []int  `json:"chunk,omitempty"`
 	Message string `json:"message"`
+	// Accepted is set on a recording's finding when bag-info.txt names the
+	// recording under Accepted-Damage (packed with --accept-damaged) and
+	// its bytes still match the manifests: the damage is the one accepted
+	// at packing, not new. Accepted findings do not fail the deposit.
+	Accepted bool `json:"accepted,omitempty"`
 }
 
 func (f Finding) String() string {
@@ -43,6 +48,9 @@ func (f Finding) String() string {
 		fmt.Fprintf(&b, " chunk at %v", f.Chunk)
 	}
 	b.WriteString(": " + f.Message)
+	if f.Accepted {
+		b.WriteString(" (accepted at packing: bag-info.txt " + acceptedDamageLabel + ")")
+	}
 	return b.String()
 }
 
@@ -57,8 +65,19 @@ type DepositReport struct {
 	Findings     []Finding `json:"findings"`
 }
 
-// OK reports whether nothing was found.
-func (r *DepositReport) OK() bool { return len(r.Findings) == 0 }
+// OK reports whether nothing was found beyond damage accepted at packing.
+func (r *DepositReport) OK() bool { return r.Failing() == 0 }
+
+// Failing counts the findings that fail the deposit (all but Accepted).
+func (r *DepositReport) Failing() int {
+	n := 0
+	for _, f := range r.Findings {
+		if !f.Accepted {
+			n++
+		}
+	}
+	return n
+}
 
 // VerifyOptions tune VerifyDeposit.
 type VerifyOptions struct {
@@ -127,8 +146,14 @@ func VerifyDeposit(dir string, opt VerifyOptions) (*DepositReport, error) {
 		}
 		return nil
 	}, nil)
+	accepted := acceptedInBag(dir, res.Problems)
 	for i := range recs {
 		rep.Chunks += chunks[i]
+		if accepted[recs[i]] {
+			for j := range found[i] {
+				found[i][j].Accepted = true
+			}
+		}
 		rep.Findings = append(rep.Findings, found[i]...)
 	}
 	sort.SliceStable(rep.Findings, func(i, j int) bool { return rep.Findings[i].File < rep.Findings[j].File })

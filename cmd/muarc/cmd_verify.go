@@ -27,8 +27,11 @@ stored HDF5 chunk passes its Fletcher-32 checksum. Bit rot is reported by file
 and, inside a recording, by dataset and chunk. A tar made with pack --tar is
 unpacked into a temporary folder (--tmp, default the system's) and checked
 there; its entries must be plain files and folders under one top folder.
-Exit 0 when nothing is found, 1 on any finding, 2 when the deposit cannot be
-read.`,
+A recording that bag-info.txt names under Accepted-Damage (pack
+--accept-damaged) and whose bytes still match the manifests has its findings
+listed as accepted at packing; they do not fail the deposit.
+Exit 0 when nothing is found beyond such accepted damage, 1 on any other
+finding, 2 when the deposit cannot be read.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			dir := args[0]
@@ -65,8 +68,11 @@ read.`,
 					fmt.Fprintln(w, f)
 				}
 				verdict := "OK"
-				if !rep.OK() {
-					verdict = fmt.Sprintf("%d findings", len(rep.Findings))
+				if n := rep.Failing(); n > 0 {
+					verdict = fmt.Sprintf("%d %s", n, pluralWord(n, "finding", "findings"))
+				}
+				if n := len(rep.Findings) - rep.Failing(); n > 0 {
+					verdict += fmt.Sprintf(", %d %s on damage accepted at packing (bag-info.txt Accepted-Damage)", n, pluralWord(n, "finding", "findings"))
 				}
 				fmt.Fprintf(w, "%s: %s (%d payload files, %d bytes, %d recordings, %d chunks checked)\n",
 					dir, verdict, rep.PayloadFiles, rep.PayloadBytes, rep.Recordings, rep.Chunks)

@@ -613,4 +613,22 @@ func TestPackRefusesDamagedRecording(t *testing.T) {
 	if !strings.Contains(string(info), "Accepted-Damage: rec.h5 fails its integrity checks") || !strings.Contains(string(info), "integrity.metadata_digest") {
 		t.Fatalf("bag-info.txt does not name the damage:\n%s", info)
 	}
+	// verify cites the acceptance: the recording's findings are reported
+	// as accepted at packing and do not fail the deposit while its bytes
+	// match the manifest.
+	stdout, stderr, code = runMuarc(t, dir, "verify", dep)
+	if code != 0 || !strings.Contains(stdout, "(accepted at packing: bag-info.txt Accepted-Damage)") ||
+		!strings.Contains(stdout, ": OK, 1 finding on damage accepted at packing") {
+		t.Fatalf("verify of an accepted-damage deposit: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	// A byte changed after packing is new damage: the manifest check names
+	// the file and the acceptance no longer covers it.
+	rec := filepath.Join(dep, "data", "recordings", "rec.h5")
+	b, _ = os.ReadFile(rec)
+	b[len(b)/2] ^= 0xff
+	os.WriteFile(rec, b, 0o644)
+	stdout, stderr, code = runMuarc(t, dir, "verify", dep)
+	if code != 1 || strings.Contains(stdout, "accepted at packing") {
+		t.Fatalf("verify after a later change: exit %d\n%s\n%s", code, stdout, stderr)
+	}
 }

@@ -112,13 +112,16 @@ func printReports(w io.Writer, reps []*validate.Report) {
 }
 
 func plural3(e, w, n int) string {
-	p := func(k int, s string) string {
-		if k == 1 {
-			return fmt.Sprintf("%d %s", k, s)
-		}
-		return fmt.Sprintf("%d %ss", k, s)
-	}
+	p := func(k int, s string) string { return fmt.Sprintf("%d %s", k, pluralWord(k, s, s+"s")) }
 	return p(e, "error") + ", " + p(w, "warning") + ", " + p(n, "note")
+}
+
+// pluralWord gives one for n == 1 and many otherwise.
+func pluralWord(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }
 
 // printSummary prints the closing table: one line per file and the totals.
