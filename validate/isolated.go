@@ -75,7 +75,9 @@ func Isolated(path string, opt Options) *Report {
 // recording: the object tree with every attribute and string, the
 // recording model and, when chunks, every stored chunk through its index.
 // It returns a *isolate.CrashError when the HDF5 library crashed on the
-// file (the caller must then not open it in its own process) and nil
+// file and a *isolate.TimeoutError when the reads did not finish within the
+// worker time limit (the caller must then not open it in its own process),
+// and nil
 // otherwise: ordinary read errors are left to the caller's own reading,
 // which reports them with their context. It cannot prove that every later
 // read is safe, only that the same library paths did not crash.
@@ -88,6 +90,12 @@ func Screen(path string, chunks bool) error {
 	var ce *isolate.CrashError
 	if errors.As(err, &ce) {
 		return ce
+	}
+	// A read that never finished in the worker would not finish in this
+	// process either.
+	var te *isolate.TimeoutError
+	if errors.As(err, &te) {
+		return te
 	}
 	return nil
 }

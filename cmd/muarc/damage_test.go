@@ -632,3 +632,27 @@ func TestPackRefusesDamagedRecording(t *testing.T) {
 		t.Fatalf("verify after a later change: exit %d\n%s\n%s", code, stdout, stderr)
 	}
 }
+
+// TestStuckReadIsStopped: a worker read that does not finish within the
+// time limit (MUARC_WORKER_TIME_LIMIT; here far too short for any read, as
+// if the library looped on the file) is stopped and reported for its file,
+// naming the limit and how to raise it; the batch goes on to the next file
+// and nothing is opened in the command's own process.
+func TestStuckReadIsStopped(t *testing.T) {
+	a := smallFile(t)
+	dir := t.TempDir()
+	b := filepath.Join(dir, "second.h5")
+	data, _ := os.ReadFile(a)
+	os.WriteFile(b, data, 0o644)
+	t.Setenv("MUARC_WORKER_TIME_LIMIT", "1ms")
+	stdout, stderr, code := runMuarc(t, dir, "validate", a, b)
+	out := stdout + stderr
+	if code == 0 || strings.Count(out, "did not finish within 1ms") < 2 || !strings.Contains(out, "MUARC_WORKER_TIME_LIMIT") {
+		t.Fatalf("validate with a 1ms worker limit: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	t.Setenv("MUARC_WORKER_TIME_LIMIT", "soon")
+	stdout, stderr, code = runMuarc(t, dir, "validate", a)
+	if code != 2 || !strings.Contains(stdout+stderr, `MUARC_WORKER_TIME_LIMIT="soon"`) {
+		t.Fatalf("a bad limit must be refused naming the variable: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+}

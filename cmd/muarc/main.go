@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"muarc/internal/atomicfile"
+	"muarc/internal/isolate"
 	"muarc/schema"
 	"muarc/validate"
 )
@@ -69,6 +70,12 @@ func main() {
 	// Every recording this program opens in its own process is first read
 	// in a worker (validate.Screen).
 	validate.Screener = validate.Screen
+	// A bad worker setting (MUARC_WORKER_TIME_LIMIT) stops the run before
+	// any file is read, rather than reading files unprotected.
+	if _, err := isolate.Default(); err != nil {
+		fmt.Fprintln(os.Stderr, "muarc:", err)
+		os.Exit(2)
+	}
 	err := rootCmd.Execute()
 	if err == nil {
 		return

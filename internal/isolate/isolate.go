@@ -11,6 +11,11 @@
 // worker, not once per file; a worker that dies is replaced by a fresh one
 // for the next call, and the call it was serving returns a *CrashError.
 //
+// A call that does not finish within the pool's time limit (a file whose
+// damaged metadata sends the C library into an endless loop) has its
+// worker killed and returns a *TimeoutError; the limit is generous by
+// default (DefaultCallLimit) and set by MUARC_WORKER_TIME_LIMIT.
+//
 // Requests and results travel as JSON lines on the worker's standard input
 // and output; its standard error is kept to explain a crash.
 package isolate
@@ -28,8 +33,20 @@ import (
 	"runtime"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"syscall"
+	"time"
 )
+
+// DefaultCallLimit is the longest one call may take in a worker before the
+// worker is killed. It is far above what reading any real recording takes
+// here (validating a 1 GB recording: about 1.3 s), so that it only ever
+// stops a worker that is stuck.
+const DefaultCallLimit = 10 * time.Minute
+
+// EnvCallLimit names the environment variable that sets the time limit of
+// one call, as a Go duration ("90s", "20m"); "0" turns the limit off.
+const EnvCallLimit = "MUARC_WORKER_TIME_LIMIT"
 
 // EnvWorker is set in a worker's environment.
 const EnvWorker = "MUARC_ISOLATE_WORKER"
@@ -139,9 +156,19 @@ func (e *CrashError) Error() string {
 	return "the worker process reading it ended unexpectedly: " + e.Detail
 }
 
+// TimeoutError is returned by Pool.Call when the call did not finish within
+// the pool's time limit; its worker was killed.
+type TimeoutError struct{ Limit time.Duration }
+
+func (e *TimeoutError) Error() string {
+	return fmt.Sprintf("reading it did not finish within %v, so the worker was stopped: the file's HDF5 metadata may be damaged so that the library loops; if the file is just very large, raise the limit with %s (e.g. %s=1h)",
+		e.Limit, EnvCallLimit, EnvCallLimit)
+}
+
 // Pool runs calls in up to Max worker processes.
 type Pool struct {
 	max   int
+	limit time.Duration
 	exe   string
 	mu    sync.Mutex
 	cond  *sync.Cond
@@ -161,9 +188,35 @@ func NewPool(max int) (*Pool, error) {
 	if max <= 0 {
 		max = runtime.NumCPU()
 	}
-	p := &Pool{max: max, exe: exe}
+	limit, err := callLimitFromEnv()
+	if err != nil {
+		return nil, err
+	}
+	p := &Pool{max: max, exe: exe, limit: limit}
 	p.cond = sync.NewCond(&p.mu)
 	return p, nil
+}
+
+func callLimitFromEnv() (time.Duration, error) {
+	v := strings.TrimSpace(os.Getenv(EnvCallLimit))
+	if v == "" {
+		return DefaultCallLimit, nil
+	}
+	if v == "0" {
+		return 0, nil
+	}
+	d, err := time.ParseDuration(v)
+	if err != nil || d < 0 {
+		return 0, fmt.Errorf("%s=%q: want a duration such as 90s or 20m, or 0 for no limit", EnvCallLimit, v)
+	}
+	return d, nil
+}
+
+// SetCallLimit sets the longest one call may take (0: no limit).
+func (p *Pool) SetCallLimit(d time.Duration) {
+	p.mu.Lock()
+	p.limit = d
+	p.mu.Unlock()
 }
 
 var (
@@ -208,6 +261,17 @@ func (p *Pool) Call(kind string, arg any, out any) error {
 		return err
 	}
 	w.stderr.Reset()
+	p.mu.Lock()
+	limit := p.limit
+	p.mu.Unlock()
+	var expired atomic.Bool
+	var timer *time.Timer
+	if limit > 0 {
+		timer = time.AfterFunc(limit, func() {
+			expired.Store(true)
+			w.cmd.Process.Kill()
+		})
+	}
 	var resp response
 	_, werr := w.in.Write(req)
 	var line []byte
@@ -217,12 +281,28 @@ func (p *Pool) Call(kind string, arg any, out any) error {
 	if werr == nil {
 		werr = json.Unmarshal(line, &resp)
 	}
+	if timer != nil && !timer.Stop() && werr == nil {
+		// The answer came just as the limit struck: keep the answer, but
+		// the worker is being killed, so do not reuse it.
+		w.kill()
+		p.drop()
+		return decode(resp, out)
+	}
 	if werr != nil {
 		crash := w.kill()
 		p.drop()
+		if expired.Load() {
+			return &TimeoutError{Limit: limit}
+		}
 		return crash
 	}
 	p.put(w)
+	return decode(resp, out)
+}
+
+// decode gives a worker's answer: its error, or its result decoded into
+// out (when not nil).
+func decode(resp response, out any) error {
 	if resp.Err != "" {
 		return errors.New(resp.Err)
 	}

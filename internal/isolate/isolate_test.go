@@ -7,6 +7,7 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 )
 
 func init() {
@@ -20,6 +21,9 @@ func init() {
 		os.Stderr.WriteString("about to go\n")
 		os.Exit(3)
 		return nil, nil
+	})
+	Register("test.hang", func(json.RawMessage) (any, error) {
+		select {} // a library stuck in a loop never answers
 	})
 	Register("test.crash", func(json.RawMessage) (any, error) {
 		done := make(chan bool)
@@ -89,5 +93,47 @@ func TestWorkersAreReusedAndReplaced(t *testing.T) {
 	}
 	if err := p.Call("no.such", nil, nil); err == nil || !strings.Contains(err.Error(), "no handler") {
 		t.Fatalf("unknown kind: %v", err)
+	}
+}
+
+// TestStuckWorkerIsStopped: a call that never answers is stopped at the
+// pool's time limit with a *TimeoutError naming the limit and the variable
+// that raises it, and the next call gets a fresh worker.
+func TestStuckWorkerIsStopped(t *testing.T) {
+	p, err := NewPool(1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer p.Close()
+	p.SetCallLimit(300 * time.Millisecond)
+	err = p.Call("test.hang", nil, nil)
+	var te *TimeoutError
+	if !errors.As(err, &te) || te.Limit != 300*time.Millisecond || !strings.Contains(err.Error(), EnvCallLimit) {
+		t.Fatalf("want a TimeoutError after 300ms naming %s, got %v", EnvCallLimit, err)
+	}
+	var e echo
+	if err := p.Call("test.echo", "after", &e); err != nil || e.Echo != "after" {
+		t.Fatalf("the call after a stopped worker: %v %+v", err, e)
+	}
+	if p.Started() != 2 {
+		t.Fatalf("want a fresh worker after the stuck one, started %d", p.Started())
+	}
+}
+
+// TestCallLimitFromEnv: the variable takes Go durations and 0; anything
+// else is refused with the variable named.
+func TestCallLimitFromEnv(t *testing.T) {
+	for v, want := range map[string]time.Duration{"": DefaultCallLimit, "0": 0, "90s": 90 * time.Second, "1h": time.Hour} {
+		t.Setenv(EnvCallLimit, v)
+		got, err := callLimitFromEnv()
+		if err != nil || got != want {
+			t.Errorf("%s=%q: got %v, %v; want %v", EnvCallLimit, v, got, err, want)
+		}
+	}
+	for _, v := range []string{"ten minutes", "-5s", "12"} {
+		t.Setenv(EnvCallLimit, v)
+		if _, err := callLimitFromEnv(); err == nil || !strings.Contains(err.Error(), EnvCallLimit) {
+			t.Errorf("%s=%q: want a refusal naming the variable, got %v", EnvCallLimit, v, err)
+		}
 	}
 }
