@@ -17,7 +17,7 @@ import (
 
 // rectPlan is what a fast rectangle read needs to know about a matrix.
 type rectPlan struct {
-	ok       bool // chunks are [shuffle,] deflate, fletcher32 float32/64
+	ok       bool // chunks are [shuffle,] deflate, fletcher32 little-endian IEEE float32/64
 	shuffled bool
 	chunk    []int
 	elem     int
@@ -27,7 +27,7 @@ func (d *Dataset) plan() *rectPlan {
 	d.planOnce.Do(func() {
 		p := &rectPlan{}
 		d.rect = p
-		if len(d.Shape) != 2 || (d.Type != "float32" && d.Type != "float64") {
+		if len(d.Shape) != 2 || !d.ieeeLE {
 			return
 		}
 		chunk, filters, err := d.Layout()
