@@ -45,6 +45,15 @@ type Inputs struct {
 	// Unmatched lists files of a recording folder that no template took
 	// (reported, not read).
 	Unmatched []string
+	// LabMeta is the lab's own metadata file of the recording and
+	// Subjects the study's subjects table, both mapped through the
+	// profile's lab_metadata section (labmeta.go); "" for none.
+	LabMeta, Subjects string
+	// SubjectFolder is the recording's subject code when the profile's
+	// lab_metadata.subject_from is "folder" ("" = the folder's own name).
+	SubjectFolder string
+	// subjects is the subjects table read once for a whole study.
+	subjects *SubjectTable
 }
 
 // FileReport says what was read from one input file and what was assumed.
@@ -87,6 +96,8 @@ type Plan struct {
 	sigs      []*Signals
 	arrays    [][2]string // trial and array name of each EMG source
 	reportIdx []int       // each EMG source's entry in Report.Files
+	// extraSources are files read besides the inputs (a subjects table).
+	extraSources []input
 }
 
 type input struct {
@@ -121,14 +132,24 @@ func Read(in Inputs) (*Plan, error) {
 	rep := &Report{}
 	pl := &Plan{Rec: rec, Report: rep}
 	var files []input
+	var sc *Sidecar
 	if in.Meta != "" {
 		files = append(files, input{path: in.Meta, rel: rel(in.Meta), role: "metadata"})
-		sc, err := ReadSidecar(in.Meta)
-		if err != nil {
+		var err error
+		if sc, err = ReadSidecar(in.Meta); err != nil {
 			return nil, err
 		}
-		sc.Apply(rec)
 		rep.Files = append(rep.Files, FileReport{Name: rel(in.Meta), Role: "metadata", Notes: []string{"validated against the recording JSON Schema"}})
+	}
+	if in.LabMeta != "" {
+		files = append(files, input{path: in.LabMeta, rel: rel(in.LabMeta), role: "lab_metadata"})
+	}
+	view, err := pl.labMetadata(in, prof, sc, rel)
+	if err != nil {
+		return nil, err
+	}
+	if view != nil {
+		(&Sidecar{File: in.Meta, View: view}).Apply(rec)
 	} else {
 		rep.Notes = append(rep.Notes, "no metadata sidecar: study, subject and session are empty")
 	}
@@ -252,7 +273,7 @@ func Read(in Inputs) (*Plan, error) {
 		return nil, err
 	}
 	// Provenance.
-	for _, f := range files {
+	for _, f := range append(files, pl.extraSources...) {
 		sf, err := sourceFile(f.path, f.rel, f.role)
 		if err != nil {
 			pl.Close()

@@ -31,6 +31,9 @@ type Profile struct {
 	Units      ProfileUnits      `yaml:"units" json:"units"`
 	// EDF maps the signals of EDF/BDF files (edf.go).
 	EDF ProfileEDF `yaml:"edf" json:"edf"`
+	// LabMetadata maps a lab's own metadata files (one per recording,
+	// one subjects table per study) onto registry fields (labmeta.go).
+	LabMetadata ProfileLabMetadata `yaml:"lab_metadata" json:"lab_metadata"`
 
 	// File is the profile's own path ("" when built in).
 	File string `yaml:"-" json:"-"`
@@ -211,6 +214,9 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 	}
 	if fi := p.Discharges.FirstIndex; fi != nil && *fi != 0 && *fi != 1 {
 		return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: discharges: first_index %d", *fi), Hint: "write 0 or 1, or leave it out"}
+	}
+	if err := p.LabMetadata.check(); err != nil {
+		return nil, &ParseError{File: path, Msg: "profile: " + err.Error(), Hint: "see convert/PROFILES.md, \"A lab's own metadata\""}
 	}
 	for h, fld := range p.Units.Columns {
 		if _, ok := fieldUnits[fld]; !ok {

@@ -5,6 +5,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -50,12 +51,22 @@ func FindRecordings(dir string, prof *Profile) ([]StudyRecording, error) {
 			if err != nil {
 				return err
 			}
-			if !d.IsDir() && filepath.ToSlash(d.Name()) == filepath.Base(prof.Files.Metadata) {
-				root := filepath.Dir(p)
-				if strings.Contains(prof.Files.Metadata, "/") {
-					root = filepath.Clean(strings.TrimSuffix(p, filepath.FromSlash(prof.Files.Metadata)))
+			if d.IsDir() {
+				return nil
+			}
+			// A recording folder holds the metadata sidecar or the lab's
+			// own metadata file.
+			for _, mf := range []string{prof.Files.Metadata, prof.LabMetadata.File} {
+				if mf == "" || filepath.ToSlash(d.Name()) != filepath.Base(mf) {
+					continue
 				}
-				folders = append(folders, root)
+				root := filepath.Dir(p)
+				if strings.Contains(mf, "/") {
+					root = filepath.Clean(strings.TrimSuffix(p, filepath.FromSlash(mf)))
+				}
+				if len(folders) == 0 || folders[len(folders)-1] != root {
+					folders = append(folders, root)
+				}
 			}
 			return nil
 		})
@@ -64,6 +75,7 @@ func FindRecordings(dir string, prof *Profile) ([]StudyRecording, error) {
 		}
 	}
 	sort.Strings(folders)
+	folders = slices.Compact(folders)
 	var out []StudyRecording
 	for _, f := range folders {
 		r, err := MatchRecording(f, prof)
@@ -106,6 +118,8 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 		switch {
 		case r == prof.Files.Metadata:
 			in.Meta = p
+		case prof.LabMetadata.File != "" && r == prof.LabMetadata.File:
+			in.LabMeta = p
 		case r == prof.Files.History:
 			in.History = p
 		case matches(reF, r):
@@ -154,6 +168,9 @@ type StudyOptions struct {
 	// core).
 	Workers   int
 	Overwrite bool
+	// SubjectsFile is the study's subjects table (--subjects); "" = the
+	// profile's lab_metadata.subjects, relative to the study folder.
+	SubjectsFile string
 	// Progress is called after each recording with the count done and the
 	// total (for a progress bar); may be nil.
 	Progress func(done, total int)
@@ -198,16 +215,31 @@ func ImportStudy(src, outDir string, opt StudyOptions) ([]StudyResult, error) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		return nil, fmt.Errorf("%s: not a folder", src)
 	}
+	if opt.Profile == nil {
+		opt.Profile = DefaultProfile()
+	}
 	recs, err := FindRecordings(src, opt.Profile)
 	if err != nil {
 		return nil, err
 	}
 	if len(recs) == 0 {
-		prof := opt.Profile
-		if prof == nil {
-			prof = DefaultProfile()
+		what := opt.Profile.Files.Metadata
+		if lf := opt.Profile.LabMetadata.File; lf != "" {
+			what += " or " + lf
 		}
-		return nil, fmt.Errorf("%s: no recording folders found (each needs its metadata file %s; see the profile)", src, prof.Files.Metadata)
+		return nil, fmt.Errorf("%s: no recording folders found (each needs its metadata file %s; see the profile)", src, what)
+	}
+	var subjects *SubjectTable
+	if sf := opt.SubjectsFile; sf != "" || opt.Profile.LabMetadata.Subjects != "" {
+		if sf == "" {
+			sf = opt.Profile.LabMetadata.Subjects
+			if !filepath.IsAbs(sf) {
+				sf = filepath.Join(src, sf)
+			}
+		}
+		if subjects, err = ReadSubjectTable(sf, opt.Profile); err != nil {
+			return nil, err
+		}
 	}
 	byName := map[string]StudyRecording{}
 	var names []string
@@ -229,6 +261,10 @@ func ImportStudy(src, outDir string, opt StudyOptions) ([]StudyResult, error) {
 	batch.Run(len(names), opt.Workers, func(i int) error {
 		r := byName[names[i]]
 		r.Inputs.DType = opt.DType
+		r.Inputs.subjects = subjects
+		if r.Inputs.SubjectFolder = strings.SplitN(r.Name, "/", 2)[0]; r.Name == "." {
+			r.Inputs.SubjectFolder = ""
+		}
 		out := filepath.Join(outDir, OutputName(src, r.Name))
 		res[i] = StudyResult{Recording: r.Name}
 		rep, err := ImportRecording(r.Inputs, out, recfile.WriteOptions{Overwrite: opt.Overwrite})

@@ -18,6 +18,7 @@ import (
 
 type importFlags struct {
 	meta, profile, out, dtype, shard, shardReport string
+	labMeta, subjects                             string
 	force, emg, dis, units, read                  []string
 	overwrite, json, allowGaps, allowRange        bool
 	rate                                          float64
@@ -43,7 +44,10 @@ or a whole study, one recording per folder, in parallel:
 
   muarc import --profile P SOURCE_DIR -o OUT_DIR
 
-Start the metadata sidecar from "muarc schema --example > metadata.json".
+Start the metadata sidecar from "muarc schema --example > metadata.json", or keep
+the lab's own metadata files (one per recording, "key: value" lines or a one-row
+table, and one subjects table for the study) and map their names and words in
+the profile's lab_metadata section (convert/PROFILES.md, "A lab's own metadata").
 
 Delimiters, headers, units, time columns and decimal commas are detected only
 where one reading fits. A discharge file (one line per unit, "MU1: t1 t2 ...",
@@ -67,6 +71,8 @@ file is which and how to read it.`,
 	}
 	f := cmd.Flags()
 	f.StringVar(&fl.meta, "meta", "", "metadata sidecar (JSON or YAML)")
+	f.StringVar(&fl.labMeta, "lab-meta", "", "the lab's own metadata file of the recording, mapped by the profile's lab_metadata section")
+	f.StringVar(&fl.subjects, "subjects", "", "the study's subjects table (CSV/TSV, one row per subject), mapped by the profile's lab_metadata section")
 	f.StringArrayVar(&fl.force, "force", nil, "force file (one per trial; repeat)")
 	f.StringArrayVar(&fl.emg, "emg", nil, "EMG file (one per array and trial; repeat)")
 	f.StringArrayVar(&fl.dis, "discharges", nil, "discharge file (repeat)")
@@ -123,7 +129,7 @@ func runImport(w io.Writer, fl importFlags, args []string) error {
 		return withExit(2, err)
 	}
 	if len(args) == 1 {
-		if fl.meta != "" || len(fl.force)+len(fl.emg)+len(fl.dis)+len(fl.units) > 0 {
+		if fl.meta != "" || fl.labMeta != "" || len(fl.force)+len(fl.emg)+len(fl.dis)+len(fl.units) > 0 {
 			return withExit(2, errors.New("give either SOURCE_DIR or the files (--meta, --force, --emg, ...), not both"))
 		}
 		return importStudy(w, fl, args[0], prof, dtype)
@@ -131,7 +137,7 @@ func runImport(w io.Writer, fl importFlags, args []string) error {
 	if len(fl.emg)+len(fl.force) == 0 {
 		return withExit(2, errors.New("give the files of a recording (--emg, --force, ...) or a SOURCE_DIR"))
 	}
-	in := convert.Inputs{Meta: fl.meta, Force: fl.force, EMG: fl.emg, Discharges: fl.dis, Units: fl.units,
+	in := convert.Inputs{Meta: fl.meta, LabMeta: fl.labMeta, Subjects: fl.subjects, Force: fl.force, EMG: fl.emg, Discharges: fl.dis, Units: fl.units,
 		Profile: prof, DType: dtype, RateHz: fl.rate, AllowGaps: fl.allowGaps}
 	if err := atomicfile.CheckTarget(fl.out, fl.overwrite); err != nil {
 		return withExit(2, err)
@@ -163,7 +169,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 	if err != nil {
 		return withExit(2, err)
 	}
-	res, err := importStudyDir(src, fl.out, convert.StudyOptions{Profile: prof, DType: dtype, Shard: shard, Workers: fl.workers, Overwrite: fl.overwrite}, "import")
+	res, err := importStudyDir(src, fl.out, convert.StudyOptions{Profile: prof, SubjectsFile: fl.subjects, DType: dtype, Shard: shard, Workers: fl.workers, Overwrite: fl.overwrite}, "import")
 	if err != nil {
 		return withExit(2, err)
 	}
