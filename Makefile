@@ -16,20 +16,25 @@ DEMO    ?= demo-out
 # into scripts/h5wasm from its package-lock.json) run LAYOUT.md's snippets.
 # slurm-wlm and munge: archive/examples' job arrays run under a real
 # single-node Slurm started by the test.
+# BENCH_PACKAGES are the storage baselines only make bench uses: xz -9 and
+# flac -8 of the raw converter counts (scripts/bench-storage.sh).
 RUN_PACKAGES := libhdf5-dev libdeflate-dev pkg-config
 DEB_PACKAGES := $(RUN_PACKAGES) hdf5-tools python3-h5py \
 	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium \
 	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge
+BENCH_PACKAGES := xz-utils flac
 
-.PHONY: all deps deps-run build demo test bench fuzz vet clean
+.PHONY: all deps deps-run deps-bench build demo test bench bench-more fuzz vet clean
 
 all: build
 
 # deps installs whatever of DEB_PACKAGES is missing, deps-run whatever of
-# RUN_PACKAGES (apt-get update once, only when something is missing).
+# RUN_PACKAGES, deps-bench DEB_PACKAGES and BENCH_PACKAGES (apt-get update
+# once, only when something is missing).
 deps: PKGS = $(DEB_PACKAGES)
 deps-run: PKGS = $(RUN_PACKAGES)
-deps deps-run:
+deps-bench: PKGS = $(DEB_PACKAGES) $(BENCH_PACKAGES)
+deps deps-run deps-bench:
 	@missing=""; for p in $(PKGS); do \
 		dpkg-query -W -f='$${Status}' $$p 2>/dev/null | grep -q "install ok installed" || missing="$$missing $$p"; \
 	done; \
@@ -57,8 +62,21 @@ test: deps
 	$(GO) vet ./...
 	CI=true $(GO) test -count=1 -timeout 30m ./...
 
-# bench runs the benchmarks; figures go to bench-out/ and stdout.
-bench: deps
+# bench prints, in one run, the table of every measured figure against its
+# baseline (muarc, baseline, ratio, peak memory): storage of realistic EMG
+# against h5py int16, xz -9 and flac -8, import against pandas + h5py, and
+# index, validate and deidentify on studies of small recordings against
+# h5py, then peak memory on 20 against 2,000 recordings and the HDF5 filter
+# sweep (scripts/bench-study.sh, scripts/bench-storage.sh). Into
+# bench-out/table.txt and stdout. Not part of make test.
+bench: deps-bench
+	mkdir -p bench-out
+	bash scripts/bench-study.sh | tee bench-out/table.txt
+
+# bench-more runs the Go benchmarks (chunk shapes, reads, analysis,
+# validate, deid, pack hashing, import parsing), import and validate of
+# large files against pandas and h5py, and the peak memory of long writes.
+bench-more: deps
 	mkdir -p bench-out
 	$(GO) test -run XXX -bench . -benchtime 3x -benchmem ./recfile ./h5 | tee bench-out/recfile.txt
 	$(GO) test -run XXX -bench . -benchtime 3x ./synth | tee bench-out/synth.txt
@@ -70,7 +88,6 @@ bench: deps
 	sh convert/testdata/bench.sh | tee bench-out/import-vs-pandas.txt
 	sh validate/testdata/bench_validate.sh | tee bench-out/validate-vs-h5py.txt
 	bash scripts/bench-peak-rss.sh | tee bench-out/peak-rss.txt
-	bash scripts/bench-study.sh | tee bench-out/study.txt
 
 # fuzz runs each fuzz target for FUZZTIME (default 30s).
 FUZZTIME ?= 30s

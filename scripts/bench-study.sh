@@ -11,7 +11,9 @@
 #                its folder (distinct paths, the same few contents)
 #   BENCH_DEID_N recordings de-identified against the h5py copy (default 200)
 #   BENCH_ONE_S  seconds of the single large recording (default 300: ~140 MB)
-#   BENCH_PARTS  which rows (default index,validate,deidentify,memory)
+#   BENCH_PARTS  which rows (default
+#                index,validate,deidentify,import,storage,memory,sweep;
+#                import, storage and sweep are scripts/bench-storage.sh's)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 N=${BENCH_N:-2000}; SMALL=${BENCH_SMALL:-20}; BIG=${BENCH_BIG:-10000}
@@ -46,7 +48,8 @@ row() { # row WORK MUARC_S BASE_S BASE_WHAT MIB
 	awk -v w="$1" -v m="$2" -v b="$3" -v bw="$4" -v mib="$5" 'BEGIN {
 		printf "| %s | %.2f s | %s: %.2f s | %.1fx | %s MiB |\n", w, m, bw, b, m / b, mib }'
 }
-want() { [[ ",${BENCH_PARTS:-index,validate,deidentify,memory}," == *",$1,"* ]]; }
+want() { [[ ",${BENCH_PARTS:-index,validate,deidentify,import,storage,memory,sweep}," == *",$1,"* ]]; }
+declare -A large # peak MiB and wall s of a table run on the large study, reused by mem
 key="$tmp/study.key"
 "$muarc" key new "$key" >/dev/null
 
@@ -71,6 +74,7 @@ rm -f "$L/.muarc-catalogue.jsonl" "$S/.muarc-catalogue.jsonl"
 if want index || want validate; then run base "$py" scripts/bench/rootattrs.py "$L"; B=$W; fi
 if want index; then
 run idx "$muarc" index --no-catalogue "$L"
+large[index]="$M $W"
 row "\`muarc index\` on $N recordings, no catalogue" "$W" "$B" "h5py root attributes" "$M"
 run idxc "$muarc" index --catalogue "$L"
 row "\`muarc index --catalogue\` on $N (builds it)" "$W" "$B" "h5py root attributes" "$M"
@@ -91,6 +95,7 @@ fi
 fi
 if want validate; then
 run val "$muarc" validate "$L"
+large[validate]="$M $W"
 row "\`muarc validate\` on $N recordings" "$W" "$B" "h5py root attributes" "$M"
 fi
 if want deidentify; then
@@ -106,10 +111,12 @@ run one "$muarc" deidentify "$tmp/onedir/one.h5" -o "$tmp/one-shared.h5" --key "
 row "\`muarc deidentify\` on one $(du -m "$tmp/onedir/one.h5" | cut -f1) MB recording" "$W" "$OB" "h5py copy of every object" "$M"
 rm -rf "$tmp/onedir" "$tmp/one-shared.h5"
 fi
-echo "| import of a 64 ch x 2048 Hz x 60 s CSV | see import-vs-pandas.txt (convert/testdata/bench.sh) in the same run | | | |"
-echo "| bytes per sample of realistic EMG | not measured here (compression work); README figures are from the earlier measurement | | | |"
+parts=""
+for p in import storage; do want $p && parts="$parts,$p"; done
+[ -z "$parts" ] || BENCH_PARTS=${parts#,} BENCH_HEADER= bash scripts/bench-storage.sh
 
-want memory || exit 0
+sweep() { want sweep && BENCH_PARTS=sweep bash scripts/bench-storage.sh || true; }
+want memory || { sweep; exit 0; }
 echo
 echo "Peak memory (muarc and its worker processes), $SMALL vs $N recordings:"
 echo
@@ -121,7 +128,12 @@ mem() { # mem NAME ARGS-with-@ (@ is the study folder, % a fresh output)
 	for x in "$@"; do a+=("${x//@/$S}"); b+=("${x//@/$L}"); done
 	a=("${a[@]//%/$tmp/o-$name-s}"); b=("${b[@]//%/$tmp/o-$name-l}")
 	run "m-$name-s" "$muarc" "${a[@]}"; local ms=$M
-	run "m-$name-l" "$muarc" "${b[@]}"; local ml=$M wl=$W
+	local ml wl
+	if [ -n "${large[$name]:-}" ]; then
+		read -r ml wl <<<"${large[$name]}" # measured in the table above
+	else
+		run "m-$name-l" "$muarc" "${b[@]}"; ml=$M wl=$W
+	fi
 	rm -rf "$tmp/o-$name-s" "$tmp/o-$name-l"
 	awk -v n="$name" -v s="$ms" -v l="$ml" -v w="$wl" 'BEGIN { printf "| %s | %d MiB | %d MiB | %.2fx | %.1f s |\n", n, s, l, l / s, w }'
 }
@@ -130,3 +142,4 @@ mem validate validate @
 mem deidentify deidentify @ -o % --key "$key"
 mem pack pack @ -o % --allow-identified
 mem report report @ -o %.html
+sweep
