@@ -50,7 +50,10 @@ func (o CompareOptions) withDefaults() CompareOptions {
 // Train is one unit's discharge times in seconds from the trial start,
 // ascending.
 type Train struct {
-	ID     int64
+	ID int64
+	// Name is what people see: the lab's label, the id when there is none
+	// (record.Unit.Name).
+	Name   string
 	TimesS []float64
 }
 
@@ -101,6 +104,9 @@ func RateOfAgreement(common, onlyA, onlyB int) float64 {
 type Pair struct {
 	A int64 `json:"a"`
 	B int64 `json:"b"`
+	// NameA and NameB are the units' names (Train.Name).
+	NameA string `json:"label_a"`
+	NameB string `json:"label_b"`
 	// LagS is how much later B's discharges come than A's at the best
 	// alignment, s.
 	LagS   float64 `json:"lag_s"`
@@ -117,9 +123,12 @@ type Comparison struct {
 	MaxLagS    float64 `json:"max_lag_s"`
 	MinRoA     float64 `json:"min_roa"`
 	Pairs      []Pair  `json:"pairs"`
-	// UnmatchedA and UnmatchedB list the unit ids with no partner.
-	UnmatchedA []int64 `json:"unmatched_a"`
-	UnmatchedB []int64 `json:"unmatched_b"`
+	// UnmatchedA and UnmatchedB list the unit ids with no partner, and
+	// UnmatchedNamesA and UnmatchedNamesB their names.
+	UnmatchedA      []int64  `json:"unmatched_a"`
+	UnmatchedB      []int64  `json:"unmatched_b"`
+	UnmatchedNamesA []string `json:"unmatched_labels_a"`
+	UnmatchedNamesB []string `json:"unmatched_labels_b"`
 }
 
 // bestLag returns the agreement of a and b at the lag in [-MaxLagS,
@@ -156,7 +165,7 @@ func Compare(a, b []Train, opt CompareOptions) Comparison {
 	for _, ua := range a {
 		for _, ub := range b {
 			p := bestLag(ua.TimesS, ub.TimesS, o)
-			p.A, p.B = ua.ID, ub.ID
+			p.A, p.B, p.NameA, p.NameB = ua.ID, ub.ID, ua.Name, ub.Name
 			if p.RoA >= o.MinRoA {
 				cand = append(cand, p)
 			}
@@ -170,7 +179,7 @@ func Compare(a, b []Train, opt CompareOptions) Comparison {
 	})
 	usedA, usedB := map[int64]bool{}, map[int64]bool{}
 	res := Comparison{ToleranceS: o.ToleranceS, MaxLagS: o.MaxLagS, MinRoA: o.MinRoA,
-		Pairs: []Pair{}, UnmatchedA: []int64{}, UnmatchedB: []int64{}}
+		Pairs: []Pair{}, UnmatchedA: []int64{}, UnmatchedB: []int64{}, UnmatchedNamesA: []string{}, UnmatchedNamesB: []string{}}
 	for _, p := range cand {
 		if usedA[p.A] || usedB[p.B] {
 			continue
@@ -181,12 +190,12 @@ func Compare(a, b []Train, opt CompareOptions) Comparison {
 	sort.Slice(res.Pairs, func(i, j int) bool { return res.Pairs[i].A < res.Pairs[j].A })
 	for _, u := range a {
 		if !usedA[u.ID] {
-			res.UnmatchedA = append(res.UnmatchedA, u.ID)
+			res.UnmatchedA, res.UnmatchedNamesA = append(res.UnmatchedA, u.ID), append(res.UnmatchedNamesA, u.Name)
 		}
 	}
 	for _, u := range b {
 		if !usedB[u.ID] {
-			res.UnmatchedB = append(res.UnmatchedB, u.ID)
+			res.UnmatchedB, res.UnmatchedNamesB = append(res.UnmatchedB, u.ID), append(res.UnmatchedNamesB, u.Name)
 		}
 	}
 	return res

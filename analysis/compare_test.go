@@ -47,13 +47,13 @@ func TestCompareFindsLagAndMatches(t *testing.T) {
 	if c, _, _ := Agreement(a1, b1, 0.0005, 0); c != 0 {
 		t.Fatalf("at lag 0 common %d, want 0", c)
 	}
-	res := Compare([]Train{{1, a1}, {2, a2}, {3, a3}}, []Train{{10, b1}, {20, b2}},
+	res := Compare([]Train{{1, "MU1", a1}, {2, "MU2", a2}, {3, "", a3}}, []Train{{10, "7", b1}, {20, "8", b2}},
 		CompareOptions{LagStepS: 0.0005})
 	if len(res.Pairs) != 2 {
 		t.Fatalf("pairs %+v", res.Pairs)
 	}
 	p := res.Pairs[0]
-	if p.A != 1 || p.B != 10 || p.Common != 4 || p.OnlyA != 0 || p.OnlyB != 1 {
+	if p.A != 1 || p.B != 10 || p.NameA != "MU1" || p.NameB != "7" || p.Common != 4 || p.OnlyA != 0 || p.OnlyB != 1 {
 		t.Errorf("pair 1: %+v", p)
 	}
 	if math.Abs(p.LagS-0.001) > 1e-12 || math.Abs(p.RoA-0.8) > 1e-12 {
@@ -62,7 +62,7 @@ func TestCompareFindsLagAndMatches(t *testing.T) {
 	if q := res.Pairs[1]; q.A != 2 || q.B != 20 || q.RoA != 1 || q.LagS != 0 {
 		t.Errorf("pair 2: %+v", q)
 	}
-	if len(res.UnmatchedA) != 1 || res.UnmatchedA[0] != 3 || len(res.UnmatchedB) != 0 {
+	if len(res.UnmatchedA) != 1 || res.UnmatchedA[0] != 3 || res.UnmatchedNamesA[0] != "" || len(res.UnmatchedB) != 0 {
 		t.Errorf("unmatched A %v B %v", res.UnmatchedA, res.UnmatchedB)
 	}
 }

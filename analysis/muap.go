@@ -26,8 +26,11 @@ type Templates struct {
 	// sample.
 	Averaged []int
 	AtEdge   []int
-	// IDs are the unit ids, in template order.
-	IDs []int64
+	// IDs are the unit ids, in template order, and Names what people
+	// see: the lab's labels, the id where a unit has none
+	// (record.Unit.Name).
+	IDs   []int64
+	Names []string
 	// PeakToPeak is, per unit and channel, max - min of the template over
 	// its lags, in MUAPs.Unit.
 	PeakToPeak [][]float64
@@ -72,6 +75,7 @@ func ArrayTemplates(arr *record.Array, halfWindowS float64) ([]*Templates, error
 			FirstLag: firstLag, Unit: arr.Unit, Data: make([]float32, len(dec.Units)*nch*lags)}}
 		for ui := range dec.Units {
 			t.IDs = append(t.IDs, dec.Units[ui].ID)
+			t.Names = append(t.Names, dec.Units[ui].Name())
 			t.Averaged = append(t.Averaged, counts[k])
 			t.AtEdge = append(t.AtEdge, edge[k])
 			p2p := make([]float64, nch)

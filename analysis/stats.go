@@ -37,7 +37,7 @@ func Method() map[string]any {
 type UnitStats struct {
 	ID int64 `json:"id"`
 	// Label is the unit's label as the lab wrote it ("" when none).
-	Label      string `json:"label,omitempty"`
+	Label      string `json:"label"`
 	Discharges int    `json:"discharge_count"`
 	// FirstS and LastS are the times of the first and last discharge, s
 	// from the trial start.

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"strconv"
 
 	gplot "gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
@@ -84,15 +85,23 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 		kx := dc.Min.X + vg.Points(8)
 		bar := draw.LineStyle{Color: color.Black, Width: vg.Points(1.2)}
 		dc.StrokeLine2(bar, kx, ky, kx+cellW*0.9, ky)
-		dc.FillText(small, vg.Point{X: kx + cellW*0.9 + vg.Points(4), Y: ky + vg.Points(5)}, fmt.Sprintf("%.0f ms (one cell's trace)", winMs))
-		kx += cellW*0.9 + vg.Points(130)
-		dc.FillText(small, vg.Point{X: kx, Y: ky + vg.Points(5)}, "cell shade: peak-to-peak relative to the unit's largest")
-		kx += vg.Points(265)
+		kx += cellW*0.9 + vg.Points(4)
+		kx = keyText(dc, small, kx, ky, fmt.Sprintf("%.0f ms (one cell's trace)", winMs)) + vg.Points(28)
+		kx = keyText(dc, small, kx, ky, "cell shade, the channel's peak-to-peak relative to the unit's largest:") + vg.Points(10)
+		// Five swatches, each with its percentage right of it and a clear
+		// gap before the next.
 		for i := 0; i <= 4; i++ {
 			sh := uint8(255 - 90*float64(i)/4)
-			x := kx + vg.Points(34)*vg.Length(i)
-			dc.FillPolygon(color.RGBA{R: sh, G: sh, B: 255, A: 255}, []vg.Point{{X: x, Y: ky - vg.Points(5)}, {X: x + vg.Points(14), Y: ky - vg.Points(5)}, {X: x + vg.Points(14), Y: ky + vg.Points(5)}, {X: x, Y: ky + vg.Points(5)}})
-			dc.FillText(small, vg.Point{X: x + vg.Points(16), Y: ky + vg.Points(5)}, fmt.Sprintf("%d%%", 25*i))
+			dc.FillPolygon(color.RGBA{R: sh, G: sh, B: 255, A: 255}, []vg.Point{{X: kx, Y: ky - vg.Points(6)}, {X: kx + vg.Points(16), Y: ky - vg.Points(6)}, {X: kx + vg.Points(16), Y: ky + vg.Points(6)}, {X: kx, Y: ky + vg.Points(6)}})
+			edge := vg.Path{}
+			edge.Move(vg.Point{X: kx, Y: ky - vg.Points(6)})
+			edge.Line(vg.Point{X: kx + vg.Points(16), Y: ky - vg.Points(6)})
+			edge.Line(vg.Point{X: kx + vg.Points(16), Y: ky + vg.Points(6)})
+			edge.Line(vg.Point{X: kx, Y: ky + vg.Points(6)})
+			edge.Close()
+			dc.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 150}, Width: vg.Points(0.4)})
+			dc.Stroke(edge)
+			kx = keyText(dc, small, kx+vg.Points(20), ky, fmt.Sprintf("%d %%", 25*i)) + vg.Points(14)
 		}
 		for u := 0; u < n; u++ {
 			px := dc.Min.X + panelW*vg.Length(u%pc)
@@ -103,9 +112,9 @@ func MUAPGrid(title string, arr *record.Array, t *analysis.Templates) *Figure {
 					maxP = v
 				}
 			}
-			label := fmt.Sprintf("unit %d: %d discharges averaged", unitID(t, u), t.Averaged[u])
+			label := fmt.Sprintf("unit %s: %d discharges averaged", unitName(t, u), t.Averaged[u])
 			if t.Averaged[u] < 0 {
-				label = fmt.Sprintf("unit %d: stored templates", unitID(t, u))
+				label = fmt.Sprintf("unit %s: stored templates", unitName(t, u))
 			}
 			dc.FillText(small, vg.Point{X: px + vg.Points(4), Y: py - vg.Points(2)}, label)
 			if !(maxP > 0) {
@@ -173,11 +182,23 @@ func displayUnit(u string) string {
 	return u
 }
 
-// unitID returns the id of template row u (ids are carried beside the
-// templates by the caller through Templates.IDs when set, else the row).
-func unitID(t *analysis.Templates, u int) int64 {
-	if u < len(t.IDs) {
-		return t.IDs[u]
+// unitName returns the name of template row u: the unit's label (its id
+// when it has none; Templates.Names), the numbering of every table and
+// figure; the row number from 1 when the caller gave no names.
+func unitName(t *analysis.Templates, u int) string {
+	switch {
+	case u < len(t.Names):
+		return t.Names[u]
+	case u < len(t.IDs):
+		return strconv.FormatInt(t.IDs[u], 10)
 	}
-	return int64(u)
+	return strconv.Itoa(u + 1)
+}
+
+// keyText writes s left-aligned at x, vertically centred on y, and returns
+// where it ends.
+func keyText(dc draw.Canvas, st text.Style, x, y vg.Length, s string) vg.Length {
+	st.XAlign, st.YAlign = draw.XLeft, draw.YCenter
+	dc.FillText(st, vg.Point{X: x, Y: y}, s)
+	return x + st.Width(s)
 }

@@ -51,7 +51,7 @@ const PNGDPI = 110
 // WritePNG renders the figure as PNG.
 func (f *Figure) WritePNG(w io.Writer) error {
 	c := vgimg.NewWith(vgimg.UseWH(f.Width, f.Height), vgimg.UseDPI(PNGDPI), vgimg.UseBackgroundColor(color.White))
-	f.draw(draw.New(c))
+	f.draw(draw.New(glyphCanvas{c}))
 	_, err := vgimg.PngCanvas{Canvas: c}.WriteTo(w)
 	return err
 }
@@ -224,7 +224,7 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 	}
 	// Units in recruitment order.
 	type ut struct {
-		id    int64
+		name  string
 		times []float64
 	}
 	var units []ut
@@ -233,7 +233,7 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 			continue
 		}
 		t := analysis.DischargeTimesS(u.Discharges, arr.SamplingRateHz, arr.StartS)
-		units = append(units, ut{u.ID, t})
+		units = append(units, ut{u.Name(), t})
 		span(t[0], t[len(t)-1])
 	}
 	if math.IsInf(t0, 0) {
@@ -288,16 +288,17 @@ func Overview(tr *record.Trial, arr *record.Array, dec *record.Decomposition, ds
 		pf.Y.Max = pf.Y.Max + 0.35*(pf.Y.Max-pf.Y.Min)
 	}
 
-	// Raster: one row per unit in recruitment order, labelled by unit id
-	// (the numbering of the unit table, the MUAP panels and the stats).
+	// Raster: one row per unit in recruitment order, labelled by the
+	// unit's label, its id when it has none (record.Unit.Name: the
+	// numbering of the unit table, the MUAP panels and the stats).
 	pr := gplot.New()
-	pr.Y.Label.Text = "unit id (by recruitment)"
+	pr.Y.Label.Text = "unit (by recruitment)"
 	rs := raster{t0: t0, t1: t1}
 	ids := make([]string, len(units))
 	for i, u := range units {
 		rs.rows = append(rs.rows, u.times)
 		rs.colors = append(rs.colors, unitColor(i))
-		ids[i] = strconv.FormatInt(u.id, 10)
+		ids[i] = u.name
 	}
 	pr.Add(rs)
 	pr.Y.Tick.Marker = unitTicks{ids}

@@ -139,6 +139,7 @@ func StoredTemplates(dec *record.Decomposition) *analysis.Templates {
 	t := &analysis.Templates{MUAPs: *m}
 	for u := 0; u < m.Units; u++ {
 		t.IDs = append(t.IDs, dec.Units[u].ID)
+		t.Names = append(t.Names, dec.Units[u].Name())
 		t.Averaged = append(t.Averaged, -1)
 		t.AtEdge = append(t.AtEdge, 0)
 		p2p := make([]float64, m.Channels)

@@ -89,10 +89,10 @@ func trains(r *resolved) ([]analysis.Train, error) {
 	}
 	out := make([]analysis.Train, len(r.dec.Units))
 	for i, u := range r.dec.Units {
-		out[i] = analysis.Train{ID: u.ID, TimesS: analysis.DischargeTimesS(u.Discharges, r.arr.SamplingRateHz, r.arr.StartS)}
+		out[i] = analysis.Train{ID: u.ID, Name: u.Name(), TimesS: analysis.DischargeTimesS(u.Discharges, r.arr.SamplingRateHz, r.arr.StartS)}
 		for k := 1; k < len(u.Discharges); k++ {
 			if u.Discharges[k] < u.Discharges[k-1] {
-				return nil, fmt.Errorf("%s/%s/%s unit %d: discharges are not in ascending order (run muarc validate)", r.Trial, r.Array, r.Decomposition, u.ID)
+				return nil, fmt.Errorf("%s/%s/%s unit %s: discharges are not in ascending order (run muarc validate)", r.Trial, r.Array, r.Decomposition, u.Name())
 			}
 		}
 	}
@@ -186,7 +186,8 @@ func runCompare(cmd *cobra.Command, args []string) error {
 		return printJSON(w, jsonclean.Clean(map[string]any{"a": res.A, "b": res.B, "units_a": res.UnitsA, "units_b": res.UnitsB,
 			"lag_step_s": res.LagStepS, "tolerance_s": res.Comparison.ToleranceS, "max_lag_s": res.Comparison.MaxLagS,
 			"min_roa": res.Comparison.MinRoA, "pairs": res.Comparison.Pairs,
-			"unmatched_a": res.Comparison.UnmatchedA, "unmatched_b": res.Comparison.UnmatchedB}))
+			"unmatched_a": res.Comparison.UnmatchedA, "unmatched_b": res.Comparison.UnmatchedB,
+			"unmatched_labels_a": res.Comparison.UnmatchedNamesA, "unmatched_labels_b": res.Comparison.UnmatchedNamesB}))
 	}
 	return printCompare(w, &res)
 }
@@ -199,20 +200,17 @@ func printCompare(w io.Writer, r *compareResult) error {
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintf(tw, "unit A\tunit B\tRoA %%\tcommon\tonly A\tonly B\tlag ms\t\n")
 	for _, p := range c.Pairs {
-		fmt.Fprintf(tw, "%d\t%d\t%.1f\t%d\t%d\t%d\t%.3f\t\n", p.A, p.B, 100*p.RoA, p.Common, p.OnlyA, p.OnlyB, 1000*p.LagS)
+		fmt.Fprintf(tw, "%s\t%s\t%.1f\t%d\t%d\t%d\t%.3f\t\n", p.NameA, p.NameB, 100*p.RoA, p.Common, p.OnlyA, p.OnlyB, 1000*p.LagS)
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "\n%d matched; unmatched in A: %s; unmatched in B: %s\n", len(c.Pairs), ids(c.UnmatchedA), ids(c.UnmatchedB))
+	fmt.Fprintf(w, "\n%d matched; unmatched in A: %s; unmatched in B: %s\n", len(c.Pairs), names(c.UnmatchedNamesA), names(c.UnmatchedNamesB))
 	return nil
 }
 
-func ids(v []int64) string {
+// names lists units by name (the lab's label, the id when there is none).
+func names(v []string) string {
 	if len(v) == 0 {
 		return "none"
 	}
-	s := make([]string, len(v))
-	for i, x := range v {
-		s[i] = fmt.Sprint(x)
-	}
-	return strings.Join(s, ", ")
+	return strings.Join(v, ", ")
 }

@@ -69,6 +69,9 @@ type trialSummary struct {
 	Decomposition string `json:"decomposition,omitempty"`
 	Units         int    `json:"units"`
 	Discharges    int    `json:"discharges"`
+	// UnitNames are its units as every table and figure names them: the
+	// lab's label, the id when there is none (record.Unit.Name).
+	UnitNames []string `json:"unit_labels"`
 }
 
 func inspectFile(path string) (*inspection, error) {
@@ -129,8 +132,10 @@ func summarize(rec *record.Recording) []trialSummary {
 				d := a.Decompositions[k]
 				s.Decomposition = d.Name
 				s.Units = len(d.Units)
+				s.UnitNames = []string{}
 				for _, u := range d.Units {
 					s.Discharges += len(u.Discharges)
+					s.UnitNames = append(s.UnitNames, u.Name())
 				}
 			}
 			out = append(out, s)
@@ -175,6 +180,12 @@ func printInspection(w io.Writer, ins *inspection) {
 		tw.row(s.Trial, s.Array, s.Muscle, fmtNum(s.TargetPctMVC), fmt.Sprintf("%.2f", s.DurationS), s.Channels, fmtNum(s.RateHz), s.Decomposition, s.Units, s.Discharges)
 	}
 	tw.flush()
+	fmt.Fprintln(w, "\nunits (the lab's labels; muarc's id where a unit has none):")
+	for _, s := range ins.Trials {
+		if len(s.UnitNames) > 0 {
+			fmt.Fprintf(w, "  %s/%s/%s: %s\n", s.Trial, s.Array, s.Decomposition, strings.Join(s.UnitNames, " "))
+		}
+	}
 }
 
 // keyAttrs picks the attributes worth a line in the tree, in a fixed order:
