@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"os"
+	"path/filepath"
 	"sort"
 
 	gplot "gonum.org/v1/plot"
@@ -37,6 +39,25 @@ func StudyFigures(res *study.Result) []Named {
 			Figure:  muscleFigure(res, m)})
 	}
 	return out
+}
+
+// SaveStudyFigures writes the study figures (StudyFigures) into folder out
+// as PNG and SVG, each file atomically, replacing earlier ones, and returns
+// them for the results' provenance (study.Result.Figures).
+func SaveStudyFigures(out string, res *study.Result) ([]study.FigureFile, error) {
+	if err := os.MkdirAll(out, 0o755); err != nil {
+		return nil, err
+	}
+	var files []study.FigureFile
+	for _, n := range StudyFigures(res) {
+		for _, ext := range []string{".png", ".svg"} {
+			if err := n.Figure.Save(filepath.Join(out, n.Name+ext), true); err != nil {
+				return files, err
+			}
+			files = append(files, study.FigureFile{File: n.Name + ext, Caption: n.Caption})
+		}
+	}
+	return files, nil
 }
 
 // r2Labels writes "<level> % MVC: R² x" lines in the top right of a panel.
@@ -123,6 +144,13 @@ func muscleFigure(res *study.Result, muscle string) *Figure {
 	return &Figure{Width: w, Height: 6.4 * vg.Inch, draw: func(dc draw.Canvas) {
 		hdr := text.Style{Color: color.Black, Font: font.From(gplot.DefaultFont, 12), Handler: gplot.DefaultTextHandler, XAlign: draw.XLeft, YAlign: draw.YTop}
 		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(4)}, muscle)
+		// Provenance, top right: what computed it, when, from how much.
+		prov := hdr
+		prov.Font = font.From(gplot.DefaultFont, 8)
+		prov.Color = color.Gray{Y: 90}
+		prov.XAlign = draw.XRight
+		dc.FillText(prov, vg.Point{X: dc.Max.X - vg.Points(6), Y: dc.Max.Y - vg.Points(6)},
+			fmt.Sprintf("%s, %s, from %d recordings", res.Software, res.Computed.UTC().Format("2006-01-02 15:04 UTC"), len(res.Sources)))
 		body := draw.Crop(dc, 0, 0, 0, -vg.Points(18))
 		tiles := draw.Tiles{Rows: len(study.Relations), Cols: cols, PadTop: vg.Points(4), PadBottom: vg.Points(4),
 			PadLeft: vg.Points(4), PadRight: vg.Points(10), PadX: vg.Points(10), PadY: vg.Points(10)}

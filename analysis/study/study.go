@@ -81,7 +81,17 @@ type Result struct {
 	Sources  []Source       `json:"sources"`
 	Rows     []SubjectRow   `json:"rows"`
 	Summary  []SummaryRow   `json:"summary"`
-	Notes    []string       `json:"notes,omitempty"`
+	// Figures are the figure files written beside the tables (Save's
+	// caller fills it), with what each shows.
+	Figures []FigureFile `json:"figures,omitempty"`
+	Notes   []string     `json:"notes,omitempty"`
+}
+
+// FigureFile is one figure written with the results: its file name in the
+// results folder and its caption.
+type FigureFile struct {
+	File    string `json:"file"`
+	Caption string `json:"caption"`
 }
 
 // Method describes the analysis in words.

@@ -13,6 +13,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"muarc/analysis"
+	"muarc/analysis/plot"
 	"muarc/analysis/study"
 	"muarc/internal/jsonclean"
 )
@@ -58,9 +59,12 @@ the mean, SD and range of the subjects' slopes and intercepts and a linear
 mixed model (random intercept and slope per subject, REML) that splits the
 variability into between-subject and within-subject parts. --tsv prints one
 row per subject x muscle x level x relation; --write stores
-rate_threshold_fits.tsv, rate_threshold_summary.tsv and rate_threshold.json
-(with the method and every recording's SHA-256) in --out (default
-DIR/rate_threshold); the recordings are not changed.
+rate_threshold_fits.tsv, rate_threshold_summary.tsv, the figures (per
+muscle, the subjects side by side, plateau mean rate and initial rate
+against recruitment threshold, one colour per target level, R^2 on each
+panel; study__<muscle>__rate_threshold.png and .svg) and rate_threshold.json
+(the method, every recording's SHA-256 and the figure files) in --out
+(default DIR/rate_threshold); the recordings are not changed.
 
 Exit status: 0 done, 2 the file could not be read or written (or bad usage).`,
 	Args: cobra.ExactArgs(1),
@@ -70,7 +74,7 @@ Exit status: 0 done, 2 the file could not be read or written (or bad usage).`,
 func init() {
 	f := statsCmd.Flags()
 	f.BoolVar(&statsFlags.json, "json", false, "print the figures as JSON")
-	f.BoolVar(&statsFlags.tsv, "tsv", false, "print one tab-separated row per unit")
+	f.BoolVar(&statsFlags.tsv, "tsv", false, "print one tab-separated row per unit (unit: muarc's id; label: the lab's, empty when none)")
 	f.BoolVar(&statsFlags.write, "write", false, "store the figures and templates in FILE (rewritten atomically)")
 	f.BoolVar(&statsFlags.noMUAPs, "no-muaps", false, "skip the MUAP templates (the EMG samples are not read)")
 	f.StringVar(&statsFlags.out, "out", "", "with DIR and --write: the folder for the study's results (default DIR/rate_threshold)")
@@ -111,6 +115,9 @@ func num(v float64, prec int) string {
 	}
 	return strconv.FormatFloat(v, 'f', prec, 64)
 }
+
+// tsvCell keeps a text cell on its row: tabs and line breaks become blanks.
+func tsvCell(s string) string { return strings.NewReplacer("\t", " ", "\n", " ", "\r", " ").Replace(s) }
 
 // tsvNum formats a figure for machines: empty when unknown, full precision.
 func tsvNum(v float64) string {
@@ -172,7 +179,7 @@ func muapUnit(d analysis.DecompositionFS) string {
 }
 
 func printStatsTSV(w io.Writer, r *analysis.FileStats) error {
-	cols := []string{"trial", "array", "decomposition", "unit", "discharge_count", "first_discharge_s", "last_discharge_s",
+	cols := []string{"trial", "array", "decomposition", "unit", "label", "discharge_count", "first_discharge_s", "last_discharge_s",
 		"recruit_pct_mvc", "derecruit_pct_mvc", "recruit_force", "derecruit_force", "force_unit",
 		"initial_rate_pps", "plateau_rate_pps", "plateau_isi_cov", "plateau_isi_count", "plateau_start_s", "plateau_end_s",
 		"muap_averaged", "muap_max_peak_to_peak", "muap_unit"}
@@ -189,7 +196,7 @@ func printStatsTSV(w io.Writer, r *analysis.FileStats) error {
 			if d.MUAPs != nil && i < len(d.MUAPs.Units) {
 				avg, p2p, mu = strconv.Itoa(d.MUAPs.Units[i].Averaged), tsvNum(d.MUAPs.Units[i].MaxPeakToPeak), d.MUAPs.Unit
 			}
-			row := []string{d.Trial, d.Array, d.Decomposition, strconv.FormatInt(u.ID, 10), strconv.Itoa(u.Discharges),
+			row := []string{d.Trial, d.Array, d.Decomposition, strconv.FormatInt(u.ID, 10), tsvCell(u.Label), strconv.Itoa(u.Discharges),
 				tsvNum(u.FirstS), tsvNum(u.LastS), tsvNum(u.RecruitPctMVC), tsvNum(u.DerecruitPctMVC),
 				tsvNum(u.RecruitForce), tsvNum(u.DerecruitForce), d.ForceUnit, tsvNum(u.InitialRatePPS),
 				tsvNum(u.PlateauRatePPS), tsvNum(u.PlateauISICoV), strconv.Itoa(u.PlateauISIs), tsvNum(ps), tsvNum(pe), avg, p2p, mu}
@@ -220,11 +227,17 @@ func runStudyStats(cmd *cobra.Command, dir string) error {
 		if out == "" {
 			out = filepath.Join(dir, "rate_threshold")
 		}
+		// The figures first, so that the JSON written last lists them.
+		figs, err := plot.SaveStudyFigures(out, res)
+		if err != nil {
+			return withExit(2, err)
+		}
+		res.Figures = figs
 		if err := study.Save(out, res); err != nil {
 			return withExit(2, err)
 		}
 		if !statsFlags.json && !statsFlags.tsv {
-			defer fmt.Fprintf(w, "\nstored %s, %s and %s in %s\n", study.FitsFile, study.SummaryFile, study.JSONFile, out)
+			defer fmt.Fprintf(w, "\nstored %s, %s, %s and %d figures (each as PNG and SVG, listed in the JSON) in %s\n", study.FitsFile, study.SummaryFile, study.JSONFile, len(figs)/2, out)
 		}
 	}
 	switch {
