@@ -347,7 +347,7 @@ func studyTitle(dir string, files []string) string {
 
 // studyTable lists the across-subject summary of the study analysis.
 func studyTable(res *study.Result) Table {
-	t := Table{Caption: "Per muscle and target level (all: levels pooled): the subjects' least-squares slopes (pps per % MVC) and intercepts (pps), and the mixed model (random intercept and slope per subject, REML): fixed slope and the between-subject share of the variance. muarc stats DIR gives the per-subject lines.",
+	t := Table{Caption: "Per muscle and target level (all: levels pooled): the subjects' least-squares slopes (pps per % MVC) and intercepts (pps), and the mixed model (random intercept and slope per subject, REML): fixed slope and the between-subject share of the variance. A muscle recorded in one subject has one line per level: its slope and intercept are that line's (n = 1), with no SD and no mixed model, which need two subjects or more. muarc stats DIR gives the per-subject lines.",
 		Columns: []string{"muscle", "level (% MVC)", "relation", "lines", "slope mean ± SD", "slope range", "intercept mean ± SD", "mixed slope ± SE", "between-subject share", "within-subject variance"},
 		Empty:   "no units with thresholds"}
 	for _, s := range res.Summary {
@@ -356,8 +356,8 @@ func studyTable(res *study.Result) Table {
 			lvl = "all"
 		}
 		t.Rows = append(t.Rows, []string{s.Muscle, lvl, strings.ReplaceAll(s.Relation, "_", " "), strconv.Itoa(s.Slope.N),
-			fmtNum(s.Slope.Mean, 3) + " ± " + fmtNum(s.Slope.SD, 3), fmtNum(s.Slope.Min, 3) + " to " + fmtNum(s.Slope.Max, 3),
-			fmtNum(s.Intercept.Mean, 2) + " ± " + fmtNum(s.Intercept.SD, 2), fmtNum(s.Mixed.Slope, 3) + " ± " + fmtNum(s.Mixed.SlopeSE, 3),
+			study.SpreadText(s.Slope, 3, "–", fmtNum), study.RangeText(s.Slope, 3, "–", fmtNum),
+			study.SpreadText(s.Intercept, 2, "–", fmtNum), study.MixedText(s.Mixed, 3, "–", fmtNum),
 			fmtNum(s.Mixed.BetweenShare, 2), fmtNum(s.Mixed.WithinVar, 2)})
 	}
 	return t

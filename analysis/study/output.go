@@ -84,6 +84,45 @@ func num(v float64, prec int) string {
 	return s
 }
 
+// SpreadText writes a spread for people: "mean ± SD" from two values on;
+// with one value that value, n = 1 and why there is no spread; with none,
+// dash and why. num formats a number at prec digits.
+func SpreadText(s Spread, prec int, dash string, num func(float64, int) string) string {
+	switch s.N {
+	case 0:
+		return dash + " (no line of 3 or more units)"
+	case 1:
+		return num(s.Mean, prec) + " (n = 1: a single line, no spread)"
+	}
+	return num(s.Mean, prec) + " ± " + num(s.SD, prec)
+}
+
+// RangeText writes a spread's range: "min to max", the single value with
+// n = 1.
+func RangeText(s Spread, prec int, dash string, num func(float64, int) string) string {
+	switch s.N {
+	case 0:
+		return dash
+	case 1:
+		return num(s.Mean, prec) + " (n = 1)"
+	}
+	return num(s.Min, prec) + " to " + num(s.Max, prec)
+}
+
+// MixedText writes the mixed model's fixed slope ± SE, or why it was not
+// fitted (it needs 2 subjects and 4 points).
+func MixedText(m MixedFit, prec int, dash string, num func(float64, int) string) string {
+	switch {
+	case m.Subjects < 2:
+		return fmt.Sprintf("%s (needs 2 subjects, %d here)", dash, m.Subjects)
+	case m.N < 4:
+		return fmt.Sprintf("%s (needs 4 units, %d here)", dash, m.N)
+	case math.IsNaN(m.Slope):
+		return dash + " (did not converge)"
+	}
+	return num(m.Slope, prec) + " ± " + num(m.SlopeSE, prec)
+}
+
 // WriteText writes the analysis for people.
 func WriteText(w io.Writer, r *Result) error {
 	fmt.Fprintf(w, "%s: %d recordings\n\nper subject (rate against recruitment threshold, least squares):\n", r.Dir, len(r.Sources))
@@ -103,9 +142,9 @@ func WriteText(w io.Writer, r *Result) error {
 		if math.IsNaN(s.LevelPct) {
 			lvl = "all"
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%d\t%s ± %s\t%s ± %s\t%s ± %s\t%s\t%s\n", s.Muscle, lvl, s.Relation, s.Slope.N,
-			num(s.Slope.Mean, 3), num(s.Slope.SD, 3), num(s.Intercept.Mean, 2), num(s.Intercept.SD, 2),
-			num(s.Mixed.Slope, 3), num(s.Mixed.SlopeSE, 3), num(s.Mixed.BetweenShare, 2), num(s.Mixed.WithinVar, 2))
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\n", s.Muscle, lvl, s.Relation, s.Slope.N,
+			SpreadText(s.Slope, 3, "-", num), SpreadText(s.Intercept, 2, "-", num),
+			MixedText(s.Mixed, 3, "-", num), num(s.Mixed.BetweenShare, 2), num(s.Mixed.WithinVar, 2))
 	}
 	tw.Flush()
 	for _, n := range r.Notes {
