@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"muarc/analysis/study"
 	"muarc/recfile"
 	"muarc/synth"
 )
@@ -89,5 +90,23 @@ func TestBuildStudyReport(t *testing.T) {
 func TestBuildRefusesEmptyFolder(t *testing.T) {
 	if _, err := Build(t.TempDir(), BuildOptions{}); err == nil || !strings.Contains(err.Error(), "no recordings") {
 		t.Errorf("empty folder: %v", err)
+	}
+}
+
+// A muscle with one subject shows its single line with n = 1 and says why
+// there is no spread or mixed model; no cell reads "– ± –".
+func TestStudyTableOneSubject(t *testing.T) {
+	pts := [][]float64{{2, 5, 9, 14}, {20, 17.5, 14.5, 11}}
+	line := study.FitLine(pts[0], pts[1])
+	res := &study.Result{Summary: []study.SummaryRow{{Muscle: "soleus", LevelPct: 20, Relation: study.PlateauRate,
+		Slope: study.SpreadOf([]float64{line.Slope}), Intercept: study.SpreadOf([]float64{line.Intercept}),
+		Mixed: study.FitMixed([][]float64{pts[0]}, [][]float64{pts[1]})}}}
+	tb := studyTable(res)
+	row := strings.Join(tb.Rows[0], " | ")
+	// Slope of the points by hand: Sxy / Sxx = -60.5 / 81 (a property of
+	// the points given).
+	want := fmtNum(-60.5/81, 3) + " (n = 1, no SD)"
+	if !strings.Contains(row, want) || strings.Contains(row, "– ± –") || !strings.Contains(row, "needs 2 subjects, 1 here") {
+		t.Errorf("row %q, want %q and the reason for no mixed model", row, want)
 	}
 }

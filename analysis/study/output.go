@@ -92,7 +92,7 @@ func SpreadText(s Spread, prec int, dash string, num func(float64, int) string) 
 	case 0:
 		return dash + " (no line of 3 or more units)"
 	case 1:
-		return num(s.Mean, prec) + " (n = 1: a single line, no spread)"
+		return num(s.Mean, prec) + " (n = 1, no SD)"
 	}
 	return num(s.Mean, prec) + " ± " + num(s.SD, prec)
 }
