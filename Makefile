@@ -16,12 +16,14 @@ DEMO    ?= demo-out
 # into scripts/h5wasm from its package-lock.json) run LAYOUT.md's snippets.
 # slurm-wlm and munge: archive/examples' job arrays run under a real
 # single-node Slurm started by the test.
+# python-tables-data: HDF5 files written by other programs (PyTables' own
+# test files), run through the batch commands beside a muarc recording.
 # BENCH_PACKAGES are the storage baselines only make bench uses: xz -9 and
 # flac -8 of the raw converter counts (scripts/bench-storage.sh).
 RUN_PACKAGES := libhdf5-dev libdeflate-dev pkg-config
 DEB_PACKAGES := $(RUN_PACKAGES) hdf5-tools python3-h5py \
 	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium \
-	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge
+	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge python-tables-data
 BENCH_PACKAGES := xz-utils flac
 
 .PHONY: all deps deps-run deps-bench build demo test bench bench-more fuzz vet clean
