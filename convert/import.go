@@ -390,7 +390,7 @@ func (pl *Plan) units(it input, prof *Profile) error {
 	// Unit tables have their own dialect (units.delimiter, units.decimal_comma);
 	// the signal files' settings do not apply to them.
 	d, _ := ParseDelimiter(prof.Units.Delimiter)
-	ut, err := ReadUnitTable(it.path, UnitTableOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: prof.Units.DecimalComma}, Columns: prof.Units.Columns, AllowOutOfRange: prof.Signals.AllowOutOfRange})
+	ut, err := ReadUnitTable(it.path, UnitTableOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: prof.Units.DecimalComma}, Columns: prof.Units.Columns, AllowOutOfRange: prof.allowOutOfRange()})
 	if err != nil {
 		return err
 	}

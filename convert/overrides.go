@@ -65,7 +65,10 @@ func (p *Profile) Override(fl Overrides) error {
 	default:
 		return fmt.Errorf("--first-index %d: want 0 or 1", fl.FirstIndex)
 	}
-	p.Signals.AllowOutOfRange = p.Signals.AllowOutOfRange || fl.AllowOutOfRange
+	if fl.AllowOutOfRange {
+		yes := true
+		p.Signals.AllowOutOfRange = &yes
+	}
 	for _, r := range fl.Read {
 		if err := p.SetReading(r); err != nil {
 			return err

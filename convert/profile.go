@@ -9,7 +9,6 @@ import (
 	"strings"
 
 	"muarc/internal/docload"
-	"muarc/record"
 )
 
 // Profile maps a lab's plain-text exports onto a recording: which file is
@@ -52,28 +51,13 @@ type ProfileFiles struct {
 	History string `yaml:"history" json:"history"`
 }
 
-// ProfileSignals are the reading options of force and EMG files.
-type ProfileSignals struct {
-	Delimiter    string  `yaml:"delimiter" json:"delimiter"`
-	DecimalComma string  `yaml:"decimal_comma" json:"decimal_comma"`
-	Header       string  `yaml:"header" json:"header"`
-	TimeColumn   string  `yaml:"time_column" json:"time_column"`
-	TimeUnit     string  `yaml:"time_unit" json:"time_unit"`
-	RateHz       float64 `yaml:"rate_hz" json:"rate_hz"`
-	AllowGaps    bool    `yaml:"allow_gaps" json:"allow_gaps"`
-	DType        string  `yaml:"dtype" json:"dtype"`
-	// AllowOutOfRange stores infinity words and numbers beyond float64
-	// as ±Inf and non-zero numbers below it as 0 instead of refusing them.
-	AllowOutOfRange bool `yaml:"allow_out_of_range" json:"allow_out_of_range"`
-}
-
 // ProfileForce names the force and target columns of a force file.
 type ProfileForce struct {
 	Column       string `yaml:"column" json:"column"`
 	TargetColumn string `yaml:"target_column" json:"target_column"`
 	Unit         string `yaml:"unit" json:"unit"`
 	// Reading options of force files only, over the signals section.
-	ProfileReading `yaml:",inline"`
+	ProfileSignals `yaml:",inline"`
 }
 
 // ProfileEMG gives the EMG unit and channel positions.
@@ -86,7 +70,7 @@ type ProfileEMG struct {
 	// Skip lists EMG columns that are not channels (trigger, auxiliary).
 	Skip []string `yaml:"skip" json:"skip"`
 	// Reading options of EMG files only, over the signals section.
-	ProfileReading `yaml:",inline"`
+	ProfileSignals `yaml:",inline"`
 }
 
 // ChannelPlace is a channel's grid position (0-based), electrode centre in
@@ -176,21 +160,13 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 			*x.dst = x.def
 		}
 	}
-	if _, err := ParseDelimiter(p.Signals.Delimiter); err != nil {
-		return nil, &ParseError{File: path, Msg: "profile: signals: " + err.Error(), Hint: "see convert/PROFILES.md"}
-	}
-	for role, r := range map[string]*ProfileReading{"force": &p.Force.ProfileReading, "emg": &p.EMG.ProfileReading} {
+	for role, r := range map[string]*ProfileSignals{"signals": &p.Signals, "force": &p.Force.ProfileSignals, "emg": &p.EMG.ProfileSignals} {
 		if err := r.check(role); err != nil {
 			return nil, &ParseError{File: path, Msg: "profile: " + err.Error(), Hint: "see convert/PROFILES.md"}
 		}
 	}
 	if _, err := ParseDelimiter(p.Units.Delimiter); err != nil {
 		return nil, &ParseError{File: path, Msg: "profile: units: " + err.Error(), Hint: "see convert/PROFILES.md"}
-	}
-	switch p.Signals.DType {
-	case "", "float32", "float64":
-	default:
-		return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: signals: dtype %q", p.Signals.DType), Hint: "write float32 or float64, or leave it out"}
 	}
 	switch p.Discharges.Shape {
 	case "", ShapeColumns, ShapeLong, ShapeLines, ShapeMatrix:
@@ -229,15 +205,6 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 		}
 	}
 	return p, nil
-}
-
-func (p *Profile) signalOptions() SignalOptions {
-	d, _ := ParseDelimiter(p.Signals.Delimiter)
-	return SignalOptions{
-		TextOptions: TextOptions{Delimiter: d, Header: p.Signals.Header, DecimalComma: p.Signals.DecimalComma},
-		TimeColumn:  p.Signals.TimeColumn, TimeUnit: p.Signals.TimeUnit, RateHz: p.Signals.RateHz,
-		AllowGaps: p.Signals.AllowGaps, DType: record.SampleType(p.Signals.DType), AllowOutOfRange: p.Signals.AllowOutOfRange,
-	}
 }
 
 func (p *Profile) dischargeOptions() DischargeOptions {

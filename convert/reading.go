@@ -3,14 +3,19 @@ package convert
 import (
 	"fmt"
 	"math"
+	"muarc/record"
 	"strconv"
 	"strings"
 )
 
-// ProfileReading holds reading options given for one file role (force or
-// EMG) in a profile or with --read; a member left empty (zero) takes the
-// value of the profile's signals section.
-type ProfileReading struct {
+// ProfileSignals holds the reading options of signal files: the profile's
+// signals section (every force and EMG file), and the force and emg
+// sections' own members over it for that role only. A member left empty
+// (zero, nil) takes the value of the section below it: the role's, then
+// signals, then detection. One type for the three, so a member means the
+// same wherever it is written; earlier profiles load unchanged (the same
+// member names; allow_gaps and allow_out_of_range as true or false).
+type ProfileSignals struct {
 	Delimiter    string  `yaml:"delimiter" json:"delimiter"`
 	DecimalComma string  `yaml:"decimal_comma" json:"decimal_comma"`
 	Header       string  `yaml:"header" json:"header"`
@@ -18,6 +23,50 @@ type ProfileReading struct {
 	TimeUnit     string  `yaml:"time_unit" json:"time_unit"`
 	RateHz       float64 `yaml:"rate_hz" json:"rate_hz"`
 	AllowGaps    *bool   `yaml:"allow_gaps" json:"allow_gaps"`
+	// DType forces the EMG sample type (float32 or float64); force traces
+	// are always float64.
+	DType string `yaml:"dtype" json:"dtype"`
+	// AllowOutOfRange stores infinity words and numbers beyond float64
+	// as ±Inf and non-zero numbers below it as 0 instead of refusing them.
+	AllowOutOfRange *bool `yaml:"allow_out_of_range" json:"allow_out_of_range"`
+}
+
+// over gives o with the members set in s put over it.
+func (s *ProfileSignals) over(o SignalOptions) SignalOptions {
+	if s.Delimiter != "" {
+		o.Delimiter, _ = ParseDelimiter(s.Delimiter)
+	}
+	if s.DecimalComma != "" {
+		o.DecimalComma = s.DecimalComma
+	}
+	if s.Header != "" {
+		o.Header = s.Header
+	}
+	if s.TimeColumn != "" {
+		o.TimeColumn = s.TimeColumn
+	}
+	if s.TimeUnit != "" {
+		o.TimeUnit = s.TimeUnit
+	}
+	if s.RateHz != 0 {
+		o.RateHz = s.RateHz
+	}
+	if s.AllowGaps != nil {
+		o.AllowGaps = *s.AllowGaps
+	}
+	if s.DType != "" {
+		o.DType = record.SampleType(s.DType)
+	}
+	if s.AllowOutOfRange != nil {
+		o.AllowOutOfRange = *s.AllowOutOfRange
+	}
+	return o
+}
+
+// allowOutOfRange is the signals section's allow_out_of_range (unit
+// tables follow it too).
+func (p *Profile) allowOutOfRange() bool {
+	return p.Signals.AllowOutOfRange != nil && *p.Signals.AllowOutOfRange
 }
 
 // ProfileTableReading holds the dialect of unit tables.
@@ -59,18 +108,14 @@ func (p *Profile) SetReading(opt string) error {
 		*dst = v
 		return nil
 	}
-	var r *ProfileReading
+	var r *ProfileSignals
 	switch role {
 	case "signals":
-		s := &p.Signals
-		r = &ProfileReading{Delimiter: s.Delimiter, DecimalComma: s.DecimalComma, Header: s.Header, TimeColumn: s.TimeColumn, TimeUnit: s.TimeUnit, RateHz: s.RateHz, AllowGaps: &s.AllowGaps}
-		defer func() {
-			s.Delimiter, s.DecimalComma, s.Header, s.TimeColumn, s.TimeUnit, s.RateHz, s.AllowGaps = r.Delimiter, r.DecimalComma, r.Header, r.TimeColumn, r.TimeUnit, r.RateHz, *r.AllowGaps
-		}()
+		r = &p.Signals
 	case "force":
-		r = &p.Force.ProfileReading
+		r = &p.Force.ProfileSignals
 	case "emg":
-		r = &p.EMG.ProfileReading
+		r = &p.EMG.ProfileSignals
 	case "units":
 		switch member {
 		case "delimiter":
@@ -117,52 +162,43 @@ func (p *Profile) SetReading(opt string) error {
 			return bad("want a finite positive number of hertz")
 		}
 		r.RateHz = f
-	case "allow_gaps":
+	case "allow_gaps", "allow_out_of_range":
 		b, err := strconv.ParseBool(v)
 		if err != nil {
 			return bad("want true or false")
 		}
-		r.AllowGaps = &b
+		if member == "allow_gaps" {
+			r.AllowGaps = &b
+		} else {
+			r.AllowOutOfRange = &b
+		}
+	case "dtype":
+		if role == "force" {
+			return bad("force traces are always stored as float64; dtype is for emg (or signals)")
+		}
+		return oneOf(&r.DType, "float32", "float64")
 	default:
-		return bad("signal files take delimiter, decimal_comma, header, time_column, time_unit, rate_hz and allow_gaps")
+		return bad("signal files take %s", strings.Join(signalMembers, ", "))
 	}
 	return nil
 }
 
-// readingFor gives the signal options of one role: the signals section with
-// the role's own members over it.
+// signalMembers are the members of a signals, force or emg section that
+// --read takes.
+var signalMembers = []string{"delimiter", "decimal_comma", "header", "time_column", "time_unit", "rate_hz", "allow_gaps", "dtype", "allow_out_of_range"}
+
+// readingFor gives the signal options of one role ("force" or "emg"): the
+// signals section with the role's own members over it.
 func (p *Profile) readingFor(role string) SignalOptions {
-	o := p.signalOptions()
-	r := p.Force.ProfileReading
+	o := p.Signals.over(SignalOptions{})
 	if role == "emg" {
-		r = p.EMG.ProfileReading
+		return p.EMG.over(o)
 	}
-	if r.Delimiter != "" {
-		o.Delimiter, _ = ParseDelimiter(r.Delimiter)
-	}
-	if r.DecimalComma != "" {
-		o.DecimalComma = r.DecimalComma
-	}
-	if r.Header != "" {
-		o.Header = r.Header
-	}
-	if r.TimeColumn != "" {
-		o.TimeColumn = r.TimeColumn
-	}
-	if r.TimeUnit != "" {
-		o.TimeUnit = r.TimeUnit
-	}
-	if r.RateHz != 0 {
-		o.RateHz = r.RateHz
-	}
-	if r.AllowGaps != nil {
-		o.AllowGaps = *r.AllowGaps
-	}
-	return o
+	return p.Force.over(o)
 }
 
-// checkReading checks a role's members as the profile is loaded.
-func (r *ProfileReading) check(role string) error {
+// check checks a section's members as the profile is loaded.
+func (r *ProfileSignals) check(role string) error {
 	if _, err := ParseDelimiter(r.Delimiter); err != nil {
 		return fmt.Errorf("%s: %v", role, err)
 	}
@@ -180,6 +216,12 @@ func (r *ProfileReading) check(role string) error {
 	}
 	if r.RateHz < 0 || math.IsNaN(r.RateHz) || math.IsInf(r.RateHz, 0) {
 		return fmt.Errorf("%s: rate_hz %g: want a finite positive number of hertz", role, r.RateHz)
+	}
+	switch {
+	case r.DType != "" && role == "force":
+		return fmt.Errorf("force: dtype %q: force traces are always stored as float64 (dtype is for emg or signals)", r.DType)
+	case r.DType != "" && r.DType != "float32" && r.DType != "float64":
+		return fmt.Errorf("%s: dtype %q: write float32 or float64, or leave it out", role, r.DType)
 	}
 	return nil
 }
