@@ -60,7 +60,7 @@ var checks = []CheckInfo{
 	{"force.unit_missing", Note, "a force trace without a unit"},
 	{"force.length", Error, "force and force_target of one trial differ in rate or length"},
 	{"trial.mvc", Error, "MVC is zero, negative or infinite"},
-	{"values.infinite", Warning, "a force trace, unit figure, extra unit column or MUAP template holds an infinity (NaN is \"not known\"; an infinity is a value no instrument gives)"},
+	{"values.infinite", Warning, "EMG samples (with the chunk scan), a force trace, unit figure, extra unit column or MUAP template hold an infinity (NaN is \"not known\"; an infinity is a value no instrument gives)"},
 	{"trial.target_high", Warning, "target level above target_max_pct_mvc"},
 	{"trial.target_negative", Error, "target level below 0 % MVC"},
 	{"quality.silhouette", Warning, "silhouette below silhouette_min: low-confidence unit"},

@@ -22,9 +22,9 @@ const maxChunkFaults = 20
 // integer datasets), the metadata view against the JSON Schema
 // (recfile.MetadataView), the content checks on the recording
 // (recfile.Open) and, when opt.ChecksumScan, every stored chunk's
-// Fletcher-32 checksum (h5.VerifyChunks). Samples are read once, chunk by
-// chunk, by the checksum scan only; memory does not grow with the
-// recording's length. A file that cannot be read at all (missing, not HDF5,
+// Fletcher-32 checksum (h5.VerifyChunks) and the EMG samples for stored
+// infinities (band by band, each chunk inflated once); memory does not
+// grow with the recording's length. A file that cannot be read at all (missing, not HDF5,
 // not a muarc recording, a newer major layout version) gives ReadError.
 // File never panics on bad input.
 func File(path string, opt Options) (rep *Report) {
@@ -95,7 +95,19 @@ func File(path string, opt Options) (rep *Report) {
 	if rf, err := recfile.Open(path); err != nil {
 		readFailure(add, err, errorCount(raw), "content")
 	} else {
-		raw = append(raw, CheckRecording(rf.Recording(), opt.Rules)...)
+		rec := rf.Recording()
+		raw = append(raw, CheckRecording(rec, opt.Rules)...)
+		if opt.ChecksumScan {
+			// The samples, band by band, for stored infinities (with the
+			// scan that reads every chunk anyway).
+			p := paths{rec}
+			for ti := range rec.Trials {
+				for ai := range rec.Trials[ti].Arrays {
+					ah, aj := p.array(ti, ai)
+					checkSamplesInfinite(&rec.Trials[ti].Arrays[ai], ah, aj, add)
+				}
+			}
+		}
 		if err := rf.Close(); err != nil {
 			add("content.read", "/", "", "the file may be damaged", "closing the file: %v", err)
 		}
