@@ -192,29 +192,6 @@ func firstArray(t *record.Trial) *record.Array {
 	return nil
 }
 
-// extraString reads a text field kept in an array's, trial's or session's
-// extra attributes (first found).
-func extraString(key string, ex ...record.Extra) string {
-	for _, e := range ex {
-		if s, ok := e[key].(string); ok && s != "" {
-			return s
-		}
-	}
-	return ""
-}
-
-func extraNumber(key string, ex ...record.Extra) float64 {
-	for _, e := range ex {
-		switch v := e[key].(type) {
-		case float64:
-			return v
-		case int64:
-			return float64(v)
-		}
-	}
-	return math.NaN()
-}
-
 func na(v float64) any {
 	if math.IsNaN(v) {
 		return "n/a"

@@ -13,14 +13,9 @@ import (
 	"muarc/record"
 )
 
-// Extra attribute names read for the EMG sidecar fields the layout has no
-// named field for (array, trial or session extras, first found).
-const (
-	ExtraPowerLineHz          = "power_line_hz"
-	ExtraSoftwareFilters      = "software_filters"
-	ExtraPlacementScheme      = "placement_scheme"
-	ExtraPlacementDescription = "placement_description"
-)
+// placementScheme maps the layout's placement_scheme to the values of
+// BIDS EMGPlacementScheme (BIDS 1.11.0, "Electromyography", from memory).
+var placementScheme = map[string]string{"measured": "Measured", "channel specific": "ChannelSpecific", "other": "Other"}
 
 func (w *writer) json(path string, v any) error {
 	b, err := json.MarshalIndent(v, "", "  ")
@@ -58,10 +53,6 @@ func num(v float64) string {
 // *_coordsystem.json and *_events.tsv/json beside one data file.
 func (w *writer) sidecar(rec *record.Recording, t *record.Trial, er *convert.EDFFileReport, base, rel string) error {
 	a := firstArray(t)
-	var ax, tx, sx record.Extra = nil, t.Extra, rec.Session.Extra
-	if a != nil {
-		ax = a.Extra
-	}
 	emg := map[string]any{}
 	need := func(field string, v any) {
 		if s, ok := v.(string); ok && s == "" || v == nil {
@@ -86,11 +77,20 @@ func (w *writer) sidecar(rec *record.Recording, t *record.Trial, er *convert.EDF
 		rate = a.SamplingRateHz
 	}
 	need("SamplingFrequency", rate)
-	need("PowerLineFrequency", extraNumber(ExtraPowerLineHz, ax, tx, sx))
-	need("SoftwareFilters", extraString(ExtraSoftwareFilters, ax, tx, sx))
-	need("EMGPlacementScheme", extraString(ExtraPlacementScheme, ax, tx, sx))
-	if d := extraString(ExtraPlacementDescription, ax, tx, sx); d != "" {
-		emg["EMGPlacementSchemeDescription"] = d
+	mains := math.NaN()
+	if rec.Session.PowerLineHz > 0 {
+		mains = rec.Session.PowerLineHz
+	}
+	need("PowerLineFrequency", mains)
+	filters, err := softwareFilters(t)
+	if err != nil {
+		return err
+	}
+	need("SoftwareFilters", filters)
+	scheme, desc := placement(t)
+	need("EMGPlacementScheme", scheme)
+	if desc != "" {
+		emg["EMGPlacementSchemeDescription"] = desc
 	}
 	var refs []string
 	for _, ar := range t.Arrays {
@@ -124,6 +124,85 @@ func (w *writer) sidecar(rec *record.Recording, t *record.Trial, er *convert.EDF
 		return err
 	}
 	return w.events(t, base)
+}
+
+// softwareFilters is the BIDS SoftwareFilters object of a trial's file: the
+// arrays' software_filters when they all agree, else every array's filters
+// keyed "ARRAY: FILTER"; nil when an array's are not known.
+func softwareFilters(t *record.Trial) (any, error) {
+	var texts []string
+	objs := make([]map[string]any, len(t.Arrays))
+	for i, a := range t.Arrays {
+		if a.SoftwareFilters == "" {
+			return nil, nil
+		}
+		if err := json.Unmarshal([]byte(a.SoftwareFilters), &objs[i]); err != nil || objs[i] == nil {
+			return nil, fmt.Errorf("array %s: software_filters %q is not a JSON object", a.Name, a.SoftwareFilters)
+		}
+		texts = append(texts, a.SoftwareFilters)
+	}
+	if len(texts) == 0 {
+		return nil, nil
+	}
+	if same(texts) {
+		return objs[0], nil
+	}
+	per := map[string]any{}
+	for i, o := range objs {
+		for name, params := range o {
+			per[t.Arrays[i].Name+": "+name] = params
+		}
+	}
+	return per, nil
+}
+
+// placement is EMGPlacementScheme and its description for a trial's file:
+// the arrays' scheme when they agree ("Other" with each array's own words
+// when they do not), "" when an array's is not known.
+func placement(t *record.Trial) (scheme, desc string) {
+	var schemes, descs []string
+	for _, a := range t.Arrays {
+		if a.PlacementScheme == "" {
+			return "", ""
+		}
+		schemes = append(schemes, a.PlacementScheme)
+		if a.PlacementDescription != "" {
+			descs = append(descs, a.Name+": "+a.PlacementDescription)
+		}
+	}
+	if len(schemes) == 0 {
+		return "", ""
+	}
+	if same(schemes) {
+		scheme = placementScheme[schemes[0]]
+		if len(descs) == 1 || len(descs) == len(t.Arrays) && same(trimNames(descs)) {
+			return scheme, strings.SplitN(descs[0], ": ", 2)[1]
+		}
+		return scheme, strings.Join(descs, "; ")
+	}
+	var each []string
+	for i, a := range t.Arrays {
+		each = append(each, a.Name+": "+schemes[i])
+	}
+	return "Other", "schemes differ between the arrays (" + strings.Join(each, ", ") + "); " + strings.Join(descs, "; ")
+}
+
+// trimNames drops the "ARRAY: " prefix of each description.
+func trimNames(descs []string) []string {
+	out := make([]string, len(descs))
+	for i, d := range descs {
+		out[i] = strings.SplitN(d, ": ", 2)[1]
+	}
+	return out
+}
+
+func same(vs []string) bool {
+	for _, v := range vs {
+		if v != vs[0] {
+			return false
+		}
+	}
+	return true
 }
 
 // arrayOf maps an export report source "ARRAY/CHANNEL" to its array and

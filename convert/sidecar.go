@@ -176,7 +176,8 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 	if m, ok := v["session"].(map[string]any); ok {
 		s := &rec.Session
 		s.ID, s.Date, s.Site, s.Operator, s.Notes = str(m, "id"), str(m, "date"), str(m, "site"), str(m, "operator"), str(m, "notes")
-		s.Extra = extras(m, "id", "date", "site", "operator", "notes")
+		s.PowerLineHz = num0(m, "power_line_hz")
+		s.Extra = extras(m, "id", "date", "site", "operator", "notes", "power_line_hz")
 	}
 	trials, _ := v["trials"].([]any)
 	for _, tv := range trials {
@@ -205,6 +206,8 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 			a.Rows, a.Columns, a.ADCBits = int(num0(am, "rows")), int(num0(am, "columns")), int(num0(am, "adc_bits"))
 			a.IEDMm, a.Gain, a.FilterLowHz, a.FilterHighHz = num(am, "ied_mm"), num(am, "gain"), num(am, "filter_low_hz"), num(am, "filter_high_hz")
 			a.Montage, a.Reference = str(am, "montage"), str(am, "reference")
+			a.SoftwareFilters = jsonText(am, "software_filters")
+			a.PlacementScheme, a.PlacementDescription = str(am, "placement_scheme"), str(am, "placement_description")
 			if r := num0(am, "sampling_rate_hz"); r > 0 {
 				a.SamplingRateHz = r
 			}
@@ -215,7 +218,7 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 				a.Unit = u
 			}
 			a.Extra = extras(am, "name", "muscle", "side", "rows", "columns", "ied_mm", "gain", "adc_bits", "filter_low_hz", "filter_high_hz",
-				"montage", "reference", "sampling_rate_hz", "start_s", "unit", "sample_type", "samples", "channel_count", "channels", "decompositions")
+				"montage", "reference", "software_filters", "placement_scheme", "placement_description", "sampling_rate_hz", "start_s", "unit", "sample_type", "samples", "channel_count", "channels", "decompositions")
 			if chs, ok := am["channels"].([]any); ok {
 				a.Channels = a.Channels[:0]
 				for _, cv := range chs {
@@ -243,14 +246,22 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 				d.Method, d.MethodVersion, d.Notes = str(dm, "method"), str(dm, "method_version"), str(dm, "notes")
 				d.EditedByHand, _ = dm["edited_by_hand"].(bool)
 				d.Parameters = "{}"
-				if p, ok := dm["parameters"]; ok && p != nil {
-					if b, err := json.Marshal(p); err == nil {
-						d.Parameters = string(b)
-					}
+				if p := jsonText(dm, "parameters"); p != "" {
+					d.Parameters = p
 				}
 			}
 		}
 	}
+}
+
+// jsonText is member k (an object) as JSON text; "" when it is absent.
+func jsonText(m map[string]any, k string) string {
+	if v, ok := m[k]; ok && v != nil {
+		if b, err := json.Marshal(v); err == nil {
+			return string(b)
+		}
+	}
+	return ""
 }
 
 func str(m map[string]any, k string) string {

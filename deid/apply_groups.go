@@ -60,6 +60,9 @@ func (a *applier) array(p string, in *record.Array) (record.Array, error) {
 	a.num(p+".filter_high_hz", in.FilterHighHz, func(v float64) { out.FilterHighHz = v })
 	a.str(p+".montage", in.Montage, func(s string) { out.Montage = s })
 	a.str(p+".reference", in.Reference, func(s string) { out.Reference = s })
+	a.str(p+".software_filters", in.SoftwareFilters, func(s string) { out.SoftwareFilters = s })
+	a.str(p+".placement_scheme", in.PlacementScheme, func(s string) { out.PlacementScheme = s })
+	a.str(p+".placement_description", in.PlacementDescription, func(s string) { out.PlacementDescription = s })
 	a.str(p+".unit", in.Unit, func(s string) { out.Unit = s })
 	// The recorded data: always carried.
 	out.SamplingRateHz, out.StartS, out.SampleType = in.SamplingRateHz, in.StartS, in.SampleType

@@ -241,4 +241,7 @@ func (a *applier) session(rec *record.Recording, out *record.Session) {
 	a.str("session.site", in.Site, func(s string) { out.Site = s })
 	a.str("session.operator", in.Operator, func(s string) { out.Operator = s })
 	a.str("session.notes", in.Notes, func(s string) { out.Notes = s })
+	if in.PowerLineHz > 0 {
+		a.num("session.power_line_hz", in.PowerLineHz, func(v float64) { out.PowerLineHz = v })
+	}
 }

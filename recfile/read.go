@@ -346,9 +346,17 @@ func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
 		return err
 	}
 	rec.Session = record.Session{ID: a.str("id"), Date: a.str("date"), Site: a.str("site"),
-		Operator: a.str("operator"), Notes: a.str("notes")}
+		Operator: a.str("operator"), Notes: a.str("notes"), PowerLineHz: knownOr0(a.num("power_line_hz"))}
 	rec.Session.Extra = a.extra()
 	return a.err
+}
+
+// knownOr0 is v, or 0 when it is NaN (not known).
+func knownOr0(v float64) float64 {
+	if math.IsNaN(v) {
+		return 0
+	}
+	return v
 }
 
 func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
@@ -440,6 +448,8 @@ func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 	ar.ADCBits = a.int("adc_bits")
 	ar.FilterLowHz, ar.FilterHighHz = a.num("filter_low_hz"), a.num("filter_high_hz")
 	ar.Montage, ar.Reference = a.str("montage"), a.str("reference")
+	ar.SoftwareFilters = a.str("software_filters")
+	ar.PlacementScheme, ar.PlacementDescription = a.str("placement_scheme"), a.str("placement_description")
 	ar.SamplingRateHz, ar.StartS = a.num("sampling_rate_hz"), a.num("start_s")
 	if math.IsNaN(ar.StartS) {
 		ar.StartS = 0

@@ -150,6 +150,7 @@ func viewTrial(g *h5.Group, m map[string]any) error {
 }
 
 func viewArray(g *h5.Group, m map[string]any) error {
+	parseJSONField(m, "software_filters")
 	if g.Has(dsSamples) {
 		d, err := g.OpenDataset(dsSamples, 0)
 		if err != nil {

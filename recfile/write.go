@@ -304,6 +304,9 @@ func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error)
 	ea.str("site", e.Site)
 	ea.str("operator", e.Operator)
 	ea.str("notes", e.Notes)
+	if e.PowerLineHz > 0 {
+		ea.num("power_line_hz", e.PowerLineHz)
+	}
 	if err := group(root, grpSession, ea, e.Extra); err != nil {
 		return err
 	}
@@ -415,6 +418,9 @@ func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
 	a.num("filter_high_hz", ar.FilterHighHz)
 	a.str("montage", ar.Montage)
 	a.str("reference", ar.Reference)
+	a.str("software_filters", ar.SoftwareFilters)
+	a.str("placement_scheme", ar.PlacementScheme)
+	a.str("placement_description", ar.PlacementDescription)
 	a.any("sampling_rate_hz", ar.SamplingRateHz)
 	a.any("start_s", ar.StartS)
 	a.str("unit", ar.Unit)

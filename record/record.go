@@ -80,7 +80,10 @@ type Session struct {
 	Site     string
 	Operator string
 	Notes    string
-	Extra    Extra
+	// PowerLineHz is the mains frequency where the session was recorded
+	// (50 or 60 Hz); 0 when not known (the writer leaves it out).
+	PowerLineHz float64
+	Extra       Extra
 }
 
 // ForceProfile is the trapezoidal target: rest, linear ramp up to the target
@@ -175,6 +178,15 @@ type Array struct {
 	Montage string
 	// Reference describes the reference electrode, e.g. "ankle strap".
 	Reference string
+	// SoftwareFilters is a JSON object naming the digital filters applied
+	// to the samples before they were stored, each with an object of its
+	// parameters; "{}" when none was applied, empty when not known.
+	SoftwareFilters string
+	// PlacementScheme says how electrode positions were decided:
+	// "measured", "channel specific", "other", or empty when not known.
+	PlacementScheme string
+	// PlacementDescription describes the placement in words.
+	PlacementDescription string
 	// SamplingRateHz is the EMG sampling rate in hertz.
 	SamplingRateHz float64
 	// StartS is the time of sample 0 in seconds from the trial start.

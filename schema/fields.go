@@ -140,7 +140,8 @@ type Field struct {
 	// Unit is the UCUM unit of a number ("1" for a dimensionless ratio);
 	// "" when the field is not a quantity or carries its unit elsewhere.
 	Unit string
-	// Enum lists the allowed values of a string field; nil for any.
+	// Enum lists the allowed values of a string field, or of a number
+	// field written in decimal ("50"); nil for any.
 	Enum []string
 	// Required is true when every file has the field.
 	Required bool
@@ -275,6 +276,7 @@ var Fields = []Field{
 	{Group: "session", Name: "site", Kind: KindString, Identifying: true, Class: ClassText, Default: ActDrop, Since: "1.0", Meaning: "where; free text, may identify"},
 	{Group: "session", Name: "operator", Kind: KindString, Identifying: true, Class: ClassText, Default: ActDrop, Since: "1.0", Meaning: "who ran the session; free text, may identify"},
 	{Group: "session", Name: "notes", Kind: KindString, Identifying: true, Class: ClassText, Default: ActDrop, Since: "1.0", Meaning: "free text; may identify"},
+	{Group: "session", Name: "power_line_hz", Kind: KindNumber, Unit: "Hz", Enum: []string{"50", "60"}, Class: ClassValue, Default: ActKeep, Since: "1.2", Meaning: "frequency of the mains power grid where the session was recorded, the source of line interference (BIDS `PowerLineFrequency`); `50` or `60`"},
 
 	{Group: "trial", Name: "name", Kind: KindName, Required: true, Class: ClassName, Default: ActKeep, Since: "1.0", Meaning: "the trial's group name, unique within the recording, e.g. `ramp_30pct`"},
 	{Group: "trial", Name: "task", Kind: KindString, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "the task in words, e.g. `isometric ankle dorsiflexion`"},
@@ -306,6 +308,9 @@ var Fields = []Field{
 	{Group: "array", Name: "filter_high_hz", Kind: KindNumber, Unit: "Hz", Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "analogue band-pass upper corner"},
 	{Group: "array", Name: "montage", Kind: KindString, Enum: []string{"monopolar", "bipolar", "differential", "single differential", "double differential"}, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "electrode montage"},
 	{Group: "array", Name: "reference", Kind: KindString, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "where the reference electrode was, in words"},
+	{Group: "array", Name: "software_filters", Kind: KindJSON, Class: ClassValue, Default: ActKeep, Since: "1.2", Meaning: "digital filters applied to `samples` before they were stored, a JSON object naming each filter with an object of its parameters, e.g. `{\"notch\": {\"frequency (Hz)\": 50}}`; `{}` when none was applied; absent when not known (the form of BIDS `SoftwareFilters`)"},
+	{Group: "array", Name: "placement_scheme", Kind: KindString, Enum: []string{"measured", "channel specific", "other"}, Class: ClassValue, Default: ActKeep, Since: "1.2", Meaning: "how the electrode positions were decided: `measured` from anatomical landmarks, `channel specific` (each channel's place given with the channel), or `other` (BIDS `EMGPlacementScheme`); `placement_description` says how"},
+	{Group: "array", Name: "placement_description", Kind: KindString, Class: ClassValue, Default: ActKeep, Since: "1.2", Meaning: "the placement in words: landmarks, distances, orientation of the columns to the fibres (BIDS `EMGPlacementSchemeDescription`)"},
 	{Group: "array", Name: "sampling_rate_hz", Kind: KindNumber, Unit: "Hz", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "EMG sampling rate"},
 	{Group: "array", Name: "start_s", Kind: KindNumber, Unit: "s", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "time of sample 0 from the trial start"},
 	{Group: "array", Name: "unit", Kind: KindUnit, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "unit of the samples, e.g. `uV`"},

@@ -16,7 +16,7 @@ const LayoutName = "muarc-recording"
 // LayoutVersion is the layout version this build writes (major.minor). A
 // reader accepts any minor version of its major version and refuses a newer
 // major version.
-const LayoutVersion = "1.1"
+const LayoutVersion = "1.2"
 
 // SoftwareVersion is the version of the muarc software.
 const SoftwareVersion = "0.1.0"

@@ -336,6 +336,9 @@ func sidecar(r *record.Recording) obj {
 	se.add("site", r.Session.Site)
 	se.add("operator", r.Session.Operator)
 	se.add("notes", r.Session.Notes)
+	if r.Session.PowerLineHz > 0 {
+		se.add("power_line_hz", r.Session.PowerLineHz)
+	}
 	se.extra(r.Session.Extra)
 	trials := []obj{}
 	for _, t := range r.Trials {
@@ -369,6 +372,11 @@ func sidecar(r *record.Recording) obj {
 			ao.add("filter_high_hz", a.FilterHighHz)
 			ao.add("montage", a.Montage)
 			ao.add("reference", a.Reference)
+			if a.SoftwareFilters != "" {
+				ao.add("software_filters", json.RawMessage(a.SoftwareFilters))
+			}
+			ao.add("placement_scheme", a.PlacementScheme)
+			ao.add("placement_description", a.PlacementDescription)
 			ao.add("sampling_rate_hz", a.SamplingRateHz)
 			ao.add("start_s", a.StartS)
 			ao.add("unit", a.Unit)

@@ -317,7 +317,9 @@ func buildArray(cfg Config, s, li, ai int, plan *arrayPlan, disc [][]int64, forc
 		Rows: plan.spec.Rows, Columns: plan.spec.Columns, IEDMm: plan.spec.IEDMm,
 		Gain: 150, ADCBits: 16, FilterLowHz: 10, FilterHighHz: 500,
 		Montage: "monopolar", Reference: "electrode band at the ankle",
-		SamplingRateHz: fs, Unit: "uV", SampleType: record.Float32,
+		SoftwareFilters: "{}", PlacementScheme: "measured",
+		PlacementDescription: "grid centred over the muscle belly, columns along the fibres, from palpation during a brief contraction",
+		SamplingRateHz:       fs, Unit: "uV", SampleType: record.Float32,
 		Channels: slices.Clone(plan.channels), Samples: src,
 	}
 	at := ArrayTruth{Array: arr.Name, Muscle: arr.Muscle, NoiseSDuV: sd, SignalRMSuV: math.Sqrt(power)}

@@ -13,14 +13,16 @@ import (
 // Phone numbers are in the 555-0100..0199 range kept for fiction and e-mail
 // addresses use example.org (RFC 2606), so nothing reaches a real person.
 const (
-	studyID       = "FIMC-ADF-01"
-	studyTitle    = "Ankle dorsiflexion fatigue study (fictional)"
-	studyDesc     = "Invented demo study: isometric ankle dorsiflexion along trapezoidal force targets with two high-density surface EMG grids on the dorsiflexors. Generated data, no real participant."
-	studyContact  = "Data desk, Fennbrook Institute for Motor Control (fictional), data-desk@example.org"
-	studyLicense  = "CC0-1.0"
-	sessionSite   = "Fennbrook Institute for Motor Control (fictional), motor lab B"
-	trialTask     = "isometric ankle dorsiflexion along a trapezoidal force target"
-	synthSoftware = "muarc synth"
+	studyID      = "FIMC-ADF-01"
+	studyTitle   = "Ankle dorsiflexion fatigue study (fictional)"
+	studyDesc    = "Invented demo study: isometric ankle dorsiflexion along trapezoidal force targets with two high-density surface EMG grids on the dorsiflexors. Generated data, no real participant."
+	studyContact = "Data desk, Fennbrook Institute for Motor Control (fictional), data-desk@example.org"
+	studyLicense = "CC0-1.0"
+	sessionSite  = "Fennbrook Institute for Motor Control (fictional), motor lab B"
+	// sessionMainsHz is the invented lab's mains frequency.
+	sessionMainsHz = 50.0
+	trialTask      = "isometric ankle dorsiflexion along a trapezoidal force target"
+	synthSoftware  = "muarc synth"
 )
 
 var (
@@ -85,7 +87,7 @@ func (p person) subject() record.Subject {
 func (p person) session() record.Session {
 	return record.Session{
 		ID: p.code + "-V1", Date: p.sessionDate, Site: sessionSite,
-		Operator: p.operator, Notes: p.sessionNotes,
+		Operator: p.operator, Notes: p.sessionNotes, PowerLineHz: sessionMainsHz,
 	}
 }
 

@@ -46,11 +46,11 @@ func printBIDS(w, errw io.Writer, rep *bids.Report) {
 func bidsHint(field string) string {
 	switch field {
 	case "PowerLineFrequency":
-		return " (array extra " + bids.ExtraPowerLineHz + " in the metadata sidecar)"
+		return " (session.power_line_hz in the metadata sidecar, 50 or 60)"
 	case "SoftwareFilters":
-		return " (array extra " + bids.ExtraSoftwareFilters + ")"
+		return " (software_filters of every array: {} when none was applied)"
 	case "EMGPlacementScheme":
-		return " (array extra " + bids.ExtraPlacementScheme + ")"
+		return " (placement_scheme and placement_description of every array)"
 	case "EMGReference":
 		return " (array reference)"
 	case "License":
