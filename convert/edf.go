@@ -5,9 +5,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
-	"regexp"
 	"sort"
-	"strconv"
 	"strings"
 
 	"muarc/edfplus"
@@ -27,6 +25,14 @@ type ProfileEDF struct {
 	ForceTarget string `yaml:"force_target" json:"force_target"`
 	// Skip lists labels that are not read (trigger, status channels).
 	Skip []string `yaml:"skip" json:"skip"`
+	// Annotations is "units" (the default: unit and discharge annotations
+	// are read, edfunits.go) or "notes" (every annotation kept as text).
+	Annotations string `yaml:"annotations" json:"annotations"`
+	// Trial says which name a trial takes when the file records one
+	// (muarc's export) and the file name, the metadata or the default gives
+	// another: "" refuses naming both, "recorded" takes the file's,
+	// "given" the other.
+	Trial string `yaml:"trial" json:"trial"`
 }
 
 // IsEDF reports whether a file name ends in .edf or .bdf (any case).
@@ -54,15 +60,6 @@ const (
 	ExtraEDFStart = "edf_start_local"
 )
 
-// DischargeAnnotation is the annotation text of one discharge: "discharge
-// ARRAY/DECOMPOSITION unit ID". Its onset is the discharge time in seconds
-// from the file start.
-func DischargeAnnotation(array, decomposition string, unit int64) string {
-	return fmt.Sprintf("discharge %s/%s unit %d", array, decomposition, unit)
-}
-
-var dischargeText = regexp.MustCompile(`^discharge ([A-Za-z0-9_.-]+)/([A-Za-z0-9_.-]+) unit (-?[0-9]+)$`)
-
 // edfAnnotation is one annotation kept in ExtraEDFAnnotations.
 type edfAnnotation struct {
 	OnsetS    float64  `json:"onset_s"`
@@ -89,6 +86,14 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	}
 	defer r.Close()
 	h := r.Header
+	if err := pl.edfTrial(&it, r, prof.EDF.Trial); err != nil {
+		return err
+	}
+	switch prof.EDF.Annotations {
+	case "", EDFAnnotationsUnits, EDFAnnotationsNotes:
+	default:
+		return &ParseError{File: it.path, Msg: fmt.Sprintf("profile edf.annotations is %q", prof.EDF.Annotations), Hint: "write units, notes, or leave it out"}
+	}
 	if h.Discontinuous {
 		// Allowed only when the records turn out contiguous (checked below).
 		pl.Report.Notes = append(pl.Report.Notes, it.rel+": EDF+D/BDF+D file; its records are checked to be contiguous")
@@ -263,7 +268,7 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	if target >= 0 {
 		t.ForceTarget = record.Signal{SamplingRateHz: h.SamplingRateHz(target), StartS: start, Unit: units[target], Values: tvals}
 	}
-	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, DType: "float64",
+	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, DType: "float64", Notes: it.notes,
 		DTypeWhy: fmt.Sprintf("%s samples are kept as float64 physical values, which give every %d-bit digital value back exactly", h.Format, 8*h.Format.BytesPerSample())}
 	for _, name := range order {
 		sigs := arrays[name]
@@ -292,59 +297,22 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 		}
 	}
 	anns = rest
-	// Discharges and other annotations.
-	var kept []edfAnnotation
-	count := 0
-	for _, an := range anns {
-		m := dischargeText.FindStringSubmatch(an.Text)
-		if m == nil {
-			ea := edfAnnotation{OnsetS: an.OnsetS, Text: an.Text}
-			if !math.IsNaN(an.DurationS) {
-				d := an.DurationS
-				ea.DurationS = &d
-			}
-			kept = append(kept, ea)
-			continue
-		}
-		var a *record.Array
-		for ai := range t.Arrays {
-			if t.Arrays[ai].Name == m[1] {
-				a = &t.Arrays[ai]
-			}
-		}
-		if a == nil || a.SamplingRateHz <= 0 {
-			return &ParseError{File: it.path, Msg: fmt.Sprintf("annotation %q at %s s names array %q, which this file does not hold", an.Text, an.OnsetText, m[1]),
-				Hint: "map the array's signals in the profile (edf.arrays)"}
-		}
-		x := (an.OnsetS - a.StartS) * a.SamplingRateHz
-		idx := math.Round(x)
-		rows, _ := a.Samples.Shape()
-		if math.Abs(x-idx) > 0.1 || idx < 0 || int(idx) >= rows {
-			return &ParseError{File: it.path, Msg: fmt.Sprintf("discharge annotation %q at %s s is %.3f samples into array %s, not on a sample inside the recording", an.Text, an.OnsetText, x, a.Name),
-				Hint: "discharge annotations must fall on the array's samples (0.1-sample tolerance)"}
-		}
-		id, _ := strconv.ParseInt(m[3], 10, 64)
-		d := decompNamed(a, m[2])
-		ui := -1
-		for k := range d.Units {
-			if d.Units[k].ID == id {
-				ui = k
-			}
-		}
-		if ui < 0 {
-			d.Units = append(d.Units, record.NewUnit(id))
-			ui = len(d.Units) - 1
-		}
-		d.Units[ui].Discharges = append(d.Units[ui].Discharges, int64(idx))
-		count++
+	// Units, discharges and other annotations (edfunits.go).
+	anns, count, err := pl.edfUnits(it, t, anns, prof.EDF.Annotations)
+	if err != nil {
+		return err
 	}
-	for ai := range t.Arrays {
-		for di := range t.Arrays[ai].Decompositions {
-			for ui := range t.Arrays[ai].Decompositions[di].Units {
-				u := &t.Arrays[ai].Decompositions[di].Units[ui]
-				sort.Slice(u.Discharges, func(p, q int) bool { return u.Discharges[p] < u.Discharges[q] })
-			}
+	var kept []edfAnnotation
+	for _, an := range anns {
+		if strings.HasPrefix(an.Text, trialAnnotationText) && an.OnsetS == start {
+			continue // read by edfTrial
 		}
+		ea := edfAnnotation{OnsetS: an.OnsetS, Text: an.Text}
+		if !math.IsNaN(an.DurationS) {
+			d := an.DurationS
+			ea.DurationS = &d
+		}
+		kept = append(kept, ea)
 	}
 	if len(kept) > 0 {
 		b, _ := json.Marshal(kept)

@@ -16,8 +16,9 @@ import (
 )
 
 // edflibFixture compiles edfplus/testdata/edflib_writer.c against EDFlib
-// (Debian libedf-dev) and has it write a fixture of the given kind.
-func edflibFixture(t *testing.T, dir, kind string) string {
+// (Debian libedf-dev) and has it write a fixture of the given kind, with
+// more annotations ("ONSET_100US\tTEXT") when given.
+func edflibFixture(t *testing.T, dir, kind string, annotations ...string) string {
 	t.Helper()
 	gcc := reftest.NeedTool(t, "gcc", "gcc")
 	if _, err := os.Stat("/usr/include/edflib.h"); err != nil {
@@ -31,7 +32,15 @@ func edflibFixture(t *testing.T, dir, kind string) string {
 	}
 	path := filepath.Join(dir, "trial_1", "amp."+kind)
 	os.MkdirAll(filepath.Dir(path), 0o755)
-	if out, err := exec.Command(bin, path, kind).CombinedOutput(); err != nil {
+	args := []string{path, kind}
+	if len(annotations) > 0 {
+		list := filepath.Join(dir, "annotations.txt")
+		if err := os.WriteFile(list, []byte(strings.Join(annotations, "\n")+"\n"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		args = append(args, list)
+	}
+	if out, err := exec.Command(bin, args...).CombinedOutput(); err != nil {
 		t.Fatalf("edflib_writer: %v\n%s", err, out)
 	}
 	return path

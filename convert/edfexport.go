@@ -195,6 +195,19 @@ func exportTrial(rec *record.Recording, t *record.Trial, out string, opt EDFExpo
 		text    string
 	}
 	var anns []ann
+	patient, recording, hstart, trialInField := identification(rec, t)
+	if !trialInField {
+		anns = append(anns, ann{start, math.NaN(), trialAnnotationText + t.Name})
+	}
+	// Every unit declared at the file's start, in the unit table's order
+	// (its id and label as written), then its discharges by id.
+	for _, a := range t.Arrays {
+		for _, d := range a.Decompositions {
+			for _, u := range d.Units {
+				anns = append(anns, ann{start, math.NaN(), UnitDeclaration(a.Name, d.Name, u.ID, u.Label)})
+			}
+		}
+	}
 	for _, a := range t.Arrays {
 		for _, d := range a.Decompositions {
 			for _, u := range d.Units {
@@ -243,7 +256,7 @@ func exportTrial(rec *record.Recording, t *record.Trial, out string, opt EDFExpo
 	bps := opt.Format.BytesPerSample()
 	lo, hi := opt.Format.DigitalRange()
 	h := &edfplus.Header{Format: opt.Format, Plus: true, Records: records, RecordDurationS: dur, RecordDurationText: durText}
-	h.Patient, h.Recording, h.Start = identification(rec, t)
+	h.Patient, h.Recording, h.Start = patient, recording, hstart
 	for _, p := range sigs {
 		h.Signals = append(h.Signals, p.sig)
 	}

@@ -122,8 +122,11 @@ func recordDuration(ps []*planned, f edfplus.Format) (float64, string, bool, err
 // identification fills the EDF+ patient and recording fields (EDF+
 // 2.1.3.3 and 2.1.3.4): "code sex birthdate name" with X for unknowns, the
 // code being the subject's (pseudonym) id; "Startdate dd-MMM-yyyy
-// admincode technician equipment" with the study id as admin code.
-func identification(rec *record.Recording, t *record.Trial) (patient, recording string, start time.Time) {
+// admincode technician equipment muarc_trial=NAME" with the study id as
+// admin code (shortened so that the trial name fits) and the trial name
+// as an additional subfield. trialInField is false when the trial name
+// does not fit the 80 characters; the caller writes it as an annotation.
+func identification(rec *record.Recording, t *record.Trial) (patient, recording string, start time.Time, trialInField bool) {
 	x := func(s string) string {
 		s = strings.Map(func(r rune) rune {
 			if r == ' ' {
@@ -159,12 +162,17 @@ func identification(rec *record.Recording, t *record.Trial) (patient, recording 
 			start = d
 		}
 	}
-	recording = fmt.Sprintf("Startdate %s %s X X muarc_trial=%s", date, x(rec.Study.ID), x(t.Name))
 	if len(patient) > 80 {
 		patient = patient[:80]
 	}
+	admin, tail := x(rec.Study.ID), " X X "+recordingTrialPrefix+t.Name
+	head := "Startdate " + date + " "
+	if room := 80 - len(head) - len(tail); room >= 1 {
+		return patient, head + admin[:min(len(admin), room)] + tail, start, true
+	}
+	recording = head + admin + " X X"
 	if len(recording) > 80 {
 		recording = recording[:80]
 	}
-	return patient, recording, start
+	return patient, recording, start, false
 }

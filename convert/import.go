@@ -103,6 +103,8 @@ type Plan struct {
 type input struct {
 	path, rel, role  string
 	trial, array, dc string
+	// trialFrom says where trial came from ("" for the built-in default).
+	trialFrom string
 	// notes say how a name not given by the template was decided.
 	notes []string
 }
@@ -172,10 +174,15 @@ func Read(in Inputs) (*Plan, error) {
 			m, _ = matchTemplate(re, filepath.Base(p))
 		}
 		it := input{path: p, rel: r, role: role, trial: m["trial"], array: m["array"], dc: m["decomposition"]}
-		if it.trial == "" {
+		if it.trial != "" {
+			it.trialFrom = "the file name (template " + tmpl + ")"
+		} else {
 			it.trial = defaultTrial
+			if len(rec.Trials) == 1 {
+				it.trialFrom = "the metadata's only trial"
+			}
 			if d := filepath.Base(filepath.Dir(p)); trialExists(rec, d) {
-				it.trial = d
+				it.trial, it.trialFrom = d, "the folder name"
 			}
 		}
 		return it
