@@ -14,8 +14,10 @@
 #           flac -8 of the counts (8 streams of 8 channels, one per grid
 #           row: FLAC holds at most 8 channels); each muarc file is checked
 #           against the counts (largest |physical - count x LSB|)
-#   sweep   built-in HDF5 filters, chunk shapes and deflate levels on the
-#           int16 counts in h5py (scripts/bench/storage.py sweep)
+#   sweep   chunk shapes and deflate levels through muarc's own writer
+#           (scripts/benchchunks), and built-in HDF5 filters, chunk shapes
+#           and deflate levels on the int16 counts in h5py
+#           (scripts/bench/storage.py sweep)
 # Rows print in the format of scripts/bench-study.sh's table (it calls this
 # script); BENCH_PARTS picks parts (default import,storage,sweep);
 # BENCH_HEADER=1 prints the table header first.
@@ -85,6 +87,11 @@ if want storage; then
 	done
 fi
 if want sweep; then
+	go build -o bin/muarc-benchchunks ./scripts/benchchunks
+	echo
+	echo "muarc's writer (recfile.Write, libdeflate, bands compressed on every core) on the same recording, file bytes per sample:"
+	echo
+	bin/muarc-benchchunks -seconds "$S" -shapes 16384x4,4096x64 -levels 1,6
 	echo
 	echo "Built-in HDF5 filters on the same int16 counts, written and read by h5py ($N samples; every row checked to read back unchanged):"
 	echo

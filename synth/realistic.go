@@ -259,8 +259,8 @@ func (s *RealisticSource) Channels() []record.Channel {
 }
 
 // ReadCounts fills dst with the converter counts of rows [start,
-// start+len(dst)/channels), row-major.
-func (s *RealisticSource) ReadCounts(start int, dst []int16) error {
+// start+len(dst)/channels), row-major; each fits in int16.
+func (s *RealisticSource) ReadCounts(start int, dst []int32) error {
 	if len(dst)%s.channels != 0 || start < 0 || start+len(dst)/s.channels > s.rows {
 		return fmt.Errorf("synth: rows from %d, %d values: not whole %d-channel rows inside 0..%d", start, len(dst), s.channels, s.rows)
 	}
@@ -277,7 +277,7 @@ func (s *RealisticSource) ReadCounts(start int, dst []int16) error {
 }
 
 // row generates the row at s.pos into dst (nil: only advance).
-func (s *RealisticSource) row(dst []int16) {
+func (s *RealisticSource) row(dst []int32) {
 	r := s.pos
 	s.pos++
 	for k := range s.chain {
@@ -301,13 +301,13 @@ func (s *RealisticSource) row(dst []int16) {
 		}
 		v += noise + s.lineSin[c]*sn + s.lineCos[c]*cs
 		q := math.Round(v / s.cfg.LSBuV)
-		dst[c] = int16(max(-32768, min(32767, q)))
+		dst[c] = int32(max(-32768, min(32767, q)))
 	}
 }
 
 // ReadFloat64 implements record.SampleSource: counts x LSBuV.
 func (s *RealisticSource) ReadFloat64(start int, dst []float64) error {
-	c := make([]int16, len(dst))
+	c := make([]int32, len(dst))
 	if err := s.ReadCounts(start, c); err != nil {
 		return err
 	}
@@ -320,7 +320,7 @@ func (s *RealisticSource) ReadFloat64(start int, dst []float64) error {
 // ReadFloat32 implements record.SampleSource: the float32 rounding of
 // ReadFloat64's values.
 func (s *RealisticSource) ReadFloat32(start int, dst []float32) error {
-	c := make([]int16, len(dst))
+	c := make([]int32, len(dst))
 	if err := s.ReadCounts(start, c); err != nil {
 		return err
 	}
@@ -332,7 +332,7 @@ func (s *RealisticSource) ReadFloat32(start int, dst []float32) error {
 
 // AppendCountText appends count x LSB in uV as a decimal with exactly
 // LSBDecimals decimals, computed in integers so the text is exact.
-func (s *RealisticSource) AppendCountText(b []byte, count int16) []byte {
+func (s *RealisticSource) AppendCountText(b []byte, count int32) []byte {
 	v := int64(count) * s.lsbUnits
 	if v < 0 {
 		b = append(b, '-')
@@ -368,7 +368,7 @@ func (s *RealisticSource) WriteText(w io.Writer, counts io.Writer, keys bool) er
 	}
 	bw.WriteString("\n")
 	const block = 2048
-	blk := make([]int16, block*s.channels)
+	blk := make([]int32, block*s.channels)
 	raw := make([]byte, 2*len(blk))
 	var b []byte
 	for r0 := 0; r0 < s.rows; r0 += block {

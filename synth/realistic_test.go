@@ -220,12 +220,12 @@ func TestRealisticTextIsWholeLSBs(t *testing.T) {
 	if bytes.Equal(other.Bytes(), text.Bytes()) {
 		t.Error("seeds 5 and 6 wrote the same text")
 	}
-	late := make([]int16, 10*ch)
+	late := make([]int32, 10*ch)
 	if err := s.ReadCounts(100, late); err != nil {
 		t.Fatal(err)
 	}
 	for i, v := range late {
-		if v != counts[100*ch+i] {
+		if v != int32(counts[100*ch+i]) {
 			t.Fatalf("rows 100-109 read again differ at value %d: %d, first %d", i, v, counts[100*ch+i])
 		}
 	}
