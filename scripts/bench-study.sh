@@ -11,13 +11,18 @@
 #                its folder (distinct paths, the same few contents)
 #   BENCH_DEID_N recordings de-identified against the h5py copy (default 200)
 #   BENCH_ONE_S  seconds of the single large recording (default 300: ~140 MB)
+#   BENCH_MEM_N  recordings of the larger study of the peak-memory table for
+#                deidentify, pack and report (default BENCH_DEID_N; index and
+#                validate reuse their BENCH_N runs from the table above):
+#                BENCH_MEM_N=2000 measures them on 2,000, about 20 minutes
+#                more on 2 cores
 #   BENCH_PARTS  which rows (default
 #                index,validate,deidentify,import,storage,memory,sweep;
 #                import, storage and sweep are scripts/bench-storage.sh's)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 N=${BENCH_N:-2000}; SMALL=${BENCH_SMALL:-20}; BIG=${BENCH_BIG:-10000}
-DEIDN=${BENCH_DEID_N:-200}; ONES=${BENCH_ONE_S:-300}
+DEIDN=${BENCH_DEID_N:-200}; ONES=${BENCH_ONE_S:-300}; MEMN=${BENCH_MEM_N:-$DEIDN}
 out=bench-out/studies
 mkdir -p "$out"
 go build -o bin/muarc ./cmd/muarc
@@ -118,24 +123,26 @@ for p in import storage; do want $p && parts="$parts,$p"; done
 sweep() { want sweep && BENCH_PARTS=sweep bash scripts/bench-storage.sh || true; }
 want memory || { sweep; exit 0; }
 echo
-echo "Peak memory (muarc and its worker processes), $SMALL vs $N recordings:"
+echo "Peak memory (muarc and its worker processes), $SMALL recordings against a larger study:"
 echo
-echo "| command | $SMALL recordings | $N recordings | ratio | wall ($N) |"
+echo "| command | $SMALL recordings | larger study | ratio | wall (larger) |"
 echo "|---|---|---|---|---|"
+LM=$(study "$MEMN")
 mem() { # mem NAME ARGS-with-@ (@ is the study folder, % a fresh output)
 	local name=$1; shift
 	local a=() b=()
-	for x in "$@"; do a+=("${x//@/$S}"); b+=("${x//@/$L}"); done
+	for x in "$@"; do a+=("${x//@/$S}"); b+=("${x//@/$LM}"); done
 	a=("${a[@]//%/$tmp/o-$name-s}"); b=("${b[@]//%/$tmp/o-$name-l}")
 	run "m-$name-s" "$muarc" "${a[@]}"; local ms=$M
-	local ml wl
+	local ml wl n=$MEMN
 	if [ -n "${large[$name]:-}" ]; then
-		read -r ml wl <<<"${large[$name]}" # measured in the table above
+		read -r ml wl <<<"${large[$name]}" # measured on the BENCH_N study in the table above
+		n=$N
 	else
 		run "m-$name-l" "$muarc" "${b[@]}"; ml=$M wl=$W
 	fi
 	rm -rf "$tmp/o-$name-s" "$tmp/o-$name-l"
-	awk -v n="$name" -v s="$ms" -v l="$ml" -v w="$wl" 'BEGIN { printf "| %s | %d MiB | %d MiB | %.2fx | %.1f s |\n", n, s, l, l / s, w }'
+	awk -v n="$name" -v s="$ms" -v l="$ml" -v w="$wl" -v c="$n" 'BEGIN { printf "| %s | %d MiB | %d MiB (%d recordings) | %.2fx | %.1f s |\n", n, s, l, c, l / s, w }'
 }
 mem index index --no-catalogue @
 mem validate validate @
