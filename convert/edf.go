@@ -268,8 +268,8 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	if target >= 0 {
 		t.ForceTarget = record.Signal{SamplingRateHz: h.SamplingRateHz(target), StartS: start, Unit: units[target], Values: tvals}
 	}
-	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, DType: "float64", Notes: it.notes,
-		DTypeWhy: fmt.Sprintf("%s samples are kept as float64 physical values, which give every %d-bit digital value back exactly", h.Format, 8*h.Format.BytesPerSample())}
+	// One report line per array (arrays of one file may differ in rate).
+	var frs []FileReport
 	for _, name := range order {
 		sigs := arrays[name]
 		if len(sigs) == 0 {
@@ -279,10 +279,19 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 		if err := pl.edfArray(it, prof, h, a, sigs, units, labelOf, start); err != nil {
 			return err
 		}
-		fr.Array = strings.Join(order, ",")
-		fr.Channels += len(sigs)
-		fr.Rows = h.Records * h.Signals[sigs[0]].SamplesPerRecord
-		fr.RateHz = a.SamplingRateHz
+		frs = append(frs, FileReport{Name: it.rel, Role: "emg", Trial: t.Name, Array: name, DType: "float64",
+			DTypeWhy: fmt.Sprintf("%s samples are kept as float64 physical values, which give every %d-bit digital value back exactly", h.Format, 8*h.Format.BytesPerSample()),
+			Channels: len(sigs), Rows: h.Records * h.Signals[sigs[0]].SamplesPerRecord, RateHz: a.SamplingRateHz})
+	}
+	if len(frs) == 0 {
+		frs = append(frs, FileReport{Name: it.rel, Role: "emg", Trial: t.Name})
+	}
+	fr := &frs[0]
+	fr.Notes = append(fr.Notes, it.notes...)
+	for _, name := range order {
+		if a := arrayNamed(t, name); a.Extra[ExtraEDFPrefilter] != nil {
+			fr.Notes = append(fr.Notes, prefilterNotes(a)...)
+		}
 	}
 	// Where padded signals end (muarc's export marks them).
 	rest := anns[:0:0]
@@ -298,6 +307,7 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	}
 	anns = rest
 	// Units, discharges and other annotations (edfunits.go).
+	total := len(anns)
 	anns, count, err := pl.edfUnits(it, t, anns, prof.EDF.Annotations)
 	if err != nil {
 		return err
@@ -319,11 +329,22 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 		t.Extra[ExtraEDFAnnotations] = string(b)
 	}
 	fr.Discharges = count
-	fr.Notes = append(fr.Notes, fmt.Sprintf("%s%s, %d records of %s s, %d annotations (%d discharges)", h.Format, map[bool]string{true: "+", false: ""}[h.Plus], h.Records, h.RecordDurationText, len(anns), count))
+	fr.Notes = append(fr.Notes, fmt.Sprintf("%s%s, %d records of %s s, %d annotations: %d discharges, %d kept as text in the trial's %s", h.Format,
+		map[bool]string{true: "+", false: ""}[h.Plus], h.Records, h.RecordDurationText, total, count, len(kept), ExtraEDFAnnotations))
+	for _, a := range t.Arrays {
+		for _, d := range a.Decompositions {
+			if n := len(d.Units); n > 0 {
+				fr.Notes = append(fr.Notes, fmt.Sprintf("decomposition %s/%s: %d units from the annotations, labels as written", a.Name, d.Name, n))
+			}
+		}
+	}
+	if count == 0 && len(kept) > 0 && prof.EDF.Annotations != EDFAnnotationsNotes {
+		fr.Notes = append(fr.Notes, "no annotation is a discharge; discharges are read from annotations written \"discharge ARRAY/DECOMPOSITION unit LABEL\" (convert/PROFILES.md, \"EDF and BDF files\")")
+	}
 	if force >= 0 {
 		fr.Notes = append(fr.Notes, fmt.Sprintf("force from signal %q (%s)", h.Signals[force].Label, units[force]))
 	}
-	pl.Report.Files = append(pl.Report.Files, fr)
+	pl.Report.Files = append(pl.Report.Files, frs...)
 	return nil
 }
 

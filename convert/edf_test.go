@@ -148,4 +148,11 @@ func TestParsePrefilter(t *testing.T) {
 	if !math.IsNaN(lo) || !math.IsNaN(hi) {
 		t.Fatal(lo, hi)
 	}
+	// The notch of that example is reported, never taken as the mains
+	// frequency (a filter setting, not a statement about the grid).
+	a := &record.Array{Name: "g", FilterLowHz: 0.1, FilterHighHz: 75, Extra: record.Extra{ExtraEDFPrefilter: "HP:0.1Hz LP:75Hz N:50Hz"}}
+	notes := strings.Join(prefilterNotes(a), "\n")
+	if !strings.Contains(notes, "notch at 50 Hz; session.power_line_hz is not set from it") || !strings.Contains(notes, "now 0.1 and 75 Hz") {
+		t.Errorf("notes:\n%s", notes)
+	}
 }

@@ -9,9 +9,24 @@ import (
 	"strings"
 
 	"muarc/edfplus"
+	"muarc/record"
 )
 
 var prefilterRe = regexp.MustCompile(`(?i)\b(HP|LP):\s*([0-9.]+)\s*(k?Hz)`)
+
+var notchRe = regexp.MustCompile(`(?i)\bN:\s*([0-9.]+)\s*Hz`)
+
+// prefilterNotes says what an array's EDF prefiltering text gave: the
+// band-pass corners, where the text is kept, and that a notch does not set
+// the mains frequency.
+func prefilterNotes(a *record.Array) []string {
+	pre, _ := a.Extra[ExtraEDFPrefilter].(string)
+	notes := []string{fmt.Sprintf("array %s: prefiltering %q (its HP and LP corners fill filter_low_hz and filter_high_hz where the metadata gives none: now %g and %g Hz, NaN when not known); the text is kept in %s", a.Name, pre, a.FilterLowHz, a.FilterHighHz, ExtraEDFPrefilter)}
+	if m := notchRe.FindStringSubmatch(pre); m != nil {
+		notes = append(notes, fmt.Sprintf("array %s: the prefiltering names a notch at %s Hz; session.power_line_hz is not set from it (a notch is a filter, not a statement of the mains frequency): give it in the metadata", a.Name, m[1]))
+	}
+	return notes
+}
 
 // parsePrefilter reads the EDF+ prefiltering convention "HP:0.1Hz LP:75Hz"
 // (EDF+ 2.1.3.5); NaN for a corner not given.

@@ -63,7 +63,13 @@ imports back as OUT_DIR/D.h5. EMG samples are stored as float32 only when every 
 digits written, else float64 (--dtype forces one and the report gives the
 largest error that causes). Nothing is written when an input is bad; inputs
 are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which
-file is which and how to read it.`,
+file is which and how to read it.
+
+An EDF, EDF+, BDF or BDF+ file given as --emg holds one trial: its signals go
+to arrays and force (profile section edf), annotations written "discharge
+ARRAY/DECOMPOSITION unit LABEL" become discharges (labels as written), all
+other annotations are kept as text; a file muarc exported gives back its
+trial name and units (convert/PROFILES.md, "EDF and BDF files").`,
 		Args: cobra.MaximumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			return runImport(cmd.OutOrStdout(), fl, args)
