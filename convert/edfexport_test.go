@@ -61,12 +61,7 @@ func TestEDFRoundTrip(t *testing.T) {
 		}
 		for ti, rep := range reps {
 			ot := orig.Trials[ti]
-			r, err := edfplus.Open(rep.File)
-			if err != nil {
-				t.Fatal(err)
-			}
-			h := r.Header
-			r.Close()
+			h := edfHeader(t, rep.File)
 			// EDF+ 2.1.3.3: the patient field is "code sex birthdate name", X for unknown.
 			if want := orig.Subject.ID + " " + map[string]string{"female": "F", "male": "M", "": "X"}[orig.Subject.Sex] + " X X"; h.Patient != want {
 				t.Errorf("patient field %q, want %q", h.Patient, want)

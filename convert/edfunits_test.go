@@ -14,6 +14,17 @@ import (
 	"muarc/record"
 )
 
+// edfHeader reads the header of an EDF/BDF file.
+func edfHeader(t *testing.T, path string) *edfplus.Header {
+	t.Helper()
+	r, err := edfplus.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	return r.Header
+}
+
 // gridProfile maps the EDFlib fixture's two EMG signals to two arrays.
 func gridProfile() *Profile {
 	prof := DefaultProfile()
@@ -168,12 +179,7 @@ func TestEDFRoundTripNamesAndLabels(t *testing.T) {
 	}
 	for ti, rp := range reps {
 		ot := rec.Trials[ti]
-		r, err := edfplus.Open(rp.File)
-		if err != nil {
-			t.Fatal(err)
-		}
-		h := r.Header
-		r.Close()
+		h := edfHeader(t, rp.File)
 		// EDF+ 2.1.3.3: the recording field holds at most 80 characters.
 		inField := strings.Contains(h.Recording, " muarc_trial="+ot.Name)
 		if len(h.Recording) > 80 || inField == (ot.Name == long) {
