@@ -307,7 +307,12 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 	}
 	anns = rest
 	// Units, discharges and other annotations (edfunits.go).
-	total := len(anns)
+	total, decls := len(anns), 0
+	for _, an := range anns {
+		if unitDeclText.MatchString(an.Text) {
+			decls++
+		}
+	}
 	anns, count, err := pl.edfUnits(it, t, anns, prof.EDF.Annotations)
 	if err != nil {
 		return err
@@ -329,8 +334,8 @@ func (pl *Plan) edfFile(it input, prof *Profile) error {
 		t.Extra[ExtraEDFAnnotations] = string(b)
 	}
 	fr.Discharges = count
-	fr.Notes = append(fr.Notes, fmt.Sprintf("%s%s, %d records of %s s, %d annotations: %d discharges, %d kept as text in the trial's %s", h.Format,
-		map[bool]string{true: "+", false: ""}[h.Plus], h.Records, h.RecordDurationText, total, count, len(kept), ExtraEDFAnnotations))
+	fr.Notes = append(fr.Notes, fmt.Sprintf("%s%s, %d records of %s s, %d annotations: %d discharges, %d unit declarations, %d kept as text in the trial's %s", h.Format,
+		map[bool]string{true: "+", false: ""}[h.Plus], h.Records, h.RecordDurationText, total, count, decls, len(kept), ExtraEDFAnnotations))
 	for _, a := range t.Arrays {
 		for _, d := range a.Decompositions {
 			if n := len(d.Units); n > 0 {

@@ -218,6 +218,37 @@ func TestEDFRoundTripNamesAndLabels(t *testing.T) {
 	}
 }
 
+// TestEDFFilesOfSeveralTrials: the files of several trials given at once,
+// without metadata, each go to the trial they record.
+func TestEDFFilesOfSeveralTrials(t *testing.T) {
+	dir := t.TempDir()
+	src, rec := deidentifiedSynth(t, dir)
+	reps, err := ExportEDF(src, EDFExportOptions{Format: edfplus.BDF, Dir: filepath.Join(dir, "bdf")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var files []string
+	for _, r := range reps {
+		files = append(files, r.File)
+	}
+	out := filepath.Join(dir, "all.h5")
+	if _, err := ImportRecording(Inputs{EMG: files}, out, recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	got, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got.Trials) != len(rec.Trials) {
+		t.Fatalf("%d trials back, wrote %d", len(got.Trials), len(rec.Trials))
+	}
+	for i := range rec.Trials {
+		if got.Trials[i].Name != rec.Trials[i].Name || len(got.Trials[i].Arrays) != len(rec.Trials[i].Arrays) {
+			t.Errorf("trial %d: %q with %d arrays back, wrote %q with %d", i, got.Trials[i].Name, len(got.Trials[i].Arrays), rec.Trials[i].Name, len(rec.Trials[i].Arrays))
+		}
+	}
+}
+
 // TestEDFTrialNameConflict: a trial name from the file name template that
 // differs from the one the file records is refused naming both, unless the
 // profile's edf.trial picks one.

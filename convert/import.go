@@ -158,9 +158,9 @@ func Read(in Inputs) (*Plan, error) {
 	if len(in.Unmatched) > 0 {
 		rep.Notes = append(rep.Notes, "files not read (no template of the profile matches them): "+strings.Join(in.Unmatched, ", "))
 	}
-	defaultTrial := "trial_1"
+	defaultTrial, defaultFrom := "trial_1", ""
 	if len(rec.Trials) == 1 {
-		defaultTrial = rec.Trials[0].Name
+		defaultTrial, defaultFrom = rec.Trials[0].Name, "the metadata's only trial"
 	}
 	// Names from the templates.
 	name := func(p, tmpl string, arrays []string, role string) input {
@@ -177,10 +177,7 @@ func Read(in Inputs) (*Plan, error) {
 		if it.trial != "" {
 			it.trialFrom = "the file name (template " + tmpl + ")"
 		} else {
-			it.trial = defaultTrial
-			if len(rec.Trials) == 1 {
-				it.trialFrom = "the metadata's only trial"
-			}
+			it.trial, it.trialFrom = defaultTrial, defaultFrom
 			if d := filepath.Base(filepath.Dir(p)); trialExists(rec, d) {
 				it.trial, it.trialFrom = d, "the folder name"
 			}
