@@ -106,7 +106,9 @@ func one(path string, seconds float64, rows, cols, level int) error {
 	}
 	all := time.Since(t1)
 	var oneCh time.Duration
-	if rs, ok := s.(*recfile.ArraySamples); ok {
+	if rs, ok := s.(interface {
+		ReadRange32(row0, rows, ch0, nch int, dst []float32) error
+	}); ok {
 		t2 := time.Now()
 		if err := rs.ReadRange32(0, n, 17, 1, make([]float32, n)); err != nil {
 			return err
