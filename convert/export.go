@@ -34,7 +34,7 @@ type ExportOptions struct {
 }
 
 // ExportKinds lists what Export can write.
-var ExportKinds = []string{"signals", "discharges", "units", "muaps", "history", "metadata"}
+var ExportKinds = []string{"signals", "discharges", "units", "muaps", "derived", "history", "metadata"}
 
 // Export writes the chosen parts of a muarc file as text and returns the
 // files written. Every number is written with the shortest digits that read
@@ -172,6 +172,10 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 					}
 				}
 			}
+		case "derived": // derived.go
+			if err := exportDerived(rec, opt.Format, delim, emit); err != nil {
+				return out, err
+			}
 		case "history":
 			if opt.Format == "json" {
 				continue // metadata.json holds the history
@@ -180,7 +184,7 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 				return out, err
 			}
 		default:
-			return out, fmt.Errorf("--what %q: want signals, discharges, units, muaps, history or metadata", k)
+			return out, fmt.Errorf("--what %q: want signals, discharges, units, muaps, derived, history or metadata", k)
 		}
 	}
 	return out, nil

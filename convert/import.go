@@ -35,6 +35,11 @@ type Inputs struct {
 	// muarc export writes them (optional).
 	MUAPs   []string
 	History string
+	// DerivedUnits and DerivedMUAPs are derived-figure tables and derived
+	// MUAP templates as muarc export writes them (derived.go): they go to
+	// the decomposition's derived/ group, never to its unit table.
+	DerivedUnits []string
+	DerivedMUAPs []string
 	// Profile is the mapping profile; nil = DefaultProfile.
 	Profile *Profile
 	// DType forces the EMG sample type ("" = decide by the digits written).
@@ -231,13 +236,17 @@ func Read(in Inputs) (*Plan, error) {
 			return nil, err
 		}
 	}
-	for _, role := range []string{"discharges", "units", "muaps"} {
+	for _, role := range []string{"discharges", "units", "muaps", "derived_units", "derived_muaps"} {
 		list, tmpl := in.Discharges, prof.Files.Discharges
 		switch role {
 		case "units":
 			list, tmpl = in.Units, prof.Files.Units
 		case "muaps":
 			list, tmpl = in.MUAPs, prof.Files.MUAPs
+		case "derived_units":
+			list, tmpl = in.DerivedUnits, prof.Files.DerivedUnits
+		case "derived_muaps":
+			list, tmpl = in.DerivedMUAPs, prof.Files.DerivedMUAPs
 		}
 		for _, p := range list {
 			it := name(p, tmpl, arrays, role)
@@ -261,6 +270,10 @@ func Read(in Inputs) (*Plan, error) {
 				err = pl.discharges(it, prof)
 			case "units":
 				err = pl.units(it, prof)
+			case "derived_units":
+				err = pl.derivedUnits(it)
+			case "derived_muaps":
+				err = pl.derivedMUAPs(it)
 			default:
 				err = pl.muaps(it, prof)
 			}

@@ -49,6 +49,10 @@ type ProfileFiles struct {
 	// MUAP templates per decomposition and the recording's history.
 	MUAPs   string `yaml:"muaps" json:"muaps"`
 	History string `yaml:"history" json:"history"`
+	// DerivedUnits and DerivedMUAPs are the derived figures and derived
+	// MUAP templates muarc export writes (read into derived/).
+	DerivedUnits string `yaml:"derived_units" json:"derived_units"`
+	DerivedMUAPs string `yaml:"derived_muaps" json:"derived_muaps"`
 }
 
 // ProfileForce names the force and target columns of a force file.
@@ -148,14 +152,16 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 	}
 	def := Profile{Files: ProfileFiles{Metadata: "metadata.json", Force: "{trial}/force.csv", EMG: "{trial}/emg_{array}.csv",
 		Discharges: "{trial}/discharges_{array}_{decomposition}.csv", Units: "{trial}/units_{array}_{decomposition}.csv",
-		MUAPs: "{trial}/muaps_{array}_{decomposition}.csv", History: "history.csv"}}
+		MUAPs: "{trial}/muaps_{array}_{decomposition}.csv", History: "history.csv",
+		DerivedUnits: "{trial}/derived_units_{array}_{decomposition}.csv", DerivedMUAPs: "{trial}/derived_muaps_{array}_{decomposition}.csv"}}
 	f := &p.Files
 	for _, x := range []struct {
 		dst *string
 		def string
 	}{{&f.Metadata, def.Files.Metadata}, {&f.Force, def.Files.Force},
 		{&f.EMG, def.Files.EMG}, {&f.Discharges, def.Files.Discharges}, {&f.Units, def.Files.Units},
-		{&f.MUAPs, def.Files.MUAPs}, {&f.History, def.Files.History}} {
+		{&f.MUAPs, def.Files.MUAPs}, {&f.History, def.Files.History},
+		{&f.DerivedUnits, def.Files.DerivedUnits}, {&f.DerivedMUAPs, def.Files.DerivedMUAPs}} {
 		if *x.dst == "" {
 			*x.dst = x.def
 		}
@@ -199,7 +205,7 @@ func parseProfile(data []byte, path string) (*Profile, error) {
 			return nil, &ParseError{File: path, Msg: fmt.Sprintf("profile: units: column %q maps to unknown field %q", h, fld), Hint: "fields: id, silhouette, pnr_db, accuracy_pct, isi_cov, recruit_pct_mvc, derecruit_pct_mvc, initial_rate_pps, mean_rate_pps"}
 		}
 	}
-	for _, t := range []string{f.Force, f.EMG, f.Discharges, f.Units, f.MUAPs} {
+	for _, t := range []string{f.Force, f.EMG, f.Discharges, f.Units, f.MUAPs, f.DerivedUnits, f.DerivedMUAPs} {
 		if _, err := compileTemplate(t, nil); err != nil {
 			return nil, &ParseError{File: path, Msg: "profile: files: " + err.Error(), Hint: "use {trial}, {array} and {decomposition} in file templates"}
 		}

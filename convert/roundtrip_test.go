@@ -2,12 +2,14 @@ package convert
 
 import (
 	"math"
+	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
 	"time"
 
+	"muarc/analysis"
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/synth"
@@ -19,12 +21,18 @@ import (
 // kept with the import added.
 func roundTrip(t *testing.T, rec *record.Recording, folder string) string {
 	t.Helper()
-	py := needPython(t)
-	dir := t.TempDir()
-	orig := filepath.Join(dir, "orig.h5")
+	orig := filepath.Join(t.TempDir(), "orig.h5")
 	if err := recfile.Write(orig, rec, recfile.WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
+	return roundTripFile(t, orig, folder)
+}
+
+// roundTripFile is roundTrip of a recording already written.
+func roundTripFile(t *testing.T, orig, folder string) string {
+	t.Helper()
+	py := needPython(t)
+	dir := t.TempDir()
 	exp := filepath.Join(dir, folder)
 	if _, err := Export(orig, ExportKinds, ExportOptions{Dir: exp}); err != nil {
 		t.Fatal(err)
@@ -106,6 +114,99 @@ func TestExportImportRoundTripAwkwardText(t *testing.T) {
 	for _, c := range gd.ExtraColumns {
 		if c.Name == "code" && (c.Text == nil || c.Text[0] != "007") {
 			t.Errorf("digits column not kept as text: %+v", c)
+		}
+	}
+}
+
+// Derived figures and derived templates (analysis.StatsFile --write) come
+// back into derived/ of the same decompositions, bit for bit (h5py), and
+// the lab's unit table beside them is unchanged: the export writes them as
+// tables of their own, labelled as derived.
+func TestExportImportRoundTripDerived(t *testing.T) {
+	gens, err := synth.Generate(synth.TestConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	orig := filepath.Join(t.TempDir(), "orig.h5")
+	if err := recfile.Write(orig, gens[0].Recording, recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := analysis.StatsFile(orig, true, true); err != nil {
+		t.Fatal(err)
+	}
+	before, err := recfile.ReadAll(orig)
+	if err != nil {
+		t.Fatal(err)
+	}
+	derived, templates := 0, 0
+	for _, tr := range before.Trials {
+		for _, a := range tr.Arrays {
+			for _, d := range a.Decompositions {
+				if d.Derived != nil {
+					derived++
+					if d.Derived.MUAPs != nil {
+						templates++
+					}
+				}
+			}
+		}
+	}
+	if derived == 0 || templates == 0 {
+		t.Fatalf("stats --write stored %d derived groups, %d with templates", derived, templates)
+	}
+	out := roundTripFile(t, orig, "S01")
+	got, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	for ti, tr := range got.Trials {
+		for ai, a := range tr.Arrays {
+			for di, d := range a.Decompositions {
+				w := before.Trials[ti].Arrays[ai].Decompositions[di]
+				if d.Derived == nil {
+					continue
+				}
+				n++
+				if d.Derived.Method != w.Derived.Method || !d.Derived.Computed.Equal(w.Derived.Computed) || d.Derived.Software != w.Derived.Software {
+					t.Errorf("%s/%s/%s: derived attributes %q %v %q, want %q %v %q", tr.Name, a.Name, d.Name, d.Derived.Method, d.Derived.Computed,
+						d.Derived.Software, w.Derived.Method, w.Derived.Computed, w.Derived.Software)
+				}
+			}
+		}
+	}
+	if n != derived {
+		t.Errorf("%d derived groups came back, want %d", n, derived)
+	}
+}
+
+// A derived-figures table read back refuses what it cannot place: a unit
+// the decomposition does not have, a muarc_id that is not the unit's, a
+// table without its "derived:" line.
+func TestDerivedUnitsRefused(t *testing.T) {
+	d := &record.Decomposition{Name: "auto", Units: []record.Unit{record.NewUnit(1), record.NewUnit(2)}}
+	d.Units[0].Label, d.Units[1].Label = "MU-a", "MU-b"
+	good := "derived: x\nmethod: {}\n\nunit,muarc_id,recruit_pct_mvc [%],derecruit_pct_mvc [%],recruit_force [N],derecruit_force [N],initial_rate_pps [/s],plateau_rate_pps [/s],plateau_isi_cov [1],plateau_isi_count\n"
+	for name, c := range map[string]struct{ text, want string }{
+		"ok":          {good + "MU-a,1,1,2,3,4,5,6,0.1,7\nMU-b,2,,,,,,,,0\n", ""},
+		"unknown":     {good + "MU-a,1,1,2,3,4,5,6,0.1,7\nMU-c,2,,,,,,,,0\n", "no unit \"MU-c\""},
+		"wrong id":    {good + "MU-a,2,1,2,3,4,5,6,0.1,7\nMU-b,2,,,,,,,,0\n", "muarc_id"},
+		"missing":     {good + "MU-a,1,1,2,3,4,5,6,0.1,7\n", "no derived figures for unit MU-b"},
+		"not derived": {strings.TrimPrefix(good, "derived: x\n") + "MU-a,1,1,2,3,4,5,6,0.1,7\nMU-b,2,,,,,,,,0\n", "not a derived-figures table"},
+		"text":        {good + "MU-a,1,one,2,3,4,5,6,0.1,7\nMU-b,2,,,,,,,,0\n", "text \"one\""},
+	} {
+		p := filepath.Join(t.TempDir(), "derived_units_g_auto.csv")
+		if err := os.WriteFile(p, []byte(c.text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		dv, err := readDerivedUnits(p, d)
+		switch {
+		case c.want == "" && err != nil:
+			t.Errorf("%s: %v", name, err)
+		case c.want == "" && (dv.Units[0].PlateauRatePPS != 6 || dv.Units[0].PlateauISIs != 7 || !math.IsNaN(dv.Units[1].RecruitPctMVC) || dv.Method != "{}"):
+			t.Errorf("%s: read %+v", name, dv)
+		case c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)):
+			t.Errorf("%s: error %v, want %q", name, err, c.want)
 		}
 	}
 }

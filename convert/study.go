@@ -112,6 +112,8 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 	reD0, _ := compileTemplate(prof.Files.Discharges, nil)
 	reU0, _ := compileTemplate(prof.Files.Units, nil)
 	reM0, _ := compileTemplate(prof.Files.MUAPs, nil)
+	reDU0, _ := compileTemplate(prof.Files.DerivedUnits, nil)
+	reDM0, _ := compileTemplate(prof.Files.DerivedMUAPs, nil)
 	var arrays, rest []string
 	for _, r := range rels {
 		p := filepath.Join(dir, filepath.FromSlash(r))
@@ -124,7 +126,7 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 			in.History = p
 		case matches(reF, r):
 			in.Force = append(in.Force, p)
-		case matches(reD0, r), matches(reU0, r), matches(reM0, r):
+		case matches(reD0, r), matches(reU0, r), matches(reM0, r), matches(reDU0, r), matches(reDM0, r):
 			rest = append(rest, r) // named once the arrays are known
 		case matches(reE, r):
 			in.EMG = append(in.EMG, p)
@@ -137,6 +139,8 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 	reD, _ := compileTemplate(prof.Files.Discharges, arrays)
 	reU, _ := compileTemplate(prof.Files.Units, arrays)
 	reM, _ := compileTemplate(prof.Files.MUAPs, arrays)
+	reDU, _ := compileTemplate(prof.Files.DerivedUnits, arrays)
+	reDM, _ := compileTemplate(prof.Files.DerivedMUAPs, arrays)
 	for _, r := range rest {
 		p := filepath.Join(dir, filepath.FromSlash(r))
 		switch {
@@ -146,6 +150,10 @@ func MatchRecording(dir string, prof *Profile) (Inputs, error) {
 			in.Units = append(in.Units, p)
 		case matches(reM, r):
 			in.MUAPs = append(in.MUAPs, p)
+		case matches(reDU, r):
+			in.DerivedUnits = append(in.DerivedUnits, p)
+		case matches(reDM, r):
+			in.DerivedMUAPs = append(in.DerivedMUAPs, p)
 		default:
 			in.Unmatched = append(in.Unmatched, r)
 		}

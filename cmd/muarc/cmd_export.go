@@ -22,16 +22,20 @@ func init() {
 		Short: "Write a muarc file's signals, discharges, units or metadata as CSV, TSV or JSON",
 		Long: `Write parts of a muarc file as plain text, so that any tool can read them:
 
-  muarc export FILE [--what all|signals,discharges,units,muaps,history,metadata]
+  muarc export FILE [--what all|signals,discharges,units,muaps,derived,history,metadata]
                [--shape long|columns|lines|matrix] [--time-base samples|s] [--format csv|tsv|json] -o DIR
 
 "all" (the default) writes every part: DIR/<trial>/force.csv and emg_<array>.csv (signals),
 discharges_<array>_<decomposition>.csv, units_<array>_<decomposition>.csv,
 muaps_<array>_<decomposition>.csv (MUAP templates, where a decomposition has them),
+derived_units_<array>_<decomposition>.csv and derived_muaps_<array>_<decomposition>.csv
+(the figures and templates "muarc stats --write" derived, in tables of their own that say
+so and carry the software, time and method: never mixed into the lab's unit table),
 DIR/history.csv (the recording's history) and DIR/metadata.json: the names the built-in
-import profile reads, so "muarc import DIR -o OUT" gives the same recording back, templates
-and history included. With --format json the discharges, units and metadata are JSON, the
-history is inside metadata.json, and signals and MUAP templates (csv or tsv only) are
+import profile reads, so "muarc import DIR -o OUT" gives the same recording back, templates,
+derived figures (back into derived/) and history included. With --format json the
+discharges, units, derived figures and metadata are JSON, the history is inside
+metadata.json, and signals and MUAP templates, the lab's or derived (csv or tsv only), are
 refused: give --what discharges,units,metadata. Numbers are written with the shortest
 digits that read back to the same value; discharges as 0-based sample indices (or, with
 --time-base s, seconds that round back to the same samples). Each file is written atomically; existing files are kept unless --overwrite.
@@ -70,7 +74,7 @@ derivatives/muarc/) and says which required sidecar values it had to leave "n/a"
 		},
 	}
 	f := cmd.Flags()
-	f.StringVar(&what, "what", "all", "what to write: signals, discharges, units, muaps, history, metadata (comma-separated) or all (every one of them)")
+	f.StringVar(&what, "what", "all", "what to write: signals, discharges, units, muaps, derived, history, metadata (comma-separated) or all (every one of them)")
 	f.StringVar(&shape, "shape", "long", "discharge shape: long (unit, sample), columns, lines or matrix")
 	f.StringVar(&timeBase, "time-base", "samples", "discharge times: samples (0-based indices, exact) or s (seconds)")
 	f.StringVar(&format, "format", "csv", "csv, tsv or json (json for discharges, units and metadata); bdf or edf for one BDF+ (24-bit) or EDF+ (16-bit) file per trial")

@@ -59,7 +59,8 @@ written and the message names the readings and the flags that pick each
 --read ROLE.MEMBER=VALUE for one file role, e.g. --read emg.rate_hz=2048).
 Unit labels are kept as written. The report names every file read, what was
 found and what was not stored. An export folder (muarc export FILE -o D)
-imports back as OUT_DIR/D.h5. EMG samples are stored as float32 only when every value reads back at the
+imports back as OUT_DIR/D.h5, its derived_units_* and derived_muaps_* tables into
+each decomposition's derived/ group (never into the lab's unit table). EMG samples are stored as float32 only when every value reads back at the
 digits written, else float64 (--dtype forces one and the report gives the
 largest error that causes). Nothing is written when an input is bad; inputs
 are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which

@@ -20,7 +20,8 @@ func TestExportHelpNamesEveryPart(t *testing.T) {
 		}
 	}
 	for _, f := range []string{"force.csv", "emg_<array>.csv", "discharges_<array>_<decomposition>.csv",
-		"units_<array>_<decomposition>.csv", "muaps_<array>_<decomposition>.csv", "history.csv", "metadata.json"} {
+		"units_<array>_<decomposition>.csv", "muaps_<array>_<decomposition>.csv", "derived_units_<array>_<decomposition>.csv",
+		"derived_muaps_<array>_<decomposition>.csv", "history.csv", "metadata.json"} {
 		if !strings.Contains(out, f) {
 			t.Errorf("export --help does not name the file %s", f)
 		}
