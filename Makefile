@@ -97,6 +97,7 @@ fuzz: deps
 	bash scripts/fuzz-all.sh $(FUZZTIME)
 	MUARC_DAMAGE_ALL=1 CI=true $(GO) test -count=1 -run 'TestDamagedCorpus' -timeout 60m ./cmd/muarc
 	DIFF_CASES=20000 CI=true $(GO) test -count=1 -timeout 60m -run Differential ./convert
+	MUARC_MIXED_CASES=400 CI=true $(GO) test -count=1 -timeout 60m -run TestLevelsAgainstStatsmodels ./analysis/study
 
 clean:
 	rm -rf bin $(DEMO) bench-out

@@ -347,7 +347,7 @@ func studyTitle(dir string, files []string) string {
 
 // studyTable lists the across-subject summary of the study analysis.
 func studyTable(res *study.Result) Table {
-	t := Table{Caption: "Per muscle and target level (all: levels pooled): the subjects' least-squares slopes (pps per % MVC) and intercepts (pps), and the mixed model (random intercept and slope per subject, REML): fixed slope and the between-subject share of the variance. A muscle recorded in one subject has one line per level: its slope and intercept are that line's (n = 1), with no SD and no mixed model, which need two subjects or more. muarc stats DIR gives the per-subject lines.",
+	t := Table{Caption: "Per muscle and target level (all: every level, where the mixed model gives each level its own fixed intercept and one common slope, so that the rise of rate with level is not counted as within-subject scatter): the subjects' least-squares slopes (pps per % MVC) and intercepts (pps), and the mixed model (random intercept and slope per subject, REML): fixed slope and the between-subject share of the variance. A muscle recorded in one subject has one line per level: its slope and intercept are that line's (n = 1), with no SD and no mixed model, which need two subjects or more. muarc stats DIR gives the per-subject lines.",
 		Columns: []string{"muscle", "level (% MVC)", "relation", "lines", "slope mean ± SD", "slope range", "intercept mean ± SD", "mixed slope ± SE", "between-subject share", "within-subject variance"},
 		Empty:   "no units with thresholds"}
 	for _, s := range res.Summary {

@@ -2,19 +2,24 @@ package study
 
 import (
 	"math"
+	"sort"
 
+	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/optimize"
 )
 
 // MixedFit is a linear mixed model y = b0 + b1 x + u0 + u1 x + e with a
 // random intercept u0 and a random slope u1 per subject ((u0, u1) normal
 // with covariance Psi, e normal with variance WithinVar), fitted by
-// restricted maximum likelihood. Unknown figures are NaN.
+// restricted maximum likelihood; over several target levels b0 is one
+// fixed intercept per level (FitMixedLevels). Unknown figures are NaN.
 type MixedFit struct {
 	Subjects int `json:"subjects"`
 	N        int `json:"n"`
 	// Slope and Intercept are the fixed effects b1 and b0, with standard
-	// errors.
+	// errors given the variance estimates: sqrt of the diagonal of
+	// sigma^2 (X' V^-1 X)^-1 (statsmodels' bse_fe, from the inverse
+	// Hessian over the variance parameters too, are a few per cent larger).
 	Slope       float64 `json:"slope"`
 	SlopeSE     float64 `json:"slope_se"`
 	Intercept   float64 `json:"intercept"`
@@ -32,95 +37,176 @@ type MixedFit struct {
 	BetweenShare float64 `json:"between_share"`
 	// REMLCriterion is -2 times the restricted log-likelihood at the fit.
 	REMLCriterion float64 `json:"reml_criterion"`
+	// Levels are the per-level fixed intercepts of the model over all
+	// levels (FitMixedLevels); empty for one level.
+	Levels []LevelIntercept `json:"level_intercepts,omitempty"`
 }
 
-// group holds one subject's sufficient statistics for Z = X = [1, x].
+// LevelIntercept is the fixed intercept of one target level in the model
+// over all levels (FitMixedLevels).
+type LevelIntercept struct {
+	LevelPct    float64 `json:"level_pct_mvc"`
+	Intercept   float64 `json:"intercept"`
+	InterceptSE float64 `json:"intercept_se"`
+}
+
+// group holds one subject's sufficient statistics for the random-effects
+// design Z = [1, x] and the fixed-effects design X (p columns).
 type group struct {
-	n       int
-	a       [2][2]float64 // Z'Z
-	b       [2]float64    // Z'y
-	c       float64       // y'y
-	meanX   float64
-	sumX    float64
-	members int
+	n  int
+	zz m2           // Z'Z
+	zx [2][]float64 // Z'X, 2 x p
+	xx []float64    // X'X, p x p row-major
+	zy [2]float64   // Z'y
+	xy []float64    // X'y
+	yy float64      // y'y
 }
 
-// FitMixed fits the model to points grouped by subject (xs[g], ys[g]);
-// pairs with a non-finite value are left out. It needs 2 subjects and 4
-// points at least.
+// FitMixed fits the model with fixed effects [1, x] to points grouped by
+// subject (xs[g], ys[g]); pairs with a non-finite value are left out. It
+// needs 2 subjects and 4 points at least.
 func FitMixed(xs, ys [][]float64) MixedFit {
+	return fitMixed(xs, ys, nil)
+}
+
+// FitMixedLevels fits y = b_level + b1 x + u0 + u1 x + e over several
+// target levels: one fixed intercept per level (levels[g][i] is point i's
+// level, % MVC), one common fixed slope, and the random intercept and
+// slope per subject of FitMixed. Pooling levels without their own
+// intercepts would count the rise of rate with contraction level as
+// within-subject scatter. The result's Intercept and InterceptSE are NaN;
+// Levels holds the per-level intercepts, lowest level first.
+func FitMixedLevels(xs, ys, levels [][]float64) MixedFit {
+	return fitMixed(xs, ys, levels)
+}
+
+func fitMixed(xs, ys, levels [][]float64) MixedFit {
 	nan := math.NaN()
 	out := MixedFit{Slope: nan, SlopeSE: nan, Intercept: nan, InterceptSE: nan, BetweenInterceptVar: nan,
 		BetweenSlopeVar: nan, BetweenCov: nan, WithinVar: nan, BetweenShare: nan, REMLCriterion: nan}
+	// The fixed-effects columns: an intercept per level (one when levels
+	// is nil), then x.
+	var lv []float64
+	col := map[float64]int{}
+	if levels != nil {
+		for g := range levels {
+			for i, l := range levels[g] {
+				if finite(xs[g][i]) && finite(ys[g][i]) && finite(l) {
+					if _, ok := col[l]; !ok {
+						col[l] = 0
+						lv = append(lv, l)
+					}
+				}
+			}
+		}
+		sort.Float64s(lv)
+		for i, l := range lv {
+			col[l] = i
+		}
+	} else {
+		lv = []float64{nan}
+	}
+	p := len(lv) + 1
+	row := make([]float64, p)
 	var gs []group
 	var sumX float64
 	for g := range xs {
-		var gr group
+		gr := group{xx: make([]float64, p*p), xy: make([]float64, p)}
+		gr.zx[0], gr.zx[1] = make([]float64, p), make([]float64, p)
 		for i := range xs[g] {
 			x, y := xs[g][i], ys[g][i]
-			if !finite(x) || !finite(y) {
+			if !finite(x) || !finite(y) || levels != nil && !finite(levels[g][i]) {
 				continue
 			}
+			clear(row)
+			if levels != nil {
+				row[col[levels[g][i]]] = 1
+			} else {
+				row[0] = 1
+			}
+			row[p-1] = x
 			gr.n++
-			gr.a[0][0]++
-			gr.a[0][1] += x
-			gr.a[1][1] += x * x
-			gr.b[0] += y
-			gr.b[1] += x * y
-			gr.c += y * y
+			gr.zz = gr.zz.add(m2{1, x, x, x * x})
+			for j, v := range row {
+				gr.zx[0][j] += v
+				gr.zx[1][j] += x * v
+				gr.xy[j] += v * y
+				for k, w := range row {
+					gr.xx[j*p+k] += v * w
+				}
+			}
+			gr.zy[0] += y
+			gr.zy[1] += x * y
+			gr.yy += y * y
 			sumX += x
 		}
-		gr.a[1][0] = gr.a[0][1]
 		if gr.n > 0 {
 			gs = append(gs, gr)
 			out.N += gr.n
 		}
 	}
 	out.Subjects = len(gs)
-	if out.Subjects < 2 || out.N < 4 {
+	if out.Subjects < 2 || out.N < p+2 {
 		return out
 	}
-	const p = 2
 	// eval returns -2 log REML likelihood (without its constant) for the
 	// relative factor L = [[l0, 0], [l1, l2]] of Psi / sigma^2, with the
 	// fixed effects, sigma^2 and (X' V^-1 X)^-1 (sigma^2 V = the covariance
-	// of y). Per subject, with Z = X = [1, x] and A = Z'Z, b = Z'y:
-	// M = I + L'AL, G = L M^-1 L', X'V^-1X = A - AGA, X'V^-1y = b - AGb,
-	// y'V^-1y = c - b'Gb and log|V| = log|M| (Woodbury).
-	eval := func(l [3]float64) (crit float64, beta [2]float64, sigma2 float64, pinv m2) {
+	// of y). Per subject, with A = Z'Z, M = I + L'AL and G = L M^-1 L'
+	// (Woodbury: V^-1 = I - Z G Z'): X'V^-1X = X'X - (Z'X)'G(Z'X),
+	// X'V^-1y = X'y - (Z'X)'G Z'y, y'V^-1y = y'y - (Z'y)'G Z'y and
+	// log|V| = log|M|.
+	eval := func(l [3]float64) (crit float64, beta []float64, sigma2 float64, pinv *mat.SymDense) {
 		L := m2{l[0], 0, l[1], l[2]}
-		var P m2
-		var q [2]float64
+		P := mat.NewSymDense(p, nil)
+		q := make([]float64, p)
 		var r, logdetM float64
 		for _, g := range gs {
-			A := m2{g.a[0][0], g.a[0][1], g.a[1][0], g.a[1][1]}
-			M := L.t().mul(A).mul(L).add(m2{1, 0, 0, 1})
+			M := L.t().mul(g.zz).mul(L).add(m2{1, 0, 0, 1})
 			Minv, det := M.inv()
 			if !(det > 0) {
-				return math.Inf(1), beta, 0, pinv
+				return math.Inf(1), nil, 0, nil
 			}
 			logdetM += math.Log(det)
 			G := L.mul(Minv).mul(L.t())
-			AG := A.mul(G)
-			P = P.add(A.sub(AG.mul(A)))
-			agb := AG.vec(g.b)
-			q[0] += g.b[0] - agb[0]
-			q[1] += g.b[1] - agb[1]
-			gb := G.vec(g.b)
-			r += g.c - (g.b[0]*gb[0] + g.b[1]*gb[1])
+			// gz = G Z'X (2 x p), gy = G Z'y.
+			var gz [2][]float64
+			for a := 0; a < 2; a++ {
+				gz[a] = make([]float64, p)
+				for j := 0; j < p; j++ {
+					gz[a][j] = G[2*a]*g.zx[0][j] + G[2*a+1]*g.zx[1][j]
+				}
+			}
+			gy := G.vec(g.zy)
+			for j := 0; j < p; j++ {
+				for k := j; k < p; k++ {
+					P.SetSym(j, k, P.At(j, k)+g.xx[j*p+k]-(g.zx[0][j]*gz[0][k]+g.zx[1][j]*gz[1][k]))
+				}
+				q[j] += g.xy[j] - (g.zx[0][j]*gy[0] + g.zx[1][j]*gy[1])
+			}
+			r += g.yy - (g.zy[0]*gy[0] + g.zy[1]*gy[1])
 		}
-		pinv, detP := P.inv()
-		if !(detP > 0) {
-			return math.Inf(1), beta, 0, pinv
+		var ch mat.Cholesky
+		if !ch.Factorize(P) {
+			return math.Inf(1), nil, 0, nil
 		}
-		beta = pinv.vec(q)
-		rss := r - (q[0]*beta[0] + q[1]*beta[1])
+		pinv = mat.NewSymDense(p, nil)
+		if err := ch.InverseTo(pinv); err != nil {
+			return math.Inf(1), nil, 0, nil
+		}
+		var bv mat.VecDense
+		bv.MulVec(pinv, mat.NewVecDense(p, q))
+		beta = bv.RawVector().Data
+		rss := r
+		for j := range q {
+			rss -= q[j] * beta[j]
+		}
 		if !(rss > 0) {
-			return math.Inf(1), beta, 0, pinv
+			return math.Inf(1), nil, 0, nil
 		}
 		df := float64(out.N - p)
 		sigma2 = rss / df
-		crit = df*math.Log(sigma2) + logdetM + math.Log(detP)
+		crit = df*math.Log(sigma2) + logdetM + ch.LogDet()
 		return crit, beta, sigma2, pinv
 	}
 	f := func(v []float64) float64 {
@@ -153,8 +239,14 @@ func FitMixed(xs, ys [][]float64) MixedFit {
 	}
 	crit, beta, s2, pinv := eval(bestL)
 	out.REMLCriterion = crit + float64(out.N-p)*(1+math.Log(2*math.Pi))
-	out.Intercept, out.Slope = beta[0], beta[1]
-	out.InterceptSE, out.SlopeSE = math.Sqrt(s2*pinv[0]), math.Sqrt(s2*pinv[3])
+	out.Slope, out.SlopeSE = beta[p-1], math.Sqrt(s2*pinv.At(p-1, p-1))
+	if levels == nil {
+		out.Intercept, out.InterceptSE = beta[0], math.Sqrt(s2*pinv.At(0, 0))
+	} else {
+		for i, l := range lv {
+			out.Levels = append(out.Levels, LevelIntercept{LevelPct: l, Intercept: beta[i], InterceptSE: math.Sqrt(s2 * pinv.At(i, i))})
+		}
+	}
 	l0, l1, l2 := bestL[0], bestL[1], bestL[2]
 	out.BetweenInterceptVar = s2 * l0 * l0
 	out.BetweenCov = s2 * l0 * l1

@@ -22,7 +22,9 @@ var FitColumns = []string{"subject", "muscle", "level_pct_mvc", "relation", "uni
 	"n", "slope_pps_per_pct_mvc", "slope_ci_low", "slope_ci_high", "intercept_pps", "r2"}
 
 // SummaryColumns are the header of the summary TSV, one row per muscle x
-// level x relation; level_pct_mvc "all" pools the levels.
+// level x relation; level_pct_mvc "all" pools the levels, where the mixed
+// model has one fixed intercept per level (FitMixedLevels; in the JSON as
+// level_intercepts) and mixed_intercept is empty.
 var SummaryColumns = []string{"muscle", "level_pct_mvc", "relation", "subjects", "slope_mean", "slope_sd", "slope_min", "slope_max",
 	"intercept_mean", "intercept_sd", "intercept_min", "intercept_max", "mixed_subjects", "mixed_n", "mixed_slope", "mixed_slope_se",
 	"mixed_intercept", "mixed_intercept_se", "between_intercept_var", "between_slope_var", "between_cov", "within_var", "between_share"}

@@ -102,7 +102,7 @@ func Method() map[string]any {
 	m["decomposition"] = "per array the one summaries use: the last edited by hand, else the last"
 	m["per_subject"] = "ordinary least squares of rate (pps) on recruitment threshold (% MVC) per subject, muscle and target level; 95 % interval of the slope from Student's t with n - 2 degrees of freedom"
 	m["across_subjects"] = "mean, SD (n - 1), min and max of the subjects' slopes and intercepts (lines of 3 or more units)"
-	m["mixed_model"] = "rate = b0 + b1 threshold + u0 + u1 threshold + e, (u0, u1) per subject with covariance Psi, fitted by REML; between-subject share = (Psi00 + 2 Psi01 x + Psi11 x^2) / (that + within variance) at the mean threshold x; per muscle over all levels the levels are pooled"
+	m["mixed_model"] = "rate = b0 + b1 threshold + u0 + u1 threshold + e, (u0, u1) per subject with covariance Psi, fitted by REML; between-subject share = (Psi00 + 2 Psi01 x + Psi11 x^2) / (that + within variance) at the mean threshold x; per muscle over all levels: rate = b_level + b1 threshold + u0 + u1 threshold + e, one fixed intercept per target level and one common fixed slope (the rise of rate with level is a fixed effect, not within-subject scatter), the same random part"
 	return m
 }
 
@@ -254,7 +254,7 @@ func summarise(rows []SubjectRow) []SummaryRow {
 	for _, k := range keys {
 		var slopes, icpts []float64
 		bySubject := map[string]int{}
-		var xs, ys [][]float64
+		var xs, ys, ls [][]float64
 		for _, r := range rows {
 			if r.Muscle != k.muscle || r.Relation != k.rel || (!math.IsInf(k.level, 1) && r.LevelPct != k.level) {
 				continue
@@ -266,18 +266,23 @@ func summarise(rows []SubjectRow) []SummaryRow {
 			if !ok {
 				g = len(xs)
 				bySubject[r.Subject] = g
-				xs, ys = append(xs, nil), append(ys, nil)
+				xs, ys, ls = append(xs, nil), append(ys, nil), append(ls, nil)
 			}
 			for _, p := range r.Points {
-				xs[g], ys[g] = append(xs[g], p[0]), append(ys[g], p[1])
+				xs[g], ys[g], ls[g] = append(xs[g], p[0]), append(ys[g], p[1]), append(ls[g], r.LevelPct)
 			}
 		}
 		lvl := k.level
 		if math.IsInf(lvl, 1) {
 			lvl = math.NaN()
 		}
+		mixed := FitMixed(xs, ys)
+		if math.IsNaN(lvl) {
+			// Over all levels each level keeps its own fixed intercept.
+			mixed = FitMixedLevels(xs, ys, ls)
+		}
 		out = append(out, SummaryRow{Muscle: k.muscle, LevelPct: lvl, Relation: k.rel, AllLevels: math.IsNaN(lvl),
-			Slope: SpreadOf(slopes), Intercept: SpreadOf(icpts), Mixed: FitMixed(xs, ys)})
+			Slope: SpreadOf(slopes), Intercept: SpreadOf(icpts), Mixed: mixed})
 	}
 	return out
 }

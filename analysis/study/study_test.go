@@ -86,6 +86,30 @@ func TestStudyAnalysis(t *testing.T) {
 			t.Errorf("mixed plateau slope %v", s.Mixed.Slope)
 		}
 	}
+	// Over all levels each level has its own fixed intercept: the
+	// within-subject variance stays of the order of the per-level ones
+	// instead of taking up the rise of rate with level (a property of our
+	// model: plateau rates rise with the level, R^2 > 0.6 within a level).
+	for _, rel := range Relations {
+		var perLevel float64
+		var all *SummaryRow
+		for i, s := range res.Summary {
+			if s.Muscle != "tibialis anterior" || s.Relation != rel {
+				continue
+			}
+			if s.AllLevels {
+				all = &res.Summary[i]
+			} else {
+				perLevel = math.Max(perLevel, s.Mixed.WithinVar)
+			}
+		}
+		if all == nil || !(all.Mixed.WithinVar < 2*perLevel) || len(all.Mixed.Levels) != 3 || !math.IsNaN(all.Mixed.Intercept) {
+			t.Errorf("%s over all levels: within variance %v (largest per level %v), level intercepts %+v", rel, all.Mixed.WithinVar, perLevel, all.Mixed.Levels)
+		}
+		if rel == PlateauRate && !(all.Mixed.Levels[0].Intercept < all.Mixed.Levels[1].Intercept && all.Mixed.Levels[1].Intercept < all.Mixed.Levels[2].Intercept) {
+			t.Errorf("plateau rate intercepts do not rise with the level: %+v", all.Mixed.Levels)
+		}
+	}
 	if ta != 8 {
 		t.Errorf("%d tibialis anterior summary rows, want 8 (3 levels + all, 2 relations)", ta)
 	}

@@ -57,7 +57,10 @@ using per array the decomposition summaries use (the last edited by hand,
 else the last). Per muscle x level, and per muscle over all levels, it gives
 the mean, SD and range of the subjects' slopes and intercepts and a linear
 mixed model (random intercept and slope per subject, REML) that splits the
-variability into between-subject and within-subject parts. --tsv prints one
+variability into between-subject and within-subject parts; over all levels
+the model gives each target level its own fixed intercept and one common
+slope (rate ~ 0 + level + threshold), so that the rise of rate with the
+level is not counted as within-subject scatter. --tsv prints one
 row per subject x muscle x level x relation; --write stores
 rate_threshold_fits.tsv, rate_threshold_summary.tsv, the figures (per
 muscle, the subjects side by side, plateau mean rate and initial rate
