@@ -144,14 +144,15 @@ func muscleFigure(res *study.Result, muscle string) *Figure {
 	return &Figure{Width: w, Height: 6.4 * vg.Inch, draw: func(dc draw.Canvas) {
 		hdr := text.Style{Color: color.Black, Font: font.From(gplot.DefaultFont, 12), Handler: gplot.DefaultTextHandler, XAlign: draw.XLeft, YAlign: draw.YTop}
 		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(4)}, muscle)
-		// Provenance, top right: what computed it, when, from how much.
+		// Provenance in a footer line of its own: what computed it, when,
+		// from how many recordings.
 		prov := hdr
 		prov.Font = font.From(gplot.DefaultFont, 8)
 		prov.Color = color.Gray{Y: 90}
-		prov.XAlign = draw.XRight
-		dc.FillText(prov, vg.Point{X: dc.Max.X - vg.Points(6), Y: dc.Max.Y - vg.Points(6)},
+		prov.YAlign = draw.YBottom
+		dc.FillText(prov, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Min.Y + vg.Points(3)},
 			fmt.Sprintf("%s, %s, from %d recordings", res.Software, res.Computed.UTC().Format("2006-01-02 15:04 UTC"), len(res.Sources)))
-		body := draw.Crop(dc, 0, 0, 0, -vg.Points(18))
+		body := draw.Crop(dc, 0, 0, vg.Points(12), -vg.Points(18))
 		tiles := draw.Tiles{Rows: len(study.Relations), Cols: cols, PadTop: vg.Points(4), PadBottom: vg.Points(4),
 			PadLeft: vg.Points(4), PadRight: vg.Points(10), PadX: vg.Points(10), PadY: vg.Points(10)}
 		canv := gplot.Align(plots, tiles, body)

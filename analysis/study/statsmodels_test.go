@@ -75,15 +75,7 @@ print(json.dumps(out))
 // FitMixed and with statsmodels (Debian python3-statsmodels: OLS and MixedLM
 // with a random intercept and slope per group, REML).
 func TestAgainstStatsmodels(t *testing.T) {
-	py := reftest.NeedPython(t, "statsmodels")
 	cases := makeCases(30)
-	in, _ := json.Marshal(cases)
-	cmd := exec.Command(py, "-c", statsmodelsScript)
-	cmd.Stdin = bytes.NewReader(in)
-	b, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("statsmodels: %v", err)
-	}
 	var ref []struct {
 		OLS   [][6]float64 `json:"ols"`
 		FE    [2]float64   `json:"fe"`
@@ -92,9 +84,7 @@ func TestAgainstStatsmodels(t *testing.T) {
 		Scale float64      `json:"scale"`
 		LLF   float64      `json:"llf"`
 	}
-	if err := json.Unmarshal(b, &ref); err != nil {
-		t.Fatalf("%v: %s", err, b)
-	}
+	runStatsmodels(t, statsmodelsScript, cases, &ref)
 	var worstOLS, worstFE, worstVar, worstLL float64
 	compared, unconverged := 0, 0
 	for ci, c := range cases {
@@ -141,6 +131,23 @@ func TestAgainstStatsmodels(t *testing.T) {
 	}
 	if worstFE > 2e-3 || worstVar > 2e-2 || worstLL > 1e-3 {
 		t.Errorf("mixed model differs from statsmodels: fixed %.3g, variances %.3g, log-likelihood %.3g", worstFE, worstVar, worstLL)
+	}
+}
+
+// runStatsmodels runs script under Debian's python3 with statsmodels,
+// cases as JSON on its stdin, and decodes its JSON answer into ref.
+func runStatsmodels(t *testing.T, script string, cases, ref any) {
+	t.Helper()
+	py := reftest.NeedPython(t, "statsmodels")
+	in, _ := json.Marshal(cases)
+	cmd := exec.Command(py, "-c", script)
+	cmd.Stdin = bytes.NewReader(in)
+	b, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("statsmodels: %v", err)
+	}
+	if err := json.Unmarshal(b, ref); err != nil {
+		t.Fatalf("%v: %s", err, b)
 	}
 }
 
@@ -245,22 +252,14 @@ print(json.dumps(out))
 // python3-statsmodels) on the same generated sets and the same design:
 // fixed effects, their standard errors given the variance estimates (numpy
 // on statsmodels' estimates), variance components and the REML
-// log-likelihood. MUARC_MIXED_CASES sets the number of sets (default 40;
+// log-likelihood. MUARC_MIXED_CASES sets the number of sets (default 30;
 // make fuzz runs 400).
 func TestLevelsAgainstStatsmodels(t *testing.T) {
-	py := reftest.NeedPython(t, "statsmodels")
-	n := 40
+	n := 30
 	if v, err := strconv.Atoi(os.Getenv("MUARC_MIXED_CASES")); err == nil && v > 0 {
 		n = v
 	}
 	cases := makeLevelCases(n, 23)
-	in, _ := json.Marshal(cases)
-	cmd := exec.Command(py, "-c", statsmodelsLevels)
-	cmd.Stdin = bytes.NewReader(in)
-	b, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("statsmodels: %v", err)
-	}
 	var ref []struct {
 		FE    []float64  `json:"fe"`
 		BSE   []float64  `json:"bse"`
@@ -269,9 +268,7 @@ func TestLevelsAgainstStatsmodels(t *testing.T) {
 		Scale float64    `json:"scale"`
 		LLF   float64    `json:"llf"`
 	}
-	if err := json.Unmarshal(b, &ref); err != nil {
-		t.Fatalf("%v: %s", err, b)
-	}
+	runStatsmodels(t, statsmodelsLevels, cases, &ref)
 	var worstFE, worstSE, worstVar, worstLL float64
 	compared := 0
 	for ci, c := range cases {
