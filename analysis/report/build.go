@@ -5,6 +5,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
+	"path"
 	"path/filepath"
 	"sort"
 	"strconv"
@@ -67,6 +69,10 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 		title = studyTitle(dir, files)
 	}
 	p := &Page{Title: title, Generated: now.UTC().Format(time.RFC3339), Software: schema.Software, Folder: dir}
+	skipped, results := apartFromResults(dir, skipped)
+	for _, r := range results {
+		p.Notes = append(p.Notes, fmt.Sprintf("%s/ holds the results of muarc stats --write (%s), not recordings", r, study.JSONFile))
+	}
 	if len(skipped) > 0 {
 		p.Notes = append(p.Notes, fmt.Sprintf("%d file(s) in the folder are not recordings and are left out: %s", len(skipped), strings.Join(skipped, ", ")))
 	}
@@ -100,6 +106,27 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 		p.Dictionary = dictionaryTable(dict)
 	}
 	return p, nil
+}
+
+// apartFromResults takes the files of study-analysis results folders
+// (those holding study.JSONFile) out of skipped and returns the rest and
+// those folders, relative to dir.
+func apartFromResults(dir string, skipped []string) (rest, results []string) {
+	isResults := map[string]bool{}
+	for _, rel := range skipped {
+		d := path.Dir(rel)
+		if _, seen := isResults[d]; !seen {
+			_, err := os.Stat(filepath.Join(dir, filepath.FromSlash(d), study.JSONFile))
+			isResults[d] = err == nil && d != "."
+			if isResults[d] {
+				results = append(results, d)
+			}
+		}
+		if !isResults[d] {
+			rest = append(rest, rel)
+		}
+	}
+	return rest, results
 }
 
 func fmtNum(v float64, prec int) string {

@@ -110,3 +110,21 @@ func TestStudyTableOneSubject(t *testing.T) {
 		t.Errorf("row %q, want %q and the reason for no mixed model", row, want)
 	}
 }
+
+// The files of a stats --write results folder are named once as that
+// folder; other stray files are still listed one by one.
+func TestResultsFolderApart(t *testing.T) {
+	dir := t.TempDir()
+	if err := os.MkdirAll(filepath.Join(dir, "results"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []string{"results/" + study.JSONFile, "results/fig.png", "notes.txt"} {
+		if err := os.WriteFile(filepath.Join(dir, filepath.FromSlash(f)), []byte("x"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	rest, res := apartFromResults(dir, []string{"notes.txt", "results/" + study.JSONFile, "results/fig.png"})
+	if strings.Join(rest, ",") != "notes.txt" || strings.Join(res, ",") != "results" {
+		t.Errorf("rest %v, results %v", rest, res)
+	}
+}
