@@ -42,7 +42,7 @@ func WriteFitsTSV(w io.Writer, r *Result) error {
 	b.WriteString(strings.Join(FitColumns, "\t") + "\n")
 	for _, x := range r.Rows {
 		f := x.Fit
-		b.WriteString(strings.Join([]string{tsv(x.Subject), tsv(x.Muscle), cell(x.LevelPct), x.Relation, strconv.Itoa(x.Units),
+		b.WriteString(strings.Join([]string{TSVText(x.Subject), TSVText(x.Muscle), cell(x.LevelPct), x.Relation, strconv.Itoa(x.Units),
 			cell(x.ThresholdMinPct), cell(x.ThresholdMaxPct), strconv.Itoa(f.N), cell(f.Slope), cell(f.SlopeCILow),
 			cell(f.SlopeCIHigh), cell(f.Intercept), cell(f.R2)}, "\t") + "\n")
 	}
@@ -56,7 +56,7 @@ func WriteSummaryTSV(w io.Writer, r *Result) error {
 	b.WriteString(strings.Join(SummaryColumns, "\t") + "\n")
 	for _, s := range r.Summary {
 		m := s.Mixed
-		b.WriteString(strings.Join([]string{tsv(s.Muscle), levelCell(s.LevelPct), s.Relation, strconv.Itoa(s.Slope.N),
+		b.WriteString(strings.Join([]string{TSVText(s.Muscle), levelCell(s.LevelPct), s.Relation, strconv.Itoa(s.Slope.N),
 			cell(s.Slope.Mean), cell(s.Slope.SD), cell(s.Slope.Min), cell(s.Slope.Max),
 			cell(s.Intercept.Mean), cell(s.Intercept.SD), cell(s.Intercept.Min), cell(s.Intercept.Max),
 			strconv.Itoa(m.Subjects), strconv.Itoa(m.N), cell(m.Slope), cell(m.SlopeSE), cell(m.Intercept), cell(m.InterceptSE),
@@ -73,7 +73,8 @@ func levelCell(v float64) string {
 	return cell(v)
 }
 
-func tsv(s string) string { return strings.NewReplacer("\t", " ", "\n", " ", "\r", " ").Replace(s) }
+// TSVText keeps a text cell on its row: tabs and line breaks become blanks.
+func TSVText(s string) string { return strings.NewReplacer("\t", " ", "\n", " ", "\r", " ").Replace(s) }
 
 func num(v float64, prec int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {

@@ -62,12 +62,11 @@ the model gives each target level its own fixed intercept and one common
 slope (rate ~ 0 + level + threshold), so that the rise of rate with the
 level is not counted as within-subject scatter. --tsv prints one
 row per subject x muscle x level x relation; --write stores
-rate_threshold_fits.tsv, rate_threshold_summary.tsv, the figures (per
-muscle, the subjects side by side, plateau mean rate and initial rate
-against recruitment threshold, one colour per target level, R^2 on each
+rate_threshold_fits.tsv, rate_threshold_summary.tsv, per muscle a figure of
+the subjects side by side (both relations, one colour per level, R^2 on each
 panel; study__<muscle>__rate_threshold.png and .svg) and rate_threshold.json
-(the method, every recording's SHA-256 and the figure files) in --out
-(default DIR/rate_threshold); the recordings are not changed.
+(the method, every recording's SHA-256, the figure files) in --out (default
+DIR/rate_threshold); the recordings are not changed.
 
 Exit status: 0 done, 2 the file could not be read or written (or bad usage).`,
 	Args: cobra.ExactArgs(1),
@@ -118,9 +117,6 @@ func num(v float64, prec int) string {
 	}
 	return strconv.FormatFloat(v, 'f', prec, 64)
 }
-
-// tsvCell keeps a text cell on its row: tabs and line breaks become blanks.
-func tsvCell(s string) string { return strings.NewReplacer("\t", " ", "\n", " ", "\r", " ").Replace(s) }
 
 // tsvNum formats a figure for machines: empty when unknown, full precision.
 func tsvNum(v float64) string {
@@ -199,7 +195,7 @@ func printStatsTSV(w io.Writer, r *analysis.FileStats) error {
 			if d.MUAPs != nil && i < len(d.MUAPs.Units) {
 				avg, p2p, mu = strconv.Itoa(d.MUAPs.Units[i].Averaged), tsvNum(d.MUAPs.Units[i].MaxPeakToPeak), d.MUAPs.Unit
 			}
-			row := []string{d.Trial, d.Array, d.Decomposition, strconv.FormatInt(u.ID, 10), tsvCell(u.Label), strconv.Itoa(u.Discharges),
+			row := []string{d.Trial, d.Array, d.Decomposition, strconv.FormatInt(u.ID, 10), study.TSVText(u.Label), strconv.Itoa(u.Discharges),
 				tsvNum(u.FirstS), tsvNum(u.LastS), tsvNum(u.RecruitPctMVC), tsvNum(u.DerecruitPctMVC),
 				tsvNum(u.RecruitForce), tsvNum(u.DerecruitForce), d.ForceUnit, tsvNum(u.InitialRatePPS),
 				tsvNum(u.PlateauRatePPS), tsvNum(u.PlateauISICoV), strconv.Itoa(u.PlateauISIs), tsvNum(ps), tsvNum(pe), avg, p2p, mu}
