@@ -268,6 +268,9 @@ func (m *ProfileLabMetadata) convert(lv *labValue, unit string, decimalComma boo
 			lv.notes = append(lv.notes, fmt.Sprintf("%s %s converted to %s (x %g, lab_metadata.convert_units)", raw, unit, want, conv))
 			f *= conv
 		}
+		if num := strconv.FormatFloat(f, 'g', -1, 64); t.field.Enum != nil && !contains(t.field.Enum, num) {
+			return fail(hintValues(), "%s is not a value of %s (column %q); allowed values: %s", num, t.path, c.header, strings.Join(t.field.Enum, ", "))
+		}
 		if t.field.Kind == schema.KindInteger {
 			if f != math.Trunc(f) || math.Abs(f) > 1<<53 {
 				return fail("write a whole number", "%q is not a whole number (column %q, field %s)", raw, c.header, t.path)

@@ -110,3 +110,36 @@ func TestStandardsFieldsRefused(t *testing.T) {
 		}
 	}
 }
+
+// A lab's own metadata file fills session.power_line_hz through the
+// profile, and a value the registry does not allow (55 Hz) is refused.
+func TestStandardsFieldsFromLabMetadata(t *testing.T) {
+	dir := t.TempDir()
+	emg := writeTemp(t, "emg.csv", "e1\n1\n2\n3\n")
+	for _, c := range []struct {
+		cell string
+		ok   bool
+	}{{"50", true}, {"55", false}} {
+		prof := DefaultProfile()
+		prof.LabMetadata.Fields = map[string]string{"mains": "session.power_line_hz"}
+		meta := writeTemp(t, "lab.txt", "mains: "+c.cell+"\n")
+		out := filepath.Join(dir, c.cell+".h5")
+		_, err := ImportRecording(Inputs{EMG: []string{emg}, LabMeta: meta, Profile: prof, RateHz: 2048}, out, recfile.WriteOptions{})
+		if !c.ok {
+			if err == nil || !strings.Contains(err.Error(), "55 is not a value of session.power_line_hz") {
+				t.Errorf("55 Hz: %v", err)
+			}
+			continue
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		rec, err := recfile.ReadAll(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if rec.Session.PowerLineHz != 50 {
+			t.Errorf("power_line_hz %v", rec.Session.PowerLineHz)
+		}
+	}
+}
