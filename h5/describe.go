@@ -10,6 +10,7 @@ import (
 	"errors"
 	"fmt"
 	"sort"
+	"strings"
 	"unsafe"
 )
 
@@ -31,36 +32,35 @@ type Object struct {
 // Describe lists every group and dataset in the file, depth first, members
 // in creation order.
 func Describe(name string) ([]Object, error) {
-	var out []Object
-	err := withRoot(name, func(root *Group) error {
-		return walk(root, func(g *Group) error {
-			attrs, err := g.Attrs()
-			out = append(out, Object{Path: g.path, Attrs: attrs})
-			return err
-		}, func(d *Dataset) error {
-			o, err := describeDataset(d)
-			out = append(out, o)
-			return err
-		}, func(path string) {
-			out = append(out, Object{Path: path, Type: "link"})
-		})
-	})
-	return out, err
-}
-
-// withRoot opens a file read-only and calls fn with its root group.
-func withRoot(name string, fn func(*Group) error) error {
 	f, err := Open(name)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	defer f.Close()
+	return f.Describe()
+}
+
+// Describe lists every group and dataset of the open file, depth first,
+// members in creation order.
+func (f *File) Describe() ([]Object, error) {
 	root, err := f.Root()
 	if err != nil {
-		return err
+		return nil, err
 	}
 	defer root.Close()
-	return fn(root)
+	var out []Object
+	err = walk(root, func(g *Group) error {
+		attrs, err := g.Attrs()
+		out = append(out, Object{Path: g.path, Attrs: attrs})
+		return err
+	}, func(d *Dataset) error {
+		o, err := describeDataset(d)
+		out = append(out, o)
+		return err
+	}, func(path string) {
+		out = append(out, Object{Path: path, Type: "link"})
+	})
+	return out, err
 }
 
 // walk visits g and everything below it, depth first, members in creation
@@ -175,26 +175,69 @@ type ChunkFault struct {
 // It reads no attributes and no string data, so damage to the unchecksummed
 // global heap (where variable-length strings live) cannot stop it.
 func VerifyChunks(name string, fn func(ChunkFault)) (int, error) {
+	f, err := Open(name)
+	if err != nil {
+		return 0, err
+	}
+	defer f.Close()
+	return f.VerifyChunks(fn)
+}
+
+// VerifyChunks is the package-level VerifyChunks on an open file.
+func (f *File) VerifyChunks(fn func(ChunkFault)) (int, error) {
+	root, err := f.Root()
+	if err != nil {
+		return 0, err
+	}
+	defer root.Close()
 	checked := 0
-	err := withRoot(name, func(root *Group) error {
-		return walk(root, nil, func(d *Dataset) error {
-			chunk, filters, err := d.Layout()
-			if err != nil {
-				fn(ChunkFault{Dataset: d.path, Err: err})
-				return nil
-			}
-			if !hasFilter(filters, "fletcher32") {
-				return nil
-			}
-			n, err := d.verify(chunk, fn)
-			checked += n
-			if err != nil {
-				fn(ChunkFault{Dataset: d.path, Err: err})
-			}
+	err = walk(root, nil, func(d *Dataset) error {
+		chunk, filters, err := d.Layout()
+		if err != nil {
+			fn(ChunkFault{Dataset: d.path, Err: err})
 			return nil
-		}, nil)
-	})
+		}
+		if !hasFilter(filters, "fletcher32") {
+			return nil
+		}
+		n, err := d.verify(chunk, fn)
+		checked += n
+		if err != nil {
+			fn(ChunkFault{Dataset: d.path, Err: err})
+		}
+		return nil
+	}, nil)
 	return checked, err
+}
+
+// VerifyChunksOf is VerifyChunks for a file already described (objs from
+// Describe or Survey of f): it opens only the datasets whose filters
+// include Fletcher-32, in the order of objs, instead of walking the file
+// again.
+func (f *File) VerifyChunksOf(objs []Object, fn func(ChunkFault)) (int, error) {
+	root, err := f.Root()
+	if err != nil {
+		return 0, err
+	}
+	defer root.Close()
+	checked := 0
+	for _, o := range objs {
+		if !o.IsDataset || !hasFilter(o.Filters, "fletcher32") {
+			continue
+		}
+		d, err := root.OpenDataset(strings.TrimPrefix(o.Path, "/"), 0)
+		if err != nil {
+			fn(ChunkFault{Dataset: o.Path, Err: err})
+			continue
+		}
+		n, err := d.verify(o.Chunk, fn)
+		d.Close()
+		checked += n
+		if err != nil {
+			fn(ChunkFault{Dataset: o.Path, Err: err})
+		}
+	}
+	return checked, nil
 }
 
 func hasFilter(fs []string, name string) bool {

@@ -58,3 +58,42 @@ func Metadata(name string) ([]MetaObject, error) {
 	defer f.Close()
 	return f.Metadata()
 }
+
+// Survey walks the open file once and returns what Describe and Metadata
+// return, so that a caller needing both (validate) opens every object
+// once. A failure to read an object's attributes or layout ends the walk
+// (err, as Describe); a failure to read a string dataset's values only
+// makes metaErr (as Metadata would fail) and the walk goes on, so objs is
+// still complete.
+func (f *File) Survey() (objs []Object, meta []MetaObject, metaErr, err error) {
+	root, err := f.Root()
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	defer root.Close()
+	err = walk(root, func(g *Group) error {
+		attrs, err := g.Attrs()
+		objs = append(objs, Object{Path: g.path, Attrs: attrs})
+		meta = append(meta, MetaObject{Path: g.path, Attrs: attrs})
+		return err
+	}, func(d *Dataset) error {
+		o, err := describeDataset(d)
+		objs = append(objs, o)
+		if err != nil {
+			return err
+		}
+		m := MetaObject{Path: d.path, IsDataset: true, Attrs: o.Attrs}
+		if strings.HasPrefix(d.Type, "string") && metaErr == nil {
+			m.StringDataset, m.UTF8 = true, d.UTF8
+			m.Strings, metaErr = d.Strings()
+		}
+		meta = append(meta, m)
+		return nil
+	}, func(path string) {
+		objs = append(objs, Object{Path: path, Type: "link"})
+	})
+	if err != nil && metaErr == nil {
+		metaErr = err
+	}
+	return objs, meta, metaErr, err
+}

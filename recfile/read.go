@@ -18,6 +18,9 @@ type File struct {
 	f       *h5.File
 	rec     *record.Recording
 	samples []*ArraySamples
+	// borrowed is set when the h5 file was handed to OpenHandle: Close
+	// leaves it open for its owner.
+	borrowed bool
 }
 
 // Path is the file's path.
@@ -35,6 +38,9 @@ func (f *File) Close() error {
 		}
 	}
 	f.samples = nil
+	if f.borrowed {
+		return first
+	}
 	if err := f.f.Close(); err != nil && first == nil {
 		first = err
 	}
@@ -56,6 +62,18 @@ func Open(path string) (*File, error) {
 		return nil, err
 	}
 	f := &File{path: path, f: hf}
+	if err := f.read(); err != nil {
+		f.Close()
+		return nil, err
+	}
+	return f, nil
+}
+
+// OpenHandle is Open on a file the caller already opened (validate reads
+// one handle for all its checks). Close releases what OpenHandle opened and
+// leaves hf open; the caller closes hf after it.
+func OpenHandle(hf *h5.File) (*File, error) {
+	f := &File{path: hf.Name(), f: hf, borrowed: true}
 	if err := f.read(); err != nil {
 		f.Close()
 		return nil, err

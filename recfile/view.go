@@ -21,6 +21,11 @@ func MetadataView(path string) (map[string]any, error) {
 		return nil, err
 	}
 	defer f.Close()
+	return MetadataViewOf(f)
+}
+
+// MetadataViewOf is MetadataView of a file the caller opened (and closes).
+func MetadataViewOf(f *h5.File) (map[string]any, error) {
 	root, err := f.Root()
 	if err != nil {
 		return nil, err

@@ -18,13 +18,15 @@ const maxChunkFaults = 20
 
 // File validates one muarc file in this process (warning: a file damaged
 // in its HDF5 metadata can crash the process; Isolated is the safe entry
-// point): structure (h5.Describe and the small
-// integer datasets), the metadata view against the JSON Schema
-// (recfile.MetadataView), the content checks on the recording
-// (recfile.Open) and, when opt.ChecksumScan, every stored chunk's
-// Fletcher-32 checksum (h5.VerifyChunks) and the EMG samples for stored
-// infinities (band by band, each chunk inflated once); memory does not
-// grow with the recording's length. A file that cannot be read at all (missing, not HDF5,
+// point): structure (File.Survey and the small integer datasets), the
+// metadata digest, the metadata view against the JSON Schema
+// (recfile.MetadataViewOf), the content checks on the recording
+// (recfile.OpenHandle) and, when opt.ChecksumScan, every stored chunk's
+// Fletcher-32 checksum (File.VerifyChunksOf) and the EMG samples for
+// stored infinities (band by band, each chunk inflated once), all through
+// one open handle of the file, whose object tree is walked once for the
+// first two; memory does not grow with the recording's length. A file that
+// cannot be read at all (missing, not HDF5,
 // not a muarc recording, a newer major layout version) gives ReadError.
 // File never panics on bad input.
 func File(path string, opt Options) (rep *Report) {
@@ -54,7 +56,17 @@ func File(path string, opt Options) (rep *Report) {
 		rep.ReadError = path + " is a folder, not a file"
 		return rep
 	}
-	objs, err := h5.Describe(path)
+	// One handle serves every check: the structure, the metadata digest,
+	// the metadata view, the recording model and the chunk scan.
+	hf, err := h5.Open(path)
+	if err != nil {
+		rep.ReadError = "cannot read as HDF5: " + err.Error()
+		return rep
+	}
+	defer hf.Close()
+	// One walk of the object tree gives the structure and what the
+	// metadata digest covers.
+	objs, meta, metaErr, err := hf.Survey()
 	if err != nil {
 		rep.ReadError = "cannot read as HDF5: " + err.Error()
 		return rep
@@ -64,24 +76,18 @@ func File(path string, opt Options) (rep *Report) {
 		rep.ReadError = refuse
 		return rep
 	}
-	hf, err := h5.Open(path)
-	if err != nil {
-		rep.ReadError = "cannot open as HDF5: " + err.Error()
-		return rep
-	}
 	st.readInt = intReaderFor(hf)
 	st.check()
 	st.unexpected()
 	// Attributes and strings have no checksum in HDF5: the metadata digest
 	// stands in for one.
-	if objs, err := hf.Metadata(); err != nil {
-		readFailure(add, err, errorCount(raw), "metadata digest")
+	if metaErr != nil {
+		readFailure(add, metaErr, errorCount(raw), "metadata digest")
 	} else {
-		checkMetadataIntegrity(objs, st.version, add)
+		checkMetadataIntegrity(meta, st.version, add)
 	}
-	hf.Close()
 	// Metadata view against the schema.
-	if view, err := recfile.MetadataView(path); err != nil {
+	if view, err := recfile.MetadataViewOf(hf); err != nil {
 		readFailure(add, err, errorCount(raw), "metadata view")
 	} else {
 		for _, f := range CheckMetadata(view) {
@@ -92,7 +98,7 @@ func File(path string, opt Options) (rep *Report) {
 	}
 
 	// Content checks on the model.
-	if rf, err := recfile.Open(path); err != nil {
+	if rf, err := recfile.OpenHandle(hf); err != nil {
 		readFailure(add, err, errorCount(raw), "content")
 	} else {
 		rec := rf.Recording()
@@ -115,7 +121,7 @@ func File(path string, opt Options) (rep *Report) {
 
 	if opt.ChecksumScan {
 		faults := map[string]int{}
-		_, err := h5.VerifyChunks(path, func(c h5.ChunkFault) {
+		_, err := hf.VerifyChunksOf(objs, func(c h5.ChunkFault) {
 			faults[c.Dataset]++
 			if faults[c.Dataset] > maxChunkFaults {
 				return

@@ -125,19 +125,24 @@ func IsCrash(err error) bool {
 }
 
 func screen(path string, chunks bool) error {
-	if _, err := h5.Describe(path); err != nil {
+	hf, err := h5.Open(path)
+	if err != nil {
 		return err
 	}
-	if _, err := h5.Metadata(path); err != nil {
+	defer hf.Close()
+	if _, err := hf.Describe(); err != nil {
 		return err
 	}
-	f, err := recfile.Open(path)
+	if _, err := hf.Metadata(); err != nil {
+		return err
+	}
+	f, err := recfile.OpenHandle(hf)
 	if err != nil {
 		return err
 	}
 	f.Close()
 	if chunks {
-		_, err = h5.VerifyChunks(path, func(h5.ChunkFault) {})
+		_, err = hf.VerifyChunks(func(h5.ChunkFault) {})
 	}
 	return err
 }
