@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path"
@@ -49,12 +50,76 @@ type BuildOptions struct {
 // (stored templates when the file has them, else averaged from the EMG).
 // `muarc plot` draws all of them.
 func Build(dir string, opt BuildOptions) (*Page, error) {
-	files, skipped, err := archive.FindRecordings(dir)
+	p, b, err := begin(dir, opt)
 	if err != nil {
 		return nil, err
 	}
+	for i := range b.files {
+		p.Recordings = append(p.Recordings, b.section(i))
+	}
+	return p, nil
+}
+
+// Write makes the same page as Build and Render, writing it to w as it
+// goes: each recording's section, its figures included, is written as soon
+// as it is made and only its verdict, tables and notes are kept, so memory
+// does not grow with the figures of a large study. The returned page
+// holds every section without the figures' drawings (captions kept).
+func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
+	p, b, err := begin(dir, opt)
+	if err != nil {
+		return nil, err
+	}
+	// The head lists the recordings by file name only.
+	p.Recordings = make([]Section, len(b.files))
+	for i, rel := range b.files {
+		p.Recordings[i].File = rel
+	}
+	if err := renderHead(w, p); err != nil {
+		return nil, err
+	}
+	for i := range b.files {
+		s := b.section(i)
+		if err := renderSection(w, i, &s); err != nil {
+			return nil, err
+		}
+		for k := range s.Figures {
+			s.Figures[k].SVG = nil
+		}
+		p.Recordings[i] = s
+	}
+	if err := renderTail(w, p); err != nil {
+		return nil, err
+	}
+	return p, nil
+}
+
+// builder holds what the sections of a page are made with.
+type builder struct {
+	dir   string
+	files []string
+	vopt  validate.Options
+	opt   BuildOptions
+}
+
+func (b *builder) section(i int) Section {
+	s := section(filepath.Join(b.dir, filepath.FromSlash(b.files[i])), b.files[i], b.vopt)
+	if b.opt.Progress != nil {
+		b.opt.Progress(i+1, len(b.files))
+	}
+	return s
+}
+
+// begin makes everything of the page but the recordings' sections: the
+// index, the study analysis and its figures, the derived-figures table and
+// the data dictionary.
+func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
+	files, skipped, err := archive.FindRecordings(dir)
+	if err != nil {
+		return nil, nil, err
+	}
 	if len(files) == 0 {
-		return nil, fmt.Errorf("%s: no recordings (*.h5, *.hdf5) in the folder", dir)
+		return nil, nil, fmt.Errorf("%s: no recordings (*.h5, *.hdf5) in the folder", dir)
 	}
 	now := opt.Now
 	if now.IsZero() {
@@ -81,12 +146,6 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 	if ierr != nil {
 		p.Notes = append(p.Notes, "Some recordings could not be indexed: "+ierr.Error())
 	}
-	for i, rel := range files {
-		p.Recordings = append(p.Recordings, section(filepath.Join(dir, filepath.FromSlash(rel)), rel, vopt))
-		if opt.Progress != nil {
-			opt.Progress(i+1, len(files))
-		}
-	}
 	if res, err := study.Analyse(dir, nil); err != nil {
 		p.Notes = append(p.Notes, "The study analysis could not run: "+err.Error())
 	} else {
@@ -105,7 +164,7 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 	} else {
 		p.Dictionary = dictionaryTable(dict)
 	}
-	return p, nil
+	return p, &builder{dir: dir, files: files, vopt: vopt, opt: opt}, nil
 }
 
 // apartFromResults takes the files of study-analysis results folders

@@ -75,14 +75,48 @@ func inline(svg []byte) template.HTML {
 // Render writes the page as one HTML document.
 func Render(w io.Writer, p *Page) error {
 	var buf bytes.Buffer
-	if err := pageTemplate.Execute(&buf, p); err != nil {
-		return fmt.Errorf("report: %w", err)
+	if err := renderHead(&buf, p); err != nil {
+		return err
+	}
+	for i := range p.Recordings {
+		if err := renderSection(&buf, i, &p.Recordings[i]); err != nil {
+			return err
+		}
+	}
+	if err := renderTail(&buf, p); err != nil {
+		return err
 	}
 	_, err := w.Write(buf.Bytes())
 	return err
 }
 
-var pageTemplate = template.Must(template.New("page").Funcs(template.FuncMap{"inline": inline}).Parse(`<!DOCTYPE html>
+// The page is written in three parts, so that Write can send each
+// recording's section out as soon as it is made: the head (through the
+// list of recordings, which needs only their file names), one section per
+// recording, and the tail.
+
+func renderHead(w io.Writer, p *Page) error { return execute(w, "head", p) }
+
+func renderSection(w io.Writer, i int, s *Section) error {
+	return execute(w, "section", sectionView{I: i, R: s})
+}
+
+func renderTail(w io.Writer, p *Page) error { return execute(w, "tail", p) }
+
+func execute(w io.Writer, name string, data any) error {
+	if err := pageTemplate.ExecuteTemplate(w, name, data); err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	return nil
+}
+
+// sectionView is a section with its place in the page (its anchor).
+type sectionView struct {
+	I int
+	R *Section
+}
+
+var pageTemplate = template.Must(template.New("page").Funcs(template.FuncMap{"inline": inline}).Parse(`{{define "head"}}<!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8">
@@ -122,25 +156,25 @@ lab; muarc helps to de-identify, it does not certify that a file is anonymous.</
 {{range .StudyFigures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
 {{end}}{{end}}
 {{if .Recordings}}<nav><ul>{{range $i, $r := .Recordings}}<li><a href="#rec-{{$i}}">{{$r.File}}</a></li>{{end}}</ul></nav>{{end}}
-{{range $i, $r := .Recordings}}
-<section id="rec-{{$i}}" class="recording">
-<h2>{{$r.File}} <span class="status {{$r.Class}}">{{$r.Status}}</span></h2>
-{{if $r.Summary}}<p>{{$r.Summary}}</p>{{end}}
-{{template "table" $r.Validation}}
-{{template "table" $r.Stats}}
-{{range $r.Notes}}<p class="note">{{.}}</p>
+{{end}}{{define "section"}}
+<section id="rec-{{.I}}" class="recording">
+<h2>{{.R.File}} <span class="status {{.R.Class}}">{{.R.Status}}</span></h2>
+{{if .R.Summary}}<p>{{.R.Summary}}</p>{{end}}
+{{template "table" .R.Validation}}
+{{template "table" .R.Stats}}
+{{range .R.Notes}}<p class="note">{{.}}</p>
 {{end}}
-{{range $r.Figures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
+{{range .R.Figures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
 {{end}}
 </section>
-{{end}}
+{{end}}{{define "tail"}}
 <h2 id="derived">Derived figures</h2>
 {{template "table" .Derived}}
 <h2 id="dictionary">Data dictionary</h2>
 {{template "table" .Dictionary}}
 </body>
 </html>
-{{define "table"}}{{if .Rows}}<table>{{if .Caption}}<caption>{{.Caption}}</caption>{{end}}
+{{end}}{{define "table"}}{{if .Rows}}<table>{{if .Caption}}<caption>{{.Caption}}</caption>{{end}}
 <thead><tr>{{range .Columns}}<th>{{.}}</th>{{end}}</tr></thead>
 <tbody>{{range .Rows}}<tr>{{range .}}<td>{{.}}</td>{{end}}</tr>
 {{end}}</tbody></table>{{else if .Empty}}<p class="note">{{if .Caption}}{{.Caption}}: {{end}}{{.Empty}}</p>{{end}}{{end}}

@@ -1,8 +1,9 @@
 package main
 
 import (
-	"bytes"
+	"bufio"
 	"fmt"
+	"io"
 	"os"
 
 	"github.com/spf13/cobra"
@@ -71,26 +72,31 @@ func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error)
 		return nil, err
 	}
 	var bar *progress
-	p, err := report.Build(dir, report.BuildOptions{Title: title, Progress: func(done, total int) {
-		if bar == nil {
-			bar = newProgress("report", int64(total))
+	// The page is written as it is made (report.Write) into a temporary
+	// file that is renamed into place only when complete.
+	var p *report.Page
+	var n countingWriter
+	err := atomicfile.Write(out, overwrite, func(f *os.File) error {
+		bw := bufio.NewWriterSize(io.MultiWriter(f, &n), 1<<20)
+		var err error
+		p, err = report.Write(bw, dir, report.BuildOptions{Title: title, Progress: func(done, total int) {
+			if bar == nil {
+				bar = newProgress("report", int64(total))
+			}
+			bar.Add(1)
+		}})
+		if err != nil {
+			return err
 		}
-		bar.Add(1)
-	}})
+		return bw.Flush()
+	})
 	if bar != nil {
 		bar.Finish()
 	}
 	if err != nil {
 		return nil, err
 	}
-	var b bytes.Buffer
-	if err := report.Render(&b, p); err != nil {
-		return nil, err
-	}
-	if err := atomicfile.WriteFile(out, b.Bytes(), overwrite); err != nil {
-		return nil, err
-	}
-	s := &reportSummary{Report: out, Bytes: b.Len(), Recordings: len(p.Recordings), Notes: p.Notes}
+	s := &reportSummary{Report: out, Bytes: int(n), Recordings: len(p.Recordings), Notes: p.Notes}
 	if s.Notes == nil {
 		s.Notes = []string{}
 	}
@@ -131,4 +137,12 @@ func runReport(cmd *cobra.Command, args []string) error {
 		fmt.Fprintf(w, "note: %s\n", n)
 	}
 	return silentExit(code)
+}
+
+// countingWriter counts the bytes written through it.
+type countingWriter int64
+
+func (c *countingWriter) Write(b []byte) (int, error) {
+	*c += countingWriter(len(b))
+	return len(b), nil
 }
