@@ -247,7 +247,7 @@ func Summaries(dir string, workers int) ([]RecordingSummary, error) {
 	}
 	out := make([]*RecordingSummary, len(files))
 	errs := batch.Run(len(files), workers, func(i int) error {
-		s, err := summarize(filepath.Join(dir, filepath.FromSlash(files[i])), files[i])
+		s, _, err := readSummary(filepath.Join(dir, filepath.FromSlash(files[i])), files[i], false)
 		out[i] = s
 		return err
 	}, nil)

@@ -101,20 +101,9 @@ func (r summaryReader) contentCheck(rel string) (string, error) {
 }
 
 // summaryAndContent reads a recording's summary and, when content, its
-// content check.
+// content check (readSummary: one open of the file).
 func summaryAndContent(path, rel string, content bool) (*RecordingSummary, string, error) {
-	var c string
-	if content {
-		var err error
-		if c, err = contentOf(path); err != nil {
-			return nil, "", err
-		}
-	}
-	s, err := summarize(path, rel)
-	if err != nil {
-		return nil, "", err
-	}
-	return s, c, nil
+	return readSummary(path, rel, content)
 }
 
 // contentOf reads the root attributes of a recording and returns its
@@ -125,6 +114,11 @@ func contentOf(path string) (string, error) {
 		return "", err
 	}
 	defer f.Close()
+	return contentOfFile(f)
+}
+
+// contentOfFile is contentOf on an open file.
+func contentOfFile(f *h5.File) (string, error) {
 	root, err := f.Root()
 	if err != nil {
 		return "", err

@@ -6,7 +6,6 @@ import (
 
 	"muarc/deid"
 	"muarc/recfile"
-	"muarc/record"
 	"muarc/validate"
 )
 
@@ -28,13 +27,7 @@ func summarize(path, rel string) (*RecordingSummary, error) {
 	if err := validate.ScreenFirst(path, false); err != nil {
 		return nil, err
 	}
-	f, err := recfile.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	rec := f.Recording()
-	return summaryOf(rec, rel, st.Size(), func(u record.Unit) bool { return validate.LowConfidence(u, lowConfidenceRules) }), nil
+	return fullSummary(path, rel, st.Size())
 }
 
 // checkRecording validates a recording (with the checksum scan) and lists
