@@ -85,7 +85,7 @@ bench-more: deps
 	$(GO) test -run XXX -bench 'StatsMUAPs64ch60s30units|ReadSamples64ch60s|TemplatesInMemory' -benchtime 3x ./analysis | tee bench-out/analysis.txt
 	$(GO) test -run XXX -bench . ./validate | tee bench-out/validate.txt
 	$(GO) test -run XXX -bench . ./deid | tee bench-out/deid.txt
-	$(GO) test -run XXX -bench PackHashing -benchtime 1x ./archive | tee bench-out/archive.txt
+	$(GO) test -run XXX -bench 'PackHashing|IndexCatalogue' -benchtime 1x ./archive | tee bench-out/archive.txt
 	$(GO) test -run XXX -bench 'ImportCSV64x2048x60|ScanAndStream|ParseBlock' -benchtime 3x -benchmem ./convert | tee bench-out/convert.txt
 	sh convert/testdata/bench.sh | tee bench-out/import-vs-pandas.txt
 	sh validate/testdata/bench_validate.sh | tee bench-out/validate-vs-h5py.txt

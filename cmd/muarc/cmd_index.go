@@ -27,8 +27,10 @@ func init() {
 recording, trial and electrode array: subject (the pseudonym once de-identified),
 muscle, side, target level in % MVC, EMG duration in s, channels, motor units,
 discharges and low-confidence units (silhouette or PNR below the validator's
-default gates), with the file and its size. It reads attributes and small tables,
-never the EMG samples. The unit counts come from the array's last decomposition
+default gates), with the file and its size. It opens each recording once and reads
+only what the rows show (attributes, table lengths, the quality and rate columns),
+never the EMG samples; a recording damaged in a part the rows do not show is still
+listed (muarc validate finds the damage). The unit counts come from the array's last decomposition
 edited by hand, else its last one; the decomposition column names it.
 
 --tables OUTDIR writes the study tables subjects.tsv and recordings.tsv for the
