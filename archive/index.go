@@ -61,16 +61,9 @@ type IndexRow struct {
 	DerivedComputed       string  `json:"derived_computed,omitempty"`
 }
 
-// MarshalJSON writes the row with level_pct_mvc omitted when unknown.
-func (r IndexRow) MarshalJSON() ([]byte, error) {
-	type plain IndexRow
-	return json.Marshal(struct {
-		plain
-		LevelPctMVC           *float64 `json:"level_pct_mvc,omitempty"`
-		LabMeanRatePPS        *float64 `json:"lab_mean_rate_pps,omitempty"`
-		DerivedPlateauRatePPS *float64 `json:"derived_plateau_rate_pps,omitempty"`
-	}{plain(r), known(r.LevelPctMVC), known(r.LabMeanRatePPS), known(r.DerivedPlateauRatePPS)})
-}
+// MarshalJSON writes the row with the numbers not known (level_pct_mvc,
+// lab_mean_rate_pps, derived_plateau_rate_pps) omitted.
+func (r IndexRow) MarshalJSON() ([]byte, error) { return json.Marshal(rowRecordOf(r)) }
 
 // known is &v, or nil when v is NaN.
 func known(v float64) *float64 {
@@ -80,20 +73,14 @@ func known(v float64) *float64 {
 	return &v
 }
 
-// UnmarshalJSON reads a row written by MarshalJSON (level absent -> NaN).
+// UnmarshalJSON reads a row written by MarshalJSON (a number absent ->
+// NaN).
 func (r *IndexRow) UnmarshalJSON(b []byte) error {
-	type plain IndexRow
-	var v struct {
-		plain
-		LevelPctMVC           *float64 `json:"level_pct_mvc"`
-		LabMeanRatePPS        *float64 `json:"lab_mean_rate_pps"`
-		DerivedPlateauRatePPS *float64 `json:"derived_plateau_rate_pps"`
-	}
+	var v rowRecord
 	if err := json.Unmarshal(b, &v); err != nil {
 		return err
 	}
-	*r = IndexRow(v.plain)
-	r.LevelPctMVC, r.LabMeanRatePPS, r.DerivedPlateauRatePPS = orNaN(v.LevelPctMVC), orNaN(v.LabMeanRatePPS), orNaN(v.DerivedPlateauRatePPS)
+	*r = v.row()
 	return nil
 }
 
