@@ -23,7 +23,12 @@ func init() {
 		return nil, nil
 	})
 	Register("test.hang", func(json.RawMessage) (any, error) {
-		select {} // a library stuck in a loop never answers
+		// A library stuck in a loop never answers. (A bare select{} would
+		// not do: with every goroutine blocked the Go runtime ends the
+		// worker as deadlocked, a crash rather than a hang.)
+		for {
+			time.Sleep(time.Hour)
+		}
 	})
 	Register("test.crash", func(json.RawMessage) (any, error) {
 		done := make(chan bool)
