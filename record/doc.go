@@ -9,4 +9,9 @@
 // NaN; a string that is not known is empty. Large EMG sample blocks are never
 // required to sit in memory: an Array carries a SampleSource that is read in
 // blocks.
+//
+// A struct field that holds a metadata field of the layout carries its
+// registry name (schema.Fields) in a `layout:"name"` tag; internal/fieldbind
+// uses the tags so the sidecar reader and writer and recfile walk the
+// registry instead of spelling names.
 package record

@@ -26,14 +26,14 @@ type Recording struct {
 
 // Study describes the study a recording belongs to.
 type Study struct {
-	ID          string
-	Title       string
-	Description string
+	ID          string `layout:"id"`
+	Title       string `layout:"title"`
+	Description string `layout:"description"`
 	// Contact is the study's contact for data requests (name or role and an
 	// address); it is study metadata, not subject data.
-	Contact string
+	Contact string `layout:"contact"`
 	// License is an SPDX licence identifier for shared data, e.g. "CC-BY-4.0".
-	License string
+	License string `layout:"license"`
 	Extra   Extra
 }
 
@@ -43,46 +43,46 @@ type Study struct {
 type Subject struct {
 	// ID is the subject identifier: the lab's code before de-identification,
 	// a keyed pseudonym after.
-	ID string
+	ID string `layout:"id"`
 	// Name is the participant's name. Identifying.
-	Name string
+	Name string `layout:"name"`
 	// BirthDate is an ISO 8601 calendar date "YYYY-MM-DD" (or "YYYY" once
 	// reduced to the year). Identifying.
-	BirthDate string
+	BirthDate string `layout:"birth_date"`
 	// AgeYears is the age at the session in years; NaN when not known.
-	AgeYears float64
+	AgeYears float64 `layout:"age_years"`
 	// AgeBand is a generalised age such as "30-39" or "90 or older"; empty
 	// when the exact age is kept or not known.
-	AgeBand string
+	AgeBand string `layout:"age_band"`
 	// Sex is "female", "male", "other" or empty when not recorded.
-	Sex string
+	Sex string `layout:"sex"`
 	// HeightCm is body height in centimetres; NaN when not known.
-	HeightCm float64
+	HeightCm float64 `layout:"height_cm"`
 	// MassKg is body mass in kilograms; NaN when not known.
-	MassKg float64
+	MassKg float64 `layout:"mass_kg"`
 	// DominantSide is "left", "right", "both" or empty.
-	DominantSide string
+	DominantSide string `layout:"dominant_side"`
 	// Phone and Email are contact details. Identifying.
-	Phone string
-	Email string
+	Phone string `layout:"phone"`
+	Email string `layout:"email"`
 	// Notes is free text about the subject. May identify.
-	Notes string
+	Notes string `layout:"notes"`
 	Extra Extra
 }
 
 // Session is one visit of the subject to the lab.
 type Session struct {
-	ID string
+	ID string `layout:"id"`
 	// Date is the session start as RFC 3339 ("2026-03-14T09:30:00Z") or an
 	// ISO 8601 calendar date ("2026-03-14").
-	Date string
+	Date string `layout:"date"`
 	// Site and Operator are free text. May identify.
-	Site     string
-	Operator string
-	Notes    string
+	Site     string `layout:"site"`
+	Operator string `layout:"operator"`
+	Notes    string `layout:"notes"`
 	// PowerLineHz is the mains frequency where the session was recorded
 	// (50 or 60 Hz); 0 when not known (the writer leaves it out).
-	PowerLineHz float64
+	PowerLineHz float64 `layout:"power_line_hz"`
 	Extra       Extra
 }
 
@@ -92,46 +92,46 @@ type Session struct {
 type ForceProfile struct {
 	// Shape is "trapezoid" for the profile described by the durations, or
 	// another word ("ramp", "step", "sine", "free") when it differs.
-	Shape     string
-	RestS     float64 // rest before the ramp up, s
-	RampUpS   float64 // ramp up duration, s
-	PlateauS  float64 // plateau duration, s
-	RampDownS float64 // ramp down duration, s
+	Shape     string  `layout:"profile_shape"`
+	RestS     float64 `layout:"rest_s"`      // rest before the ramp up, s
+	RampUpS   float64 `layout:"ramp_up_s"`   // ramp up duration, s
+	PlateauS  float64 `layout:"plateau_s"`   // plateau duration, s
+	RampDownS float64 `layout:"ramp_down_s"` // ramp down duration, s
 }
 
 // Trial is one contraction (or one task block) within a session.
 type Trial struct {
 	// Name is the trial's group name in the file: letters, digits, '_', '-'
 	// and '.', unique within the recording, e.g. "ramp_30pct_1".
-	Name string
+	Name string `layout:"name"`
 	// Task describes the task in words, e.g. "isometric ankle dorsiflexion".
-	Task string
+	Task string `layout:"task"`
 	// TargetPctMVC is the plateau target level in % MVC; NaN when not known.
-	TargetPctMVC float64
+	TargetPctMVC float64 `layout:"target_pct_mvc"`
 	// MVC is the maximal voluntary contraction value in MVCUnit; NaN when not
 	// known.
-	MVC float64
+	MVC float64 `layout:"mvc"`
 	// MVCUnit is the UCUM unit of MVC and of the force trace ("N", "N.m").
-	MVCUnit string
-	Profile ForceProfile
+	MVCUnit string       `layout:"mvc_unit"`
+	Profile ForceProfile `layout:",inline"`
 	// Force is the measured force or torque trace. Optional: a zero
 	// SamplingRateHz means none was recorded.
 	Force Signal
 	// ForceTarget is the trajectory shown to the subject; optional as Force.
 	ForceTarget Signal
 	Arrays      []Array
-	Notes       string
+	Notes       string `layout:"notes"`
 	Extra       Extra
 }
 
 // Signal is a 1-D, evenly sampled trace held in memory (force, target).
 type Signal struct {
 	// SamplingRateHz is the sampling rate in hertz; 0 means no signal.
-	SamplingRateHz float64
+	SamplingRateHz float64 `layout:"sampling_rate_hz"`
 	// StartS is the time of the first sample in seconds from the trial start.
-	StartS float64
+	StartS float64 `layout:"start_s"`
 	// Unit is the UCUM unit of the values, e.g. "N", "N.m", "%".
-	Unit   string
+	Unit   string `layout:"unit"`
 	Values []float64
 }
 
@@ -158,41 +158,43 @@ const (
 // Array is one electrode array (grid) on one muscle, with its raw EMG.
 type Array struct {
 	// Name is the array's group name, unique within the trial, e.g. "ta_grid".
-	Name string
+	Name string `layout:"name"`
 	// Muscle names the muscle in words, e.g. "tibialis anterior".
-	Muscle string
+	Muscle string `layout:"muscle"`
 	// Side is "left" or "right" (or empty).
-	Side string
+	Side string `layout:"side"`
 	// Rows and Columns give the electrode grid size.
-	Rows, Columns int
+	Rows    int `layout:"rows"`
+	Columns int `layout:"columns"`
 	// IEDMm is the inter-electrode distance in millimetres; NaN when not known.
-	IEDMm float64
+	IEDMm float64 `layout:"ied_mm"`
 	// Gain is the total amplifier gain in V/V; NaN when not known.
-	Gain float64
+	Gain float64 `layout:"gain"`
 	// ADCBits is the converter resolution in bits; 0 when not known.
-	ADCBits int
+	ADCBits int `layout:"adc_bits"`
 	// FilterLowHz and FilterHighHz are the analogue band-pass corners in
 	// hertz; NaN when not known.
-	FilterLowHz, FilterHighHz float64
+	FilterLowHz  float64 `layout:"filter_low_hz"`
+	FilterHighHz float64 `layout:"filter_high_hz"`
 	// Montage is "monopolar", "bipolar" or "differential" (single or double).
-	Montage string
+	Montage string `layout:"montage"`
 	// Reference describes the reference electrode, e.g. "ankle strap".
-	Reference string
+	Reference string `layout:"reference"`
 	// SoftwareFilters is a JSON object naming the digital filters applied
 	// to the samples before they were stored, each with an object of its
 	// parameters; "{}" when none was applied, empty when not known.
-	SoftwareFilters string
+	SoftwareFilters string `layout:"software_filters"`
 	// PlacementScheme says how electrode positions were decided:
 	// "measured", "channel specific", "other", or empty when not known.
-	PlacementScheme string
+	PlacementScheme string `layout:"placement_scheme"`
 	// PlacementDescription describes the placement in words.
-	PlacementDescription string
+	PlacementDescription string `layout:"placement_description"`
 	// SamplingRateHz is the EMG sampling rate in hertz.
-	SamplingRateHz float64
+	SamplingRateHz float64 `layout:"sampling_rate_hz"`
 	// StartS is the time of sample 0 in seconds from the trial start.
-	StartS float64
+	StartS float64 `layout:"start_s"`
 	// Unit is the UCUM unit of the samples, e.g. "uV" or "mV".
-	Unit string
+	Unit string `layout:"unit"`
 	// SampleType is the on-disk float width; empty means Float32.
 	SampleType SampleType
 	// Channels describes each column of the sample matrix, in order.
@@ -219,36 +221,38 @@ const NotOnGrid = -1
 
 // Channel describes one column of an array's sample matrix.
 type Channel struct {
-	Label string
+	Label string `layout:"label"`
 	// Row and Column are the 0-based grid position, or NotOnGrid.
-	Row, Column int
+	Row    int `layout:"row"`
+	Column int `layout:"column"`
 	// XMm and YMm are the electrode centre in millimetres in the array's own
 	// frame; NaN when not known.
-	XMm, YMm float64
+	XMm float64 `layout:"x_mm"`
+	YMm float64 `layout:"y_mm"`
 	// Usable is false for a channel marked bad (noise, lost contact).
-	Usable bool
+	Usable bool `layout:"usable"`
 }
 
 // Decomposition is one decomposition of an array into motor units.
 type Decomposition struct {
 	// Name is the decomposition's group name, unique within the array,
 	// e.g. "auto" or "edited".
-	Name string
+	Name string `layout:"name"`
 	// Method names the algorithm family in words; MethodVersion its version.
-	Method        string
-	MethodVersion string
+	Method        string `layout:"method"`
+	MethodVersion string `layout:"method_version"`
 	// Parameters is a JSON object text with the method's parameters ("{}"
 	// when none).
-	Parameters string
+	Parameters string `layout:"parameters"`
 	// EditedByHand is true when discharges were inspected and edited.
-	EditedByHand bool
+	EditedByHand bool `layout:"edited_by_hand"`
 	Units        []Unit
 	// ExtraColumns are per-unit figures outside the layout's fixed columns,
 	// one value per unit, kept as given.
 	ExtraColumns []Column
 	// MUAPs holds optional motor unit action potential templates.
 	MUAPs *MUAPs
-	Notes string
+	Notes string `layout:"notes"`
 	// Derived holds the figures muarc computed from this decomposition
 	// (muarc stats --write), kept apart from the lab's own unit table and
 	// templates, which they never replace; nil when none were stored.
@@ -366,9 +370,9 @@ type MUAPs struct {
 	Units, Channels, Lags int
 	// FirstLag is the lag of Data's first lag index in samples relative to the
 	// discharge (negative: before it).
-	FirstLag int
+	FirstLag int `layout:"first_lag"`
 	// Unit is the UCUM unit of the values (as the array's samples).
-	Unit string
+	Unit string `layout:"unit"`
 	Data []float32
 }
 
