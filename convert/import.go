@@ -156,7 +156,9 @@ func Read(in Inputs) (*Plan, error) {
 		return nil, err
 	}
 	if view != nil {
-		(&Sidecar{File: in.Meta, View: view}).Apply(rec)
+		if err := (&Sidecar{File: in.Meta, View: view}).Apply(rec); err != nil {
+			return nil, fmt.Errorf("%s: %w", in.Meta, err)
+		}
 	} else {
 		rep.Notes = append(rep.Notes, "no metadata sidecar: study, subject and session are empty")
 	}

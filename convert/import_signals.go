@@ -44,9 +44,19 @@ func (pl *Plan) force(it input, opt SignalOptions, prof *Profile) error {
 	if fi < 0 {
 		return perr(it.path, s.lay.headerLine, 0, "name the force column in the profile (force.column)", "no force column")
 	}
+	// The force unit: the file's header, else the metadata's
+	// (trials[].force.unit), else the profile's; a header and metadata
+	// that disagree are refused, naming both.
+	metaUnit := t.Force.Unit
+	if u := s.Units[fi]; u != "" && metaUnit != "" && u != metaUnit {
+		return perr(it.path, s.lay.headerLine, fi+1, "fix the unit in the metadata (trials[].force.unit) or in the header", "force unit %q, the metadata says %q for trial %s", u, metaUnit, t.Name)
+	}
 	unit := func(i int) string {
-		if s.Units[i] != "" {
+		switch {
+		case s.Units[i] != "":
 			return s.Units[i]
+		case metaUnit != "":
+			return metaUnit
 		}
 		return prof.Force.Unit
 	}

@@ -2,7 +2,6 @@ package convert
 
 import (
 	_ "embed"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -10,7 +9,9 @@ import (
 	"strings"
 
 	"muarc/internal/docload"
+	"muarc/internal/fieldbind"
 	"muarc/record"
+	"muarc/schema"
 	"muarc/validate"
 )
 
@@ -157,27 +158,26 @@ func (sc *Sidecar) Where(ptr string) (int, int) {
 
 // Apply copies the sidecar's metadata into rec: study, subject, session,
 // and per trial and array (matched by name, created when missing) their
-// attributes, channels and decomposition attributes. Members outside the
-// layout's names go to Extra.
-func (sc *Sidecar) Apply(rec *record.Recording) {
+// attributes, the force trace's rate, start and unit, channels and
+// decomposition attributes. Which members are fields, and where each one
+// goes, follows the field registry (schema.Fields, bound to the model by
+// internal/fieldbind); members outside the registry's names go to Extra.
+// A member the sidecar leaves out keeps what rec holds. The signal files
+// give the sample counts and types (fields the metadata view derives from
+// the data); the unit tables, discharge files and history files give the
+// decompositions' units and the provenance, so those parts of a sidecar
+// (an export's metadata.json has them) are not read here.
+func (sc *Sidecar) Apply(rec *record.Recording) error {
 	v := sc.View
+	var err error
 	if m, ok := v["study"].(map[string]any); ok {
-		s := &rec.Study
-		s.ID, s.Title, s.Description, s.Contact, s.License = str(m, "id"), str(m, "title"), str(m, "description"), str(m, "contact"), str(m, "license")
-		s.Extra = extras(m, "id", "title", "description", "contact", "license")
+		rec.Study.Extra, err = fill(&rec.Study, "study", m, err)
 	}
 	if m, ok := v["subject"].(map[string]any); ok {
-		s := &rec.Subject
-		s.ID, s.Name, s.BirthDate, s.AgeBand, s.Sex = str(m, "id"), str(m, "name"), str(m, "birth_date"), str(m, "age_band"), str(m, "sex")
-		s.AgeYears, s.HeightCm, s.MassKg = num(m, "age_years"), num(m, "height_cm"), num(m, "mass_kg")
-		s.DominantSide, s.Phone, s.Email, s.Notes = str(m, "dominant_side"), str(m, "phone"), str(m, "email"), str(m, "notes")
-		s.Extra = extras(m, "id", "name", "birth_date", "age_years", "age_band", "sex", "height_cm", "mass_kg", "dominant_side", "phone", "email", "notes")
+		rec.Subject.Extra, err = fill(&rec.Subject, "subject", m, err)
 	}
 	if m, ok := v["session"].(map[string]any); ok {
-		s := &rec.Session
-		s.ID, s.Date, s.Site, s.Operator, s.Notes = str(m, "id"), str(m, "date"), str(m, "site"), str(m, "operator"), str(m, "notes")
-		s.PowerLineHz = num0(m, "power_line_hz")
-		s.Extra = extras(m, "id", "date", "site", "operator", "notes", "power_line_hz")
+		rec.Session.Extra, err = fill(&rec.Session, "session", m, err)
 	}
 	trials, _ := v["trials"].([]any)
 	for _, tv := range trials {
@@ -185,54 +185,26 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 		if !ok {
 			continue
 		}
-		t := trialNamed(rec, str(m, "name"))
-		t.Task, t.TargetPctMVC, t.MVC, t.MVCUnit = str(m, "task"), num(m, "target_pct_mvc"), num(m, "mvc"), str(m, "mvc_unit")
-		t.Profile = record.ForceProfile{Shape: str(m, "profile_shape"), RestS: num(m, "rest_s"), RampUpS: num(m, "ramp_up_s"),
-			PlateauS: num(m, "plateau_s"), RampDownS: num(m, "ramp_down_s")}
-		t.Notes = str(m, "notes")
+		t := trialNamed(rec, str(m, groupName))
+		t.Extra, err = fill(t, "trial", m, err, "arrays")
 		if fm, ok := m["force"].(map[string]any); ok {
-			// The force trace's rate and start: defaults for its file.
-			t.Force.SamplingRateHz, t.Force.StartS = num0(fm, "sampling_rate_hz"), num0(fm, "start_s")
+			// The force trace's rate, start and unit: defaults for its file.
+			_, err = fill(&t.Force, "signal", fm, err)
 		}
-		t.Extra = extras(m, "name", "task", "target_pct_mvc", "mvc", "mvc_unit", "profile_shape", "rest_s", "ramp_up_s", "plateau_s", "ramp_down_s", "notes", "force", "force_target", "arrays")
 		arrays, _ := m["arrays"].([]any)
 		for _, av := range arrays {
 			am, ok := av.(map[string]any)
 			if !ok {
 				continue
 			}
-			a := arrayNamed(t, str(am, "name"))
-			a.Muscle, a.Side = str(am, "muscle"), str(am, "side")
-			a.Rows, a.Columns, a.ADCBits = int(num0(am, "rows")), int(num0(am, "columns")), int(num0(am, "adc_bits"))
-			a.IEDMm, a.Gain, a.FilterLowHz, a.FilterHighHz = num(am, "ied_mm"), num(am, "gain"), num(am, "filter_low_hz"), num(am, "filter_high_hz")
-			a.Montage, a.Reference = str(am, "montage"), str(am, "reference")
-			a.SoftwareFilters = jsonText(am, "software_filters")
-			a.PlacementScheme, a.PlacementDescription = str(am, "placement_scheme"), str(am, "placement_description")
-			if r := num0(am, "sampling_rate_hz"); r > 0 {
-				a.SamplingRateHz = r
-			}
-			if _, ok := am["start_s"]; ok {
-				a.StartS = num0(am, "start_s")
-			}
-			if u := str(am, "unit"); u != "" {
-				a.Unit = u
-			}
-			a.Extra = extras(am, "name", "muscle", "side", "rows", "columns", "ied_mm", "gain", "adc_bits", "filter_low_hz", "filter_high_hz",
-				"montage", "reference", "software_filters", "placement_scheme", "placement_description", "sampling_rate_hz", "start_s", "unit", "sample_type", "samples", "channel_count", "channels", "decompositions")
+			a := arrayNamed(t, str(am, groupName))
+			a.Extra, err = fill(a, "array", am, err, "channels", "decompositions")
 			if chs, ok := am["channels"].([]any); ok {
 				a.Channels = a.Channels[:0]
 				for _, cv := range chs {
 					cm, _ := cv.(map[string]any)
-					c := record.Channel{Label: str(cm, "label"), Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: num(cm, "x_mm"), YMm: num(cm, "y_mm"), Usable: true}
-					if _, ok := cm["row"]; ok {
-						c.Row = int(num0(cm, "row"))
-					}
-					if _, ok := cm["column"]; ok {
-						c.Column = int(num0(cm, "column"))
-					}
-					if u, ok := cm["usable"].(bool); ok {
-						c.Usable = u
-					}
+					c := record.Channel{Row: record.NotOnGrid, Column: record.NotOnGrid, XMm: math.NaN(), YMm: math.NaN(), Usable: true}
+					_, err = fill(&c, "channel", cm, err)
 					a.Channels = append(a.Channels, c)
 				}
 			}
@@ -242,54 +214,43 @@ func (sc *Sidecar) Apply(rec *record.Recording) {
 				if !ok {
 					continue
 				}
-				d := decompNamed(a, str(dm, "name"))
-				d.Method, d.MethodVersion, d.Notes = str(dm, "method"), str(dm, "method_version"), str(dm, "notes")
-				d.EditedByHand, _ = dm["edited_by_hand"].(bool)
-				d.Parameters = "{}"
-				if p := jsonText(dm, "parameters"); p != "" {
-					d.Parameters = p
-				}
+				_, err = fill(decompNamed(a, str(dm, groupName)), "decomposition", dm, err, "units", "derived")
 			}
 		}
 	}
+	return err
 }
 
-// jsonText is member k (an object) as JSON text; "" when it is absent.
-func jsonText(m map[string]any, k string) string {
-	if v, ok := m[k]; ok && v != nil {
-		if b, err := json.Marshal(v); err == nil {
-			return string(b)
+// fill sets the registry fields of group that m has on the model struct
+// *ptr and returns m's other members (beyond the group's fields and the
+// containers named) as extra fields, and the first error (prev when set).
+// The sidecar passed the JSON Schema, so an error here means the schema
+// and the registry disagree.
+func fill(ptr any, group string, m map[string]any, prev error, containers ...string) (record.Extra, error) {
+	err := prev
+	for _, b := range fieldbind.Bind(ptr, group) {
+		x, ok := m[b.Name()]
+		if !ok || x == nil {
+			continue
+		}
+		if e := b.Set(x); e != nil && err == nil {
+			err = e
 		}
 	}
-	return ""
+	known := containers
+	for _, f := range schema.FieldsOf(group) {
+		known = append(known, f.Name) // ViewOnly ones too: the data give them
+	}
+	return extras(m, known...), err
 }
+
+// groupName is the member that names a trial, array or decomposition (the
+// registry's KindName field of those groups): the key they are matched by.
+const groupName = "name"
 
 func str(m map[string]any, k string) string {
 	s, _ := m[k].(string)
 	return s
-}
-
-func num0(m map[string]any, k string) float64 {
-	switch x := m[k].(type) {
-	case int64:
-		return float64(x)
-	case float64:
-		return x
-	case int:
-		return float64(x)
-	}
-	return 0
-}
-
-func num(m map[string]any, k string) float64 {
-	if _, ok := m[k]; !ok {
-		return math.NaN()
-	}
-	switch m[k].(type) {
-	case int64, float64, int:
-		return num0(m, k)
-	}
-	return math.NaN()
 }
 
 // extras collects members not named in known, as record.Extra values.
