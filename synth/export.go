@@ -14,7 +14,9 @@ import (
 	"strings"
 
 	"muarc/internal/atomicfile"
+	"muarc/internal/fieldbind"
 	"muarc/record"
+	"muarc/schema"
 )
 
 // ExportOptions tune WriteExportsOpt.
@@ -307,103 +309,55 @@ func (o obj) MarshalJSON() ([]byte, error) {
 	return b.Bytes(), nil
 }
 
+// fields appends the registry fields of group that *ptr holds, in
+// registry order, leaving out values not known (fieldbind.Value.Known).
+func (o *obj) fields(ptr any, group string) {
+	for _, b := range fieldbind.Bind(ptr, group) {
+		if !b.Known() {
+			continue
+		}
+		v := b.Get()
+		if b.Field.Kind == schema.KindJSON {
+			v = json.RawMessage(v.(string))
+		}
+		o.add(b.Name(), v)
+	}
+}
+
 // sidecar builds the metadata sidecar: the metadata view's study, subject,
-// session and trials, without samples and units.
+// session and trials, without samples and units. Which fields it holds
+// follows the field registry (schema.Fields through internal/fieldbind).
 func sidecar(r *record.Recording) obj {
 	var st, su, se obj
-	st.add("id", r.Study.ID)
-	st.add("title", r.Study.Title)
-	st.add("description", r.Study.Description)
-	st.add("contact", r.Study.Contact)
-	st.add("license", r.Study.License)
+	st.fields(&r.Study, "study")
 	st.extra(r.Study.Extra)
-	s := r.Subject
-	su.add("id", s.ID)
-	su.add("name", s.Name)
-	su.add("birth_date", s.BirthDate)
-	su.add("age_years", s.AgeYears)
-	su.add("age_band", s.AgeBand)
-	su.add("sex", s.Sex)
-	su.add("height_cm", s.HeightCm)
-	su.add("mass_kg", s.MassKg)
-	su.add("dominant_side", s.DominantSide)
-	su.add("phone", s.Phone)
-	su.add("email", s.Email)
-	su.add("notes", s.Notes)
-	su.extra(s.Extra)
-	se.add("id", r.Session.ID)
-	se.add("date", r.Session.Date)
-	se.add("site", r.Session.Site)
-	se.add("operator", r.Session.Operator)
-	se.add("notes", r.Session.Notes)
-	if r.Session.PowerLineHz > 0 {
-		se.add("power_line_hz", r.Session.PowerLineHz)
-	}
+	su.fields(&r.Subject, "subject")
+	su.extra(r.Subject.Extra)
+	se.fields(&r.Session, "session")
 	se.extra(r.Session.Extra)
 	trials := []obj{}
-	for _, t := range r.Trials {
+	for ti := range r.Trials {
+		t := &r.Trials[ti]
 		var to obj
-		to.add("name", t.Name)
-		to.add("task", t.Task)
-		to.add("target_pct_mvc", t.TargetPctMVC)
-		to.add("mvc", t.MVC)
-		to.add("mvc_unit", t.MVCUnit)
-		to.add("profile_shape", t.Profile.Shape)
-		to.add("rest_s", t.Profile.RestS)
-		to.add("ramp_up_s", t.Profile.RampUpS)
-		to.add("plateau_s", t.Profile.PlateauS)
-		to.add("ramp_down_s", t.Profile.RampDownS)
-		to.add("notes", t.Notes)
+		to.fields(t, "trial")
 		to.extra(t.Extra)
 		arrays := []obj{}
-		for _, a := range t.Arrays {
+		for ai := range t.Arrays {
+			a := &t.Arrays[ai]
 			var ao obj
-			ao.add("name", a.Name)
-			ao.add("muscle", a.Muscle)
-			ao.add("side", a.Side)
-			ao.add("rows", a.Rows)
-			ao.add("columns", a.Columns)
-			ao.add("ied_mm", a.IEDMm)
-			ao.add("gain", a.Gain)
-			if a.ADCBits > 0 {
-				ao.add("adc_bits", a.ADCBits)
-			}
-			ao.add("filter_low_hz", a.FilterLowHz)
-			ao.add("filter_high_hz", a.FilterHighHz)
-			ao.add("montage", a.Montage)
-			ao.add("reference", a.Reference)
-			if a.SoftwareFilters != "" {
-				ao.add("software_filters", json.RawMessage(a.SoftwareFilters))
-			}
-			ao.add("placement_scheme", a.PlacementScheme)
-			ao.add("placement_description", a.PlacementDescription)
-			ao.add("sampling_rate_hz", a.SamplingRateHz)
-			ao.add("start_s", a.StartS)
-			ao.add("unit", a.Unit)
+			ao.fields(a, "array")
 			ao.extra(a.Extra)
 			chans := []obj{}
-			for _, c := range a.Channels {
+			for ci := range a.Channels {
 				var co obj
-				co.add("label", c.Label)
-				co.add("row", c.Row)
-				co.add("column", c.Column)
-				co.add("x_mm", c.XMm)
-				co.add("y_mm", c.YMm)
-				co.add("usable", c.Usable)
+				co.fields(&a.Channels[ci], "channel")
 				chans = append(chans, co)
 			}
 			ao.add("channels", chans)
 			decs := []obj{}
-			for _, d := range a.Decompositions {
+			for di := range a.Decompositions {
 				var do obj
-				do.add("name", d.Name)
-				do.add("method", d.Method)
-				do.add("method_version", d.MethodVersion)
-				if d.Parameters != "" {
-					do.add("parameters", json.RawMessage(d.Parameters))
-				}
-				do.add("edited_by_hand", d.EditedByHand)
-				do.add("notes", d.Notes)
+				do.fields(&a.Decompositions[di], "decomposition")
 				decs = append(decs, do)
 			}
 			ao.add("decompositions", decs)
