@@ -81,8 +81,7 @@ func writeMUAPs(g *h5.Group, name string, m *record.MUAPs) error {
 	}
 	defer ds.Close()
 	var ma attrs
-	ma.any("first_lag", int64(m.FirstLag))
-	ma.str("unit", m.Unit)
+	ma.fields(m, "muaps")
 	return ma.write(ds, nil)
 }
 
@@ -178,7 +177,8 @@ func (f *File) readMUAPs(g *h5.Group, name string, n, channels int) (*record.MUA
 		return nil, err
 	}
 	ma := newAttrGet(f.path, d.Path(), das)
-	m := &record.MUAPs{Units: n, Channels: channels, Lags: d.Shape[2], FirstLag: ma.int("first_lag"), Unit: ma.str("unit")}
+	m := &record.MUAPs{Units: n, Channels: channels, Lags: d.Shape[2]}
+	ma.fields(m, "muaps")
 	if ma.err != nil {
 		return nil, ma.err
 	}

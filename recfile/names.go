@@ -30,6 +30,10 @@ const (
 	colID          = "id"
 	colLabel       = "label"
 	attrColumnUnit = "unit"
+	// attrRate is the one attribute of a trace or array the reader insists
+	// on (samples without a rate have no time); validate reports the other
+	// required ones (schema.Field.Required).
+	attrRate = "sampling_rate_hz"
 	// attrListPosition is the 0-based place of a trial, array or
 	// decomposition among its siblings (layout 1.1), for readers that list
 	// group members alphabetically.

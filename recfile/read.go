@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"muarc/h5"
+	"muarc/internal/fieldbind"
 	"muarc/record"
 	"muarc/schema"
 )
@@ -195,6 +196,31 @@ func (g *attrGet) required(name string) {
 	}
 }
 
+// fields reads the registry fields of group into the model struct *ptr
+// (schema.Fields through internal/fieldbind), each with the type its kind
+// gives: NaN for an absent number, the zero value for anything else. Group
+// names (KindName) are the HDF5 link name, not an attribute.
+func (g *attrGet) fields(ptr any, group string) {
+	for _, b := range fieldbind.Bind(ptr, group) {
+		var v any
+		switch b.Field.Kind {
+		case schema.KindName:
+			continue
+		case schema.KindNumber:
+			v = g.num(b.Name())
+		case schema.KindInteger:
+			v = int64(g.int(b.Name()))
+		case schema.KindBoolean:
+			v = g.boolean(b.Name())
+		default:
+			v = g.str(b.Name())
+		}
+		if err := b.Set(v); err != nil && g.err == nil {
+			g.err = err // the registry and the model disagree: a programming error
+		}
+	}
+}
+
 // extra returns the attributes nobody asked for.
 func (g *attrGet) extra() record.Extra {
 	var x record.Extra
@@ -341,8 +367,8 @@ func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
 	if err != nil {
 		return err
 	}
-	rec.Study = record.Study{ID: a.str("id"), Title: a.str("title"), Description: a.str("description"),
-		Contact: a.str("contact"), License: a.str("license")}
+	rec.Study = record.Study{}
+	a.fields(&rec.Study, grpStudy)
 	rec.Study.Extra = a.extra()
 	if a.err != nil {
 		return a.err
@@ -351,10 +377,8 @@ func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
 	if err != nil {
 		return err
 	}
-	rec.Subject = record.Subject{ID: a.str("id"), Name: a.str("name"), BirthDate: a.str("birth_date"),
-		AgeYears: a.num("age_years"), AgeBand: a.str("age_band"), Sex: a.str("sex"),
-		HeightCm: a.num("height_cm"), MassKg: a.num("mass_kg"), DominantSide: a.str("dominant_side"),
-		Phone: a.str("phone"), Email: a.str("email"), Notes: a.str("notes")}
+	rec.Subject = record.Subject{}
+	a.fields(&rec.Subject, grpSubject)
 	rec.Subject.Extra = a.extra()
 	if a.err != nil {
 		return a.err
@@ -363,18 +387,10 @@ func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
 	if err != nil {
 		return err
 	}
-	rec.Session = record.Session{ID: a.str("id"), Date: a.str("date"), Site: a.str("site"),
-		Operator: a.str("operator"), Notes: a.str("notes"), PowerLineHz: knownOr0(a.num("power_line_hz"))}
+	rec.Session = record.Session{}
+	a.fields(&rec.Session, grpSession)
 	rec.Session.Extra = a.extra()
 	return a.err
-}
-
-// knownOr0 is v, or 0 when it is NaN (not known).
-func knownOr0(v float64) float64 {
-	if math.IsNaN(v) {
-		return 0
-	}
-	return v
 }
 
 func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
@@ -384,13 +400,7 @@ func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {
 		return t, err
 	}
 	defer g.Close()
-	t.Task = a.str("task")
-	t.TargetPctMVC = a.num("target_pct_mvc")
-	t.MVC = a.num("mvc")
-	t.MVCUnit = a.str("mvc_unit")
-	t.Profile = record.ForceProfile{Shape: a.str("profile_shape"), RestS: a.num("rest_s"),
-		RampUpS: a.num("ramp_up_s"), PlateauS: a.num("plateau_s"), RampDownS: a.num("ramp_down_s")}
-	t.Notes = a.str("notes")
+	a.fields(&t, "trial")
 	t.Extra = a.extra()
 	if a.err != nil {
 		return t, a.err
@@ -438,13 +448,11 @@ func (f *File) readSignal(g *h5.Group, name string) (record.Signal, error) {
 		return s, err
 	}
 	a := newAttrGet(f.path, d.Path(), as)
-	a.required("sampling_rate_hz")
-	s.SamplingRateHz = a.num("sampling_rate_hz")
-	s.StartS = a.num("start_s")
+	a.required(attrRate)
+	a.fields(&s, "signal")
 	if math.IsNaN(s.StartS) {
 		s.StartS = 0
 	}
-	s.Unit = a.str("unit")
 	if a.err != nil {
 		return s, a.err
 	}
@@ -459,20 +467,11 @@ func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 		return ar, err
 	}
 	defer g.Close()
-	a.required("sampling_rate_hz")
-	ar.Muscle, ar.Side = a.str("muscle"), a.str("side")
-	ar.Rows, ar.Columns = a.int("rows"), a.int("columns")
-	ar.IEDMm, ar.Gain = a.num("ied_mm"), a.num("gain")
-	ar.ADCBits = a.int("adc_bits")
-	ar.FilterLowHz, ar.FilterHighHz = a.num("filter_low_hz"), a.num("filter_high_hz")
-	ar.Montage, ar.Reference = a.str("montage"), a.str("reference")
-	ar.SoftwareFilters = a.str("software_filters")
-	ar.PlacementScheme, ar.PlacementDescription = a.str("placement_scheme"), a.str("placement_description")
-	ar.SamplingRateHz, ar.StartS = a.num("sampling_rate_hz"), a.num("start_s")
+	a.required(attrRate)
+	a.fields(&ar, "array")
 	if math.IsNaN(ar.StartS) {
 		ar.StartS = 0
 	}
-	ar.Unit = a.str("unit")
 	ar.Extra = a.extra()
 	if a.err != nil {
 		return ar, a.err

@@ -122,10 +122,7 @@ func (f *File) readDecomposition(parent *h5.Group, name string, channels int) (r
 		return dec, err
 	}
 	defer g.Close()
-	dec.Method, dec.MethodVersion = a.str("method"), a.str("method_version")
-	dec.Parameters = a.str("parameters")
-	dec.EditedByHand = a.boolean("edited_by_hand")
-	dec.Notes = a.str("notes")
+	a.fields(&dec, "decomposition")
 	if x := a.extra(); len(x) > 0 && a.err == nil {
 		keys := make([]string, 0, len(x))
 		for k := range x {

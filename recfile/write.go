@@ -3,13 +3,13 @@ package recfile
 import (
 	"encoding/json"
 	"fmt"
-	"math"
 	"regexp"
 	"slices"
 	"time"
 
 	"muarc/h5"
 	"muarc/internal/atomicfile"
+	"muarc/internal/fieldbind"
 	"muarc/record"
 	"muarc/schema"
 )
@@ -197,9 +197,17 @@ func (a *attrs) str(k, v string) {
 	}
 }
 
-func (a *attrs) num(k string, v float64) {
-	if !math.IsNaN(v) {
-		a.any(k, v)
+// fields appends the registry fields of group that the model struct *ptr
+// holds (schema.Fields through internal/fieldbind), in registry order: a
+// required one always, another when its value is known (not empty, not
+// NaN, an optional integer not 0). Group names (KindName) are the HDF5
+// link name, not an attribute.
+func (a *attrs) fields(ptr any, group string) {
+	for _, b := range fieldbind.Bind(ptr, group) {
+		if b.Field.Kind == schema.KindName || !b.Field.Required && !b.Known() {
+			continue
+		}
+		a.any(b.Name(), b.Get())
 	}
 }
 
@@ -270,45 +278,17 @@ func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error)
 	if err := ra.write(root, nil); err != nil {
 		return err
 	}
-	s := rec.Study
-	var sa attrs
-	sa.str("id", s.ID)
-	sa.str("title", s.Title)
-	sa.str("description", s.Description)
-	sa.str("contact", s.Contact)
-	sa.str("license", s.License)
-	if err := group(root, grpStudy, sa, s.Extra); err != nil {
-		return err
-	}
-	p := rec.Subject
-	var pa attrs
-	pa.str("id", p.ID)
-	pa.str("name", p.Name)
-	pa.str("birth_date", p.BirthDate)
-	pa.num("age_years", p.AgeYears)
-	pa.str("age_band", p.AgeBand)
-	pa.str("sex", p.Sex)
-	pa.num("height_cm", p.HeightCm)
-	pa.num("mass_kg", p.MassKg)
-	pa.str("dominant_side", p.DominantSide)
-	pa.str("phone", p.Phone)
-	pa.str("email", p.Email)
-	pa.str("notes", p.Notes)
-	if err := group(root, grpSubject, pa, p.Extra); err != nil {
-		return err
-	}
-	e := rec.Session
-	var ea attrs
-	ea.str("id", e.ID)
-	ea.str("date", e.Date)
-	ea.str("site", e.Site)
-	ea.str("operator", e.Operator)
-	ea.str("notes", e.Notes)
-	if e.PowerLineHz > 0 {
-		ea.num("power_line_hz", e.PowerLineHz)
-	}
-	if err := group(root, grpSession, ea, e.Extra); err != nil {
-		return err
+	s, p, e := rec.Study, rec.Subject, rec.Session
+	for _, gr := range []struct {
+		name  string
+		ptr   any
+		extra record.Extra
+	}{{grpStudy, &s, s.Extra}, {grpSubject, &p, p.Extra}, {grpSession, &e, e.Extra}} {
+		var a attrs
+		a.fields(gr.ptr, gr.name)
+		if err := group(root, gr.name, a, gr.extra); err != nil {
+			return err
+		}
 	}
 	trials, err := root.CreateGroup(grpTrials)
 	if err != nil {
@@ -347,16 +327,7 @@ func (w *writer) trial(parent *h5.Group, t *record.Trial, pos int) error {
 	}
 	defer g.Close()
 	a := attrs{{attrListPosition, int64(pos)}}
-	a.str("task", t.Task)
-	a.num("target_pct_mvc", t.TargetPctMVC)
-	a.num("mvc", t.MVC)
-	a.str("mvc_unit", t.MVCUnit)
-	a.str("profile_shape", t.Profile.Shape)
-	a.num("rest_s", t.Profile.RestS)
-	a.num("ramp_up_s", t.Profile.RampUpS)
-	a.num("plateau_s", t.Profile.PlateauS)
-	a.num("ramp_down_s", t.Profile.RampDownS)
-	a.str("notes", t.Notes)
+	a.fields(t, "trial")
 	if err := a.write(g, t.Extra); err != nil {
 		return err
 	}
@@ -392,9 +363,7 @@ func writeSignal(g *h5.Group, name string, s record.Signal) error {
 	}
 	defer d.Close()
 	var a attrs
-	a.any("sampling_rate_hz", s.SamplingRateHz)
-	a.any("start_s", s.StartS)
-	a.str("unit", s.Unit)
+	a.fields(&s, "signal")
 	return a.write(d, nil)
 }
 
@@ -405,25 +374,7 @@ func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
 	}
 	defer g.Close()
 	a := attrs{{attrListPosition, int64(pos)}}
-	a.str("muscle", ar.Muscle)
-	a.str("side", ar.Side)
-	a.any("rows", int64(ar.Rows))
-	a.any("columns", int64(ar.Columns))
-	a.num("ied_mm", ar.IEDMm)
-	a.num("gain", ar.Gain)
-	if ar.ADCBits > 0 {
-		a.any("adc_bits", int64(ar.ADCBits))
-	}
-	a.num("filter_low_hz", ar.FilterLowHz)
-	a.num("filter_high_hz", ar.FilterHighHz)
-	a.str("montage", ar.Montage)
-	a.str("reference", ar.Reference)
-	a.str("software_filters", ar.SoftwareFilters)
-	a.str("placement_scheme", ar.PlacementScheme)
-	a.str("placement_description", ar.PlacementDescription)
-	a.any("sampling_rate_hz", ar.SamplingRateHz)
-	a.any("start_s", ar.StartS)
-	a.str("unit", ar.Unit)
+	a.fields(ar, "array")
 	if err := a.write(g, ar.Extra); err != nil {
 		return err
 	}

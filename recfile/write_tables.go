@@ -70,16 +70,12 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) erro
 		return err
 	}
 	defer g.Close()
-	params := d.Parameters
-	if params == "" {
-		params = "{}"
+	dc := *d
+	if dc.Parameters == "" {
+		dc.Parameters = "{}"
 	}
 	a := attrs{{attrListPosition, int64(pos)}}
-	a.str("method", d.Method)
-	a.str("method_version", d.MethodVersion)
-	a.any("parameters", params)
-	a.any("edited_by_hand", d.EditedByHand)
-	a.str("notes", d.Notes)
+	a.fields(&dc, "decomposition")
 	if err := a.write(g, nil); err != nil {
 		return err
 	}
