@@ -49,7 +49,7 @@ func (pl *Plan) force(it input, opt SignalOptions, prof *Profile) error {
 	// that disagree are refused, naming both.
 	metaUnit := t.Force.Unit
 	if u := s.Units[fi]; u != "" && metaUnit != "" && u != metaUnit {
-		return perr(it.path, s.lay.headerLine, fi+1, "fix the unit in the metadata (trials[].force.unit) or in the header", "force unit %q, the metadata says %q for trial %s", u, metaUnit, t.Name)
+		return perr(it.path, s.lay.headerLine, 0, "fix the unit in the metadata (trials[].force.unit) or in the header", "force unit %q, the metadata says %q for trial %s", u, metaUnit, t.Name)
 	}
 	unit := func(i int) string {
 		switch {

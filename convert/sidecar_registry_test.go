@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"muarc/recfile"
@@ -198,4 +199,40 @@ func asNumber(v any) (float64, bool) {
 		return f, err == nil
 	}
 	return 0, false
+}
+
+// The force trace's unit: the file's header, else the sidecar's
+// trials[].force.unit; a header and a sidecar that disagree are refused
+// naming both (nothing is written).
+func TestForceUnitFromSidecar(t *testing.T) {
+	meta := writeTemp(t, "meta.json", `{"study": {"id": "s"}, "subject": {"id": "P1"}, "session": {"id": "P1-1"},
+ "trials": [{"name": "t1", "force": {"sampling_rate_hz": 100, "unit": "N.m"}}]}`)
+	for _, c := range []struct{ header, want, refuse string }{
+		{"time [s],force", "N.m", ""},
+		{"time [s],force [N.m]", "N.m", ""},
+		{"time [s],force [N]", "", `force unit "N", the metadata says "N.m"`},
+	} {
+		force := writeTemp(t, "force.csv", c.header+"\n0,1\n0.01,2\n0.02,3\n")
+		out := filepath.Join(t.TempDir(), "x.h5")
+		_, err := ImportRecording(Inputs{Meta: meta, Force: []string{force}}, out, recfile.WriteOptions{})
+		if c.refuse != "" {
+			if err == nil || !strings.Contains(err.Error(), c.refuse) {
+				t.Errorf("%s: %v, want %q", c.header, err, c.refuse)
+			}
+			if _, serr := os.Stat(out); serr == nil {
+				t.Errorf("%s: output written", c.header)
+			}
+			continue
+		}
+		if err != nil {
+			t.Fatalf("%s: %v", c.header, err)
+		}
+		r, err := recfile.ReadAll(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if u := r.Trials[0].Force.Unit; u != c.want {
+			t.Errorf("%s: force unit %q, want %q", c.header, u, c.want)
+		}
+	}
 }
