@@ -6,6 +6,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"muarc/schema"
 )
 
 // DefaultK is the group size the k-anonymity report asks for unless told
@@ -24,8 +26,20 @@ type SubjectQuasi struct {
 }
 
 // QuasiNames are the quasi-identifiers the report groups on, in the order
-// generalisations are tried.
+// generalisations are tried. They are the report's names (QuasiIDs' JSON
+// keys): "height" and "mass" stand for the exact value or its band. The
+// registry fields behind each are in quasiFields.
 var QuasiNames = []string{"age_band", "height", "mass", "dominant_side", "sex"}
+
+// quasiFields names, per quasi-identifier, the subject's registry fields
+// (schema.Fields) that hold it; dropping the quasi-identifier drops them.
+var quasiFields = map[string][]string{
+	"age_band":      {"age_years", "age_band"},
+	"height":        {"height_cm"},
+	"mass":          {"mass_kg"},
+	"dominant_side": {"dominant_side"},
+	"sex":           {"sex"},
+}
 
 // KGroup is one combination of quasi-identifier values and its subjects.
 type KGroup struct {
@@ -209,17 +223,35 @@ type rung struct {
 	hint   string
 }
 
-// ladders: level 0 is "as written".
+// ladders: level 0 is "as written". The band hints name the policy's band
+// options (Policy's age_band_years, height_band_cm, mass_band_kg); the drop
+// hints name the registry fields of quasiFields with their policy paths.
 var ladders = map[string][]rung{
 	"age_band": {{}, {20, "age bands of 20 years", `"age_band_years": 20`},
 		{40, "age bands of 40 years", `"age_band_years": 40`},
-		{0, "drop the age band", `"subject.age_years": "drop", "subject.age_band": "drop"`}},
+		{0, "drop the age band", dropHint("age_band")}},
 	"height": {{}, {20, "height bands of 20 cm", `"height_band_cm": 20`},
-		{0, "drop height", `"subject.height_cm": "drop"`}},
+		{0, "drop height", dropHint("height")}},
 	"mass": {{}, {20, "mass bands of 20 kg", `"mass_band_kg": 20`},
-		{0, "drop mass", `"subject.mass_kg": "drop"`}},
-	"dominant_side": {{}, {0, "drop dominant_side", `"subject.dominant_side": "drop"`}},
-	"sex":           {{}, {0, "drop sex", `"subject.sex": "drop"`}},
+		{0, "drop mass", dropHint("mass")}},
+	"dominant_side": {{}, {0, "drop " + quasiFields["dominant_side"][0], dropHint("dominant_side")}},
+	"sex":           {{}, {0, "drop " + quasiFields["sex"][0], dropHint("sex")}},
+}
+
+// dropHint is the policy setting that drops a quasi-identifier's registry
+// fields, e.g. `"subject.mass_kg": "drop"`. A field the registry does not
+// have, or may not drop, is a programming error: it panics when the
+// package loads, so every deid test fails.
+func dropHint(quasi string) string {
+	var parts []string
+	for _, name := range quasiFields[quasi] {
+		f, ok := schema.FieldByPath(schema.GroupByName("subject").Prefix + "." + name)
+		if !ok || !f.Allows(schema.ActDrop) {
+			panic(fmt.Sprintf("deid: quasi-identifier %s names subject field %q, which the registry does not have or may not drop", quasi, name))
+		}
+		parts = append(parts, fmt.Sprintf("%q: %q", f.Path(), schema.ActDrop))
+	}
+	return strings.Join(parts, ", ")
 }
 
 // generalise returns a copy with one quasi-identifier widened to width (0:
