@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"muarc/internal/batch"
+	"muarc/internal/fieldbind"
 	"muarc/record"
 )
 
@@ -121,16 +122,29 @@ type RecordingSummary struct {
 	Rows    []IndexRow
 }
 
-// SubjectRow holds the subject fields the study tables show. Identifying
-// fields (name, birth date, phone, e-mail, notes) are never copied here.
+// SubjectRow holds the subject fields the study tables show: the
+// registry's subject fields that do not identify a person (schema.Fields,
+// bound by the `layout` tags; tables_test.go fails when one is missing).
+// Identifying fields (name, birth date, phone, e-mail, notes) are never
+// copied here. The JSON names are the registry's (struct tags cannot look
+// them up; the same test compares them).
 type SubjectRow struct {
-	ID           string  `json:"subject"`
-	Sex          string  `json:"sex"`
-	AgeYears     float64 `json:"-"`
-	AgeBand      string  `json:"age_band"`
-	DominantSide string  `json:"dominant_side"`
-	HeightCm     float64 `json:"-"`
-	MassKg       float64 `json:"-"`
+	ID           string  `json:"subject" layout:"id"`
+	Sex          string  `json:"sex" layout:"sex"`
+	AgeYears     float64 `json:"-" layout:"age_years"`
+	AgeBand      string  `json:"age_band" layout:"age_band"`
+	DominantSide string  `json:"dominant_side" layout:"dominant_side"`
+	HeightCm     float64 `json:"-" layout:"height_cm"`
+	MassKg       float64 `json:"-" layout:"mass_kg"`
+}
+
+// subjectRowOf copies the subject's non-identifying fields.
+func subjectRowOf(s *record.Subject) SubjectRow {
+	var r SubjectRow
+	if err := fieldbind.Copy(&r, s, "subject"); err != nil {
+		panic(err) // the same registry kinds on both sides: cannot happen
+	}
+	return r
 }
 
 // FindRecordings lists the muarc recordings under dir: regular files named
@@ -255,9 +269,7 @@ func Summaries(dir string, workers int) ([]RecordingSummary, error) {
 func summaryOf(rec *record.Recording, rel string, size int64, lowConf func(record.Unit) bool) *RecordingSummary {
 	s := &RecordingSummary{
 		File: rel, Bytes: size, Study: rec.Study, Session: rec.Session.ID, Trials: len(rec.Trials),
-		Subject: SubjectRow{ID: rec.Subject.ID, Sex: rec.Subject.Sex, AgeYears: rec.Subject.AgeYears,
-			AgeBand: rec.Subject.AgeBand, DominantSide: rec.Subject.DominantSide,
-			HeightCm: rec.Subject.HeightCm, MassKg: rec.Subject.MassKg},
+		Subject: subjectRowOf(&rec.Subject),
 	}
 	for _, t := range rec.Trials {
 		for _, a := range t.Arrays {

@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"muarc/internal/atomicfile"
+	"muarc/internal/fieldbind"
 )
 
 // Study table file names.
@@ -20,8 +21,9 @@ const (
 // Tables are the two study tables, tab-separated with a header line, and
 // notes on anything the tables had to reconcile.
 type Tables struct {
-	// Subjects has one row per subject: subject, sex, age_years, age_band,
-	// dominant_side, height_cm, mass_kg, sessions, recordings.
+	// Subjects has one row per subject: subject (the id), then the
+	// SubjectRow fields in registry order (age_years, age_band, sex,
+	// height_cm, mass_kg, dominant_side), sessions, recordings.
 	Subjects []byte
 	// Recordings has one row per recording: file, bytes, sha256 (when
 	// known), study, subject, session, trials, arrays, units, discharges,
@@ -48,14 +50,14 @@ func StudyTables(sums []RecordingSummary, sha map[string]string) Tables {
 	rec.WriteString("file\tbytes\tsha256\tstudy\tsubject\tsession\ttrials\tarrays\tunits\tdischarges\tduration_s\n")
 	for _, s := range sums {
 		sr := s.Subject
-		cells := []string{sr.ID, sr.Sex, num(sr.AgeYears), sr.AgeBand, sr.DominantSide, num(sr.HeightCm), num(sr.MassKg)}
+		cells := subjectCells(&sr)
 		e, ok := subjects[sr.ID]
 		if !ok {
 			e = &subj{row: cells, sessions: map[string]bool{}}
 			subjects[sr.ID] = e
 			order = append(order, sr.ID)
 		} else {
-			names := []string{"subject", "sex", "age_years", "age_band", "dominant_side", "height_cm", "mass_kg"}
+			names := subjectColumns()
 			for i := 1; i < len(cells); i++ {
 				if e.row[i] != cells[i] && e.row[i] != "varies" {
 					t.Notes = append(t.Notes, fmt.Sprintf("subject %q: %s is %q in one recording and %q in %s; the table says \"varies\"",
@@ -91,7 +93,7 @@ func StudyTables(sums []RecordingSummary, sha map[string]string) Tables {
 		rec.WriteString(strings.Join(cellsR, "\t") + "\n")
 	}
 	var sub bytes.Buffer
-	sub.WriteString("subject\tsex\tage_years\tage_band\tdominant_side\theight_cm\tmass_kg\tsessions\trecordings\n")
+	sub.WriteString(strings.Join(append(subjectColumns(), "sessions", "recordings"), "\t") + "\n")
 	for _, id := range order {
 		e := subjects[id]
 		cells := append(append([]string(nil), e.row...), strconv.Itoa(len(e.sessions)), strconv.Itoa(e.recordings))
@@ -103,6 +105,42 @@ func StudyTables(sums []RecordingSummary, sha map[string]string) Tables {
 	t.Subjects = sub.Bytes()
 	t.Recordings = rec.Bytes()
 	return t
+}
+
+// subjectIDColumn heads the subjects table's first column, the subject's
+// id (the registry's subject.id): "subject" says whose row it is.
+const subjectIDColumn = "subject"
+
+// subjectColumns are the subjects table's columns from the subject's
+// fields: the SubjectRow fields in registry order (the id, first there,
+// under subjectIDColumn).
+func subjectColumns() []string {
+	var out []string
+	for _, b := range fieldbind.Bind(&SubjectRow{}, "subject") {
+		if b.Name() == "id" {
+			out = append(out, subjectIDColumn)
+			continue
+		}
+		out = append(out, b.Name())
+	}
+	return out
+}
+
+// subjectCells are a subject's cells in subjectColumns order; an unknown
+// number is empty.
+func subjectCells(sr *SubjectRow) []string {
+	var out []string
+	for _, b := range fieldbind.Bind(sr, "subject") {
+		switch v := b.Get().(type) {
+		case float64:
+			out = append(out, num(v))
+		case int64:
+			out = append(out, strconv.FormatInt(v, 10))
+		default:
+			out = append(out, fmt.Sprint(v))
+		}
+	}
+	return out
 }
 
 // WriteTables writes subjects.tsv and recordings.tsv into outDir (which

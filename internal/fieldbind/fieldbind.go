@@ -174,3 +174,21 @@ func (b Value) Known() bool {
 	}
 	return true
 }
+
+// Copy sets every field of group that both *dst and *src hold from src to
+// dst (a summary struct taking its fields from the model, say) and returns
+// the first value dst's struct field cannot hold.
+func Copy(dst, src any, group string) error {
+	from := map[string]Value{}
+	for _, b := range Bind(src, group) {
+		from[b.Name()] = b
+	}
+	for _, b := range Bind(dst, group) {
+		if s, ok := from[b.Name()]; ok {
+			if err := b.Set(s.Get()); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
