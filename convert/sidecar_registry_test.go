@@ -3,7 +3,6 @@ package convert
 import (
 	"encoding/json"
 	"fmt"
-	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -131,7 +130,7 @@ func TestSidecarCarriesEveryRegistryField(t *testing.T) {
 				}
 				n++
 				w, g := want[f.Name], got[f.Name]
-				if !sameValue(w, g) {
+				if !sameStored(w, g) {
 					t.Errorf("booleans %v: %s (%s): sidecar %v (%T), stored %v (%T)", flag, f.Path(), sg.where, w, w, g, g)
 				}
 			}
@@ -145,7 +144,7 @@ func TestSidecarCarriesEveryRegistryField(t *testing.T) {
 // lookupPointer follows a slash path of member names and list indices.
 func lookupPointer(v map[string]any, path string) map[string]any {
 	var cur any = v
-	for _, p := range splitSlash(path) {
+	for _, p := range strings.Split(path, "/") {
 		switch c := cur.(type) {
 		case map[string]any:
 			cur = c[p]
@@ -162,43 +161,16 @@ func lookupPointer(v map[string]any, path string) map[string]any {
 	return m
 }
 
-func splitSlash(p string) []string {
-	var out []string
-	start := 0
-	for i := 0; i <= len(p); i++ {
-		if i == len(p) || p[i] == '/' {
-			out = append(out, p[start:i])
-			start = i + 1
-		}
-	}
-	return out
-}
-
-func sameValue(a, b any) bool {
-	if x, ok := asNumber(a); ok {
-		y, ok := asNumber(b)
-		return ok && (x == y || math.IsNaN(x) && math.IsNaN(y))
+// sameStored compares a sidecar's value with the stored one: numbers by
+// value, anything else (text, booleans, JSON objects) by its JSON text.
+func sameStored(a, b any) bool {
+	if x, ok := asFloat(a); ok {
+		y, ok := asFloat(b)
+		return ok && x == y
 	}
 	ja, _ := json.Marshal(a)
 	jb, _ := json.Marshal(b)
 	return string(ja) == string(jb)
-}
-
-func asNumber(v any) (float64, bool) {
-	switch n := v.(type) {
-	case float64:
-		return n, true
-	case int64:
-		return float64(n), true
-	case int:
-		return float64(n), true
-	case int32:
-		return float64(n), true
-	case json.Number:
-		f, err := n.Float64()
-		return f, err == nil
-	}
-	return 0, false
 }
 
 // The force trace's unit: the file's header, else the sidecar's
