@@ -179,24 +179,14 @@ func (sc *Sidecar) Apply(rec *record.Recording) error {
 	if m, ok := v["session"].(map[string]any); ok {
 		rec.Session.Extra, err = fill(&rec.Session, "session", m, err)
 	}
-	trials, _ := v["trials"].([]any)
-	for _, tv := range trials {
-		m, ok := tv.(map[string]any)
-		if !ok {
-			continue
-		}
+	for _, m := range objects(v["trials"]) {
 		t := trialNamed(rec, str(m, groupName))
 		t.Extra, err = fill(t, "trial", m, err, "arrays")
 		if fm, ok := m["force"].(map[string]any); ok {
 			// The force trace's rate, start and unit: defaults for its file.
 			_, err = fill(&t.Force, "signal", fm, err)
 		}
-		arrays, _ := m["arrays"].([]any)
-		for _, av := range arrays {
-			am, ok := av.(map[string]any)
-			if !ok {
-				continue
-			}
+		for _, am := range objects(m["arrays"]) {
 			a := arrayNamed(t, str(am, groupName))
 			a.Extra, err = fill(a, "array", am, err, "channels", "decompositions")
 			if chs, ok := am["channels"].([]any); ok {
@@ -208,17 +198,25 @@ func (sc *Sidecar) Apply(rec *record.Recording) error {
 					a.Channels = append(a.Channels, c)
 				}
 			}
-			decs, _ := am["decompositions"].([]any)
-			for _, dv := range decs {
-				dm, ok := dv.(map[string]any)
-				if !ok {
-					continue
-				}
+			for _, dm := range objects(am["decompositions"]) {
 				_, err = fill(decompNamed(a, str(dm, groupName)), "decomposition", dm, err, "units", "derived")
 			}
 		}
 	}
 	return err
+}
+
+// objects are the members of a list that are objects (the JSON Schema has
+// refused anything else before).
+func objects(list any) []map[string]any {
+	l, _ := list.([]any)
+	var out []map[string]any
+	for _, v := range l {
+		if m, ok := v.(map[string]any); ok {
+			out = append(out, m)
+		}
+	}
+	return out
 }
 
 // fill sets the registry fields of group that m has on the model struct
