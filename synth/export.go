@@ -328,48 +328,37 @@ func (o *obj) fields(ptr any, group string) {
 // session and trials, without samples and units. Which fields it holds
 // follows the field registry (schema.Fields through internal/fieldbind).
 func sidecar(r *record.Recording) obj {
-	var st, su, se obj
-	st.fields(&r.Study, "study")
-	st.extra(r.Study.Extra)
-	su.fields(&r.Subject, "subject")
-	su.extra(r.Subject.Extra)
-	se.fields(&r.Session, "session")
-	se.extra(r.Session.Extra)
-	trials := []obj{}
-	for ti := range r.Trials {
-		t := &r.Trials[ti]
-		var to obj
-		to.fields(t, "trial")
-		to.extra(t.Extra)
-		arrays := []obj{}
-		for ai := range t.Arrays {
-			a := &t.Arrays[ai]
-			var ao obj
-			ao.fields(a, "array")
-			ao.extra(a.Extra)
-			chans := []obj{}
-			for ci := range a.Channels {
-				var co obj
-				co.fields(&a.Channels[ci], "channel")
-				chans = append(chans, co)
-			}
-			ao.add("channels", chans)
-			decs := []obj{}
-			for di := range a.Decompositions {
-				var do obj
-				do.fields(&a.Decompositions[di], "decomposition")
-				decs = append(decs, do)
-			}
-			ao.add("decompositions", decs)
-			arrays = append(arrays, ao)
-		}
-		to.add("arrays", arrays)
-		trials = append(trials, to)
-	}
 	var o obj
-	o.add("study", st)
-	o.add("subject", su)
-	o.add("session", se)
-	o.add("trials", trials)
+	o.add("study", fieldsObj(&r.Study, "study", r.Study.Extra))
+	o.add("subject", fieldsObj(&r.Subject, "subject", r.Subject.Extra))
+	o.add("session", fieldsObj(&r.Session, "session", r.Session.Extra))
+	o.add("trials", objList(r.Trials, func(t *record.Trial) obj {
+		to := fieldsObj(t, "trial", t.Extra)
+		to.add("arrays", objList(t.Arrays, func(a *record.Array) obj {
+			ao := fieldsObj(a, "array", a.Extra)
+			ao.add("channels", objList(a.Channels, func(c *record.Channel) obj { return fieldsObj(c, "channel", nil) }))
+			ao.add("decompositions", objList(a.Decompositions, func(d *record.Decomposition) obj { return fieldsObj(d, "decomposition", nil) }))
+			return ao
+		}))
+		return to
+	}))
 	return o
+}
+
+// fieldsObj is an object of the registry fields of group that *ptr holds
+// and then the extra fields.
+func fieldsObj(ptr any, group string, extra record.Extra) obj {
+	var o obj
+	o.fields(ptr, group)
+	o.extra(extra)
+	return o
+}
+
+// objList is one object per element of xs ([] when none).
+func objList[T any](xs []T, f func(*T) obj) []obj {
+	out := []obj{}
+	for i := range xs {
+		out = append(out, f(&xs[i]))
+	}
+	return out
 }
