@@ -127,50 +127,38 @@ func Export(path string, what []string, opt ExportOptions) ([]string, error) {
 				}
 			}
 		case "discharges", "units":
-			for ti := range rec.Trials {
-				t := &rec.Trials[ti]
-				for ai := range t.Arrays {
-					a := &t.Arrays[ai]
-					for di := range a.Decompositions {
-						d := &a.Decompositions[di]
-						rel := t.Name + "/" + k + "_" + a.Name + "_" + d.Name + ext
-						var fill func(w *bufio.Writer) error
-						switch {
-						case k == "units" && opt.Format == "json":
-							fill = func(w *bufio.Writer) error { return unitsJSON(w, d) }
-						case k == "units":
-							fill = func(w *bufio.Writer) error { return writeUnits(w, d, delim) }
-						case opt.Format == "json":
-							fill = func(w *bufio.Writer) error { return dischargesJSON(w, d, a) }
-						default:
-							n, _ := a.Samples.Shape()
-							tb := dischargeTime{rate: a.SamplingRateHz, start: a.StartS, seconds: opt.TimeBase == "s"}
-							fill = func(w *bufio.Writer) error { return writeDischarges(w, d, opt.Shape, n, delim, tb) }
-						}
-						if err := emit(rel, fill); err != nil {
-							return out, err
-						}
-					}
+			err := rec.EachDecomposition(func(t *record.Trial, a *record.Array, d *record.Decomposition) error {
+				rel := t.Name + "/" + k + "_" + a.Name + "_" + d.Name + ext
+				var fill func(w *bufio.Writer) error
+				switch {
+				case k == "units" && opt.Format == "json":
+					fill = func(w *bufio.Writer) error { return unitsJSON(w, d) }
+				case k == "units":
+					fill = func(w *bufio.Writer) error { return writeUnits(w, d, delim) }
+				case opt.Format == "json":
+					fill = func(w *bufio.Writer) error { return dischargesJSON(w, d, a) }
+				default:
+					n, _ := a.Samples.Shape()
+					tb := dischargeTime{rate: a.SamplingRateHz, start: a.StartS, seconds: opt.TimeBase == "s"}
+					fill = func(w *bufio.Writer) error { return writeDischarges(w, d, opt.Shape, n, delim, tb) }
 				}
+				return emit(rel, fill)
+			})
+			if err != nil {
+				return out, err
 			}
 		case "muaps":
 			if opt.Format == "json" {
 				return out, fmt.Errorf("MUAP templates are exported as csv or tsv, not json")
 			}
-			for ti := range rec.Trials {
-				t := &rec.Trials[ti]
-				for ai := range t.Arrays {
-					a := &t.Arrays[ai]
-					for di := range a.Decompositions {
-						d := &a.Decompositions[di]
-						if d.MUAPs == nil {
-							continue
-						}
-						if err := emit(t.Name+"/muaps_"+a.Name+"_"+d.Name+ext, func(w *bufio.Writer) error { return writeMUAPs(w, a, d, delim) }); err != nil {
-							return out, err
-						}
-					}
+			err := rec.EachDecomposition(func(t *record.Trial, a *record.Array, d *record.Decomposition) error {
+				if d.MUAPs == nil {
+					return nil
 				}
+				return emit(t.Name+"/muaps_"+a.Name+"_"+d.Name+ext, func(w *bufio.Writer) error { return writeMUAPs(w, a, d, delim) })
+			})
+			if err != nil {
+				return out, err
 			}
 		case "derived": // derived.go
 			if err := exportDerived(rec, opt.Format, delim, emit); err != nil {

@@ -414,3 +414,20 @@ type Operation struct {
 // Values are string, float64, int64, bool or []float64; other types are
 // refused by the writer.
 type Extra map[string]any
+
+// EachDecomposition calls fn for every decomposition of every array of
+// every trial, in order, and stops at the first error fn returns.
+func (r *Recording) EachDecomposition(fn func(t *Trial, a *Array, d *Decomposition) error) error {
+	for ti := range r.Trials {
+		t := &r.Trials[ti]
+		for ai := range t.Arrays {
+			a := &t.Arrays[ai]
+			for di := range a.Decompositions {
+				if err := fn(t, a, &a.Decompositions[di]); err != nil {
+					return err
+				}
+			}
+		}
+	}
+	return nil
+}
