@@ -22,9 +22,10 @@ type DictEntry struct {
 	// "object", "array of number", ...).
 	Type string `json:"type"`
 	// Unit is the UCUM unit of the value, "1" for a dimensionless number,
-	// or "" when the field has no unit (text, identifiers, flags).
+	// or "" when the field has no unit (text, identifiers, flags, counts).
 	Unit string `json:"unit"`
-	// Required is true when the schema requires the field in its object.
+	// Required is true when every file has the field (the field registry,
+	// schema.Fields) or the schema requires it in its object.
 	Required bool `json:"required"`
 	// Meaning is the schema's description of the field.
 	Meaning string `json:"meaning"`
@@ -37,8 +38,10 @@ type DictEntry struct {
 }
 
 // DataDictionary lists every field of the metadata view described by
-// schema.RecordingSchema: its meaning, JSON type and unit. Units come from an
-// explicit "x-unit" keyword when the schema has one, else from the field
+// schema.RecordingSchema: its meaning, JSON type and unit. A field of the
+// field registry (schema.Fields) takes its unit and requiredness from the
+// registry. For the others (list lengths, template shapes) units come from
+// an explicit "x-unit" keyword when the schema has one, else from the field
 // name's suffix (the layout names numbers by their unit: _hz, _s, _mm, _cm,
 // _kg, _db, _pps, _pct, _pct_mvc, _years), else from "dimensionless" in the
 // description. Fields appear in the schema's order.
@@ -149,7 +152,23 @@ func (w *dictWalker) object(prefix string, s ordered, depth int) {
 
 func (w *dictWalker) add(e DictEntry) {
 	e.HDF5 = hdf5Location(e.Field)
+	fromRegistry(&e)
 	w.out = append(w.out, e)
+}
+
+// fromRegistry sets the unit of a field the registry (schema.Fields) has
+// from it: the registry's unit, or none (a reference to a unit field such
+// as "(mvc_unit)" stays). A field every file has (the registry's Required)
+// is required, as is one the JSON Schema requires in its object.
+func fromRegistry(e *DictEntry) {
+	f, ok := schema.FieldByPath(e.Field)
+	if !ok {
+		return
+	}
+	e.Required = e.Required || f.Required
+	if f.Unit != "" || !strings.HasPrefix(e.Unit, "(") {
+		e.Unit = f.Unit
+	}
 }
 
 // hdf5Location says where a metadata-view field lives in a file, following
