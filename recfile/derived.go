@@ -75,14 +75,7 @@ func writeMUAPs(g *h5.Group, name string, m *record.MUAPs) error {
 	if err := g.WriteFloat32Array(name, []int{m.Units, m.Channels, m.Lags}, m.Data); err != nil {
 		return err
 	}
-	ds, err := g.OpenDataset(name, 0)
-	if err != nil {
-		return err
-	}
-	defer ds.Close()
-	var ma attrs
-	ma.fields(m, "muaps")
-	return ma.write(ds, nil)
+	return datasetFields(g, name, m, "muaps")
 }
 
 // writeDerived writes d.Derived as the group derived/ of dec.

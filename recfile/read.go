@@ -363,34 +363,22 @@ func groupAttrs(file string, parent *h5.Group, name string, optional bool) (*att
 }
 
 func (f *File) readStudy(root *h5.Group, rec *record.Recording) error {
-	a, err := groupAttrs(f.path, root, grpStudy, false)
-	if err != nil {
-		return err
+	for _, gr := range []struct {
+		name  string
+		ptr   any
+		extra *record.Extra
+	}{{grpStudy, &rec.Study, &rec.Study.Extra}, {grpSubject, &rec.Subject, &rec.Subject.Extra}, {grpSession, &rec.Session, &rec.Session.Extra}} {
+		a, err := groupAttrs(f.path, root, gr.name, false)
+		if err != nil {
+			return err
+		}
+		a.fields(gr.ptr, gr.name)
+		*gr.extra = a.extra()
+		if a.err != nil {
+			return a.err
+		}
 	}
-	rec.Study = record.Study{}
-	a.fields(&rec.Study, grpStudy)
-	rec.Study.Extra = a.extra()
-	if a.err != nil {
-		return a.err
-	}
-	a, err = groupAttrs(f.path, root, grpSubject, false)
-	if err != nil {
-		return err
-	}
-	rec.Subject = record.Subject{}
-	a.fields(&rec.Subject, grpSubject)
-	rec.Subject.Extra = a.extra()
-	if a.err != nil {
-		return a.err
-	}
-	a, err = groupAttrs(f.path, root, grpSession, false)
-	if err != nil {
-		return err
-	}
-	rec.Session = record.Session{}
-	a.fields(&rec.Session, grpSession)
-	rec.Session.Extra = a.extra()
-	return a.err
+	return nil
 }
 
 func (f *File) readTrial(parent *h5.Group, name string) (record.Trial, error) {

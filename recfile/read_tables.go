@@ -41,41 +41,24 @@ func (c *columns) open(name string) (*h5.Dataset, error) {
 	return d, nil
 }
 
+// readColumn opens a column, checks it and reads it with get.
+func readColumn[T any](c *columns, name string, get func(*h5.Dataset) ([]T, error)) ([]T, error) {
+	d, err := c.open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer d.Close()
+	return get(d)
+}
+
 func (c *columns) f64(name string) ([]float64, error) {
-	d, err := c.open(name)
-	if err != nil {
-		return nil, err
-	}
-	defer d.Close()
-	return d.Float64s()
+	return readColumn(c, name, (*h5.Dataset).Float64s)
 }
-
-func (c *columns) i64(name string) ([]int64, error) {
-	d, err := c.open(name)
-	if err != nil {
-		return nil, err
-	}
-	defer d.Close()
-	return d.Int64s()
-}
-
+func (c *columns) i64(name string) ([]int64, error) { return readColumn(c, name, (*h5.Dataset).Int64s) }
 func (c *columns) strs(name string) ([]string, error) {
-	d, err := c.open(name)
-	if err != nil {
-		return nil, err
-	}
-	defer d.Close()
-	return d.Strings()
+	return readColumn(c, name, (*h5.Dataset).Strings)
 }
-
-func (c *columns) bools(name string) ([]bool, error) {
-	d, err := c.open(name)
-	if err != nil {
-		return nil, err
-	}
-	defer d.Close()
-	return d.Bools()
-}
+func (c *columns) bools(name string) ([]bool, error) { return readColumn(c, name, (*h5.Dataset).Bools) }
 
 func (f *File) readChannels(parent *h5.Group, n int) ([]record.Channel, error) {
 	g, err := mustGroup(f.path, parent, grpChannels)

@@ -321,16 +321,11 @@ func group(parent *h5.Group, name string, a attrs, extra record.Extra) error {
 }
 
 func (w *writer) trial(parent *h5.Group, t *record.Trial, pos int) error {
-	g, err := parent.CreateGroup(t.Name)
+	g, err := listMember(parent, t.Name, pos, t, "trial", t.Extra)
 	if err != nil {
 		return err
 	}
 	defer g.Close()
-	a := attrs{{attrListPosition, int64(pos)}}
-	a.fields(t, "trial")
-	if err := a.write(g, t.Extra); err != nil {
-		return err
-	}
 	if err := writeSignal(g, dsForce, t.Force); err != nil {
 		return err
 	}
@@ -357,27 +352,45 @@ func writeSignal(g *h5.Group, name string, s record.Signal) error {
 	if err := g.WriteColumn(name, s.Values); err != nil {
 		return err
 	}
+	return datasetFields(g, name, &s, "signal")
+}
+
+// listMember creates the group of a trial, array or decomposition with
+// its list position, the registry fields of group that *ptr holds and the
+// extra fields; the caller closes it.
+func listMember(parent *h5.Group, name string, pos int, ptr any, group string, extra record.Extra) (*h5.Group, error) {
+	g, err := parent.CreateGroup(name)
+	if err != nil {
+		return nil, err
+	}
+	a := attrs{{attrListPosition, int64(pos)}}
+	a.fields(ptr, group)
+	if err := a.write(g, extra); err != nil {
+		g.Close()
+		return nil, err
+	}
+	return g, nil
+}
+
+// datasetFields writes the registry fields of group that *ptr holds as
+// attributes of g's dataset name.
+func datasetFields(g *h5.Group, name string, ptr any, group string) error {
 	d, err := g.OpenDataset(name, 0)
 	if err != nil {
 		return err
 	}
 	defer d.Close()
 	var a attrs
-	a.fields(&s, "signal")
+	a.fields(ptr, group)
 	return a.write(d, nil)
 }
 
 func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
-	g, err := parent.CreateGroup(ar.Name)
+	g, err := listMember(parent, ar.Name, pos, ar, "array", ar.Extra)
 	if err != nil {
 		return err
 	}
 	defer g.Close()
-	a := attrs{{attrListPosition, int64(pos)}}
-	a.fields(ar, "array")
-	if err := a.write(g, ar.Extra); err != nil {
-		return err
-	}
 	if err := w.samples(g, ar); err != nil {
 		return err
 	}

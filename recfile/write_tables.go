@@ -65,20 +65,15 @@ func setColumnUnit(g *h5.Group, name, unit string) error {
 }
 
 func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) error {
-	g, err := parent.CreateGroup(d.Name)
-	if err != nil {
-		return err
-	}
-	defer g.Close()
 	dc := *d
 	if dc.Parameters == "" {
 		dc.Parameters = "{}"
 	}
-	a := attrs{{attrListPosition, int64(pos)}}
-	a.fields(&dc, "decomposition")
-	if err := a.write(g, nil); err != nil {
+	g, err := listMember(parent, d.Name, pos, &dc, "decomposition", nil)
+	if err != nil {
 		return err
 	}
+	defer g.Close()
 	n := len(d.Units)
 	ids := make([]int64, n)
 	counts := make([]int64, n)
