@@ -113,6 +113,20 @@ func (sp *blockSpec) parse(b *block) {
 	}
 }
 
+// decimalDigits appends the decimal digits of l from i on to m and returns
+// the index after them (small enough for the compiler to inline).
+func decimalDigits(l []byte, i int, m uint64) (int, uint64) {
+	for i < len(l) {
+		c := l[i] - '0'
+		if c > 9 {
+			break
+		}
+		m = m*10 + uint64(c)
+		i++
+	}
+	return i, m
+}
+
 // fastCell reads a plain decimal ("-12.345", "7") starting at pos and
 // ending at the delimiter or the end of the line: no blanks, quotes,
 // exponents or more than 19 digits. ok is false for anything else, and the
@@ -124,27 +138,13 @@ func fastCell(l []byte, pos int, delim, sep byte) (m uint64, frac int, neg, hasS
 		i++
 	}
 	start := i
-	for i < len(l) {
-		c := l[i] - '0'
-		if c > 9 {
-			break
-		}
-		m = m*10 + uint64(c)
-		i++
-	}
+	i, m = decimalDigits(l, i, m)
 	digits := i - start
 	if i < len(l) && l[i] == sep {
 		hasSep = true
 		i++
 		fs := i
-		for i < len(l) {
-			c := l[i] - '0'
-			if c > 9 {
-				break
-			}
-			m = m*10 + uint64(c)
-			i++
-		}
+		i, m = decimalDigits(l, i, m)
 		frac = i - fs
 		digits += frac
 	}
@@ -520,6 +520,21 @@ func (p *pipeline) next() (*block, error) {
 }
 
 // release gives a block's memory back to the reader.
+// each calls fn with every block in order, releasing each after fn, and
+// stops at the first error.
+func (p *pipeline) each(fn func(*block) error) error {
+	for {
+		b, err := p.next()
+		if err != nil || b == nil {
+			return err
+		}
+		if err := fn(b); err != nil {
+			return err
+		}
+		p.release(b)
+	}
+}
+
 func (p *pipeline) release(b *block) {
 	select {
 	case p.free <- b:

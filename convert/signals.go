@@ -314,14 +314,7 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 	defer p.close()
 	var timeDec int
 	timeFrac := false
-	for {
-		b, err := p.next()
-		if err != nil {
-			return err
-		}
-		if b == nil {
-			break
-		}
+	err = p.each(func(b *block) error {
 		s.Rows += b.rows
 		timeDec = max(timeDec, b.timeDec)
 		timeFrac = timeFrac || b.timeFrac
@@ -330,7 +323,10 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 				return err
 			}
 		}
-		p.release(b)
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	if s.Rows == 0 {
 		return perr(s.File, s.lay.bodyLine, 0, "the file needs at least one row of numbers under the header", "no data rows")
@@ -464,17 +460,13 @@ func (s *Signals) Decide() error {
 	p := startPipeline(s.spec(modeScan, s.forced == record.Float32), s.lay.bodyOffset, s.lay.bodyLine)
 	defer p.close()
 	rows := 0
-	for {
-		b, err := p.next()
-		if err != nil {
-			return err
-		}
-		if b == nil {
-			break
-		}
+	err := p.each(func(b *block) error {
 		rows += b.rows
 		s.mergeStats(b)
-		p.release(b)
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	if rows != s.Rows {
 		return fmt.Errorf("%s: %d rows, %d in the first pass (did it change while it was read?)", s.File, rows, s.Rows)
