@@ -89,34 +89,27 @@ func (d *Dataset) Len() int {
 	return d.Shape[0]
 }
 
+// firstElem points at a slice's first element, nil when it is empty.
+func firstElem[T any](x []T) unsafe.Pointer {
+	if len(x) == 0 {
+		return nil
+	}
+	return unsafe.Pointer(&x[0])
+}
+
 // numeric maps a Go slice to HDF5 memory and file types and a data pointer.
 func numeric(v any) (mem, file C.hid_t, n int, p unsafe.Pointer, ok bool) {
 	switch x := v.(type) {
 	case []float64:
-		mem, file, n = C.H5T_NATIVE_DOUBLE_g, C.H5T_IEEE_F64LE_g, len(x)
-		if n > 0 {
-			p = unsafe.Pointer(&x[0])
-		}
+		mem, file, n, p = C.H5T_NATIVE_DOUBLE_g, C.H5T_IEEE_F64LE_g, len(x), firstElem(x)
 	case []float32:
-		mem, file, n = C.H5T_NATIVE_FLOAT_g, C.H5T_IEEE_F32LE_g, len(x)
-		if n > 0 {
-			p = unsafe.Pointer(&x[0])
-		}
+		mem, file, n, p = C.H5T_NATIVE_FLOAT_g, C.H5T_IEEE_F32LE_g, len(x), firstElem(x)
 	case []int64:
-		mem, file, n = C.H5T_NATIVE_INT64_g, C.H5T_STD_I64LE_g, len(x)
-		if n > 0 {
-			p = unsafe.Pointer(&x[0])
-		}
+		mem, file, n, p = C.H5T_NATIVE_INT64_g, C.H5T_STD_I64LE_g, len(x), firstElem(x)
 	case []int32:
-		mem, file, n = C.H5T_NATIVE_INT32_g, C.H5T_STD_I32LE_g, len(x)
-		if n > 0 {
-			p = unsafe.Pointer(&x[0])
-		}
+		mem, file, n, p = C.H5T_NATIVE_INT32_g, C.H5T_STD_I32LE_g, len(x), firstElem(x)
 	case []uint8:
-		mem, file, n = C.H5T_NATIVE_UINT8_g, C.H5T_STD_U8LE_g, len(x)
-		if n > 0 {
-			p = unsafe.Pointer(&x[0])
-		}
+		mem, file, n, p = C.H5T_NATIVE_UINT8_g, C.H5T_STD_U8LE_g, len(x), firstElem(x)
 	default:
 		return 0, 0, 0, nil, false
 	}

@@ -34,10 +34,6 @@ const AttrMetadataSHA256 = "metadata_sha256"
 // big-endian}, arrays JSON arrays (flattened in storage order), values of
 // other types null.
 func CanonicalMetadata(objs []h5.MetaObject) []byte {
-	type entry struct {
-		key []rune
-		val []byte
-	}
 	ents := make([]entry, 0, len(objs))
 	for _, o := range objs {
 		var b []byte
@@ -49,15 +45,7 @@ func CanonicalMetadata(objs []h5.MetaObject) []byte {
 			}
 			attrs = append(attrs, entry{decodeEscaped(a.Name), canonicalValue(nil, a.Value)})
 		}
-		slices.SortFunc(attrs, func(x, y entry) int { return slices.Compare(x.key, y.key) })
-		for i, a := range attrs {
-			if i > 0 {
-				b = append(b, ',')
-			}
-			b = appendJSONString(b, a.key)
-			b = append(b, ':')
-			b = append(b, a.val...)
-		}
+		b = appendSortedMembers(b, attrs)
 		b = append(b, '}')
 		if o.StringDataset {
 			b = append(b, `,"strings":`...)
@@ -66,17 +54,29 @@ func CanonicalMetadata(objs []h5.MetaObject) []byte {
 		b = append(b, '}')
 		ents = append(ents, entry{decodeEscaped(o.Path), b})
 	}
+	return append(appendSortedMembers([]byte{'{'}, ents), '}')
+}
+
+// entry is one member of a canonical JSON object: its key as code points
+// (the order keys sort in) and its value's JSON text.
+type entry struct {
+	key []rune
+	val []byte
+}
+
+// appendSortedMembers appends the members of an object, sorted by key
+// code points and separated by commas, to b.
+func appendSortedMembers(b []byte, ents []entry) []byte {
 	slices.SortFunc(ents, func(x, y entry) int { return slices.Compare(x.key, y.key) })
-	out := []byte{'{'}
 	for i, e := range ents {
 		if i > 0 {
-			out = append(out, ',')
+			b = append(b, ',')
 		}
-		out = appendJSONString(out, e.key)
-		out = append(out, ':')
-		out = append(out, e.val...)
+		b = appendJSONString(b, e.key)
+		b = append(b, ':')
+		b = append(b, e.val...)
 	}
-	return append(out, '}')
+	return b
 }
 
 // MetadataDigest is the lowercase hex SHA-256 of CanonicalMetadata(objs).
