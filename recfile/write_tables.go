@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"muarc/h5"
+	"muarc/internal/fieldbind"
 	"muarc/record"
 	"muarc/schema"
 )
@@ -145,16 +146,27 @@ func writeDecomposition(parent *h5.Group, d *record.Decomposition, pos int) erro
 	return writeDerived(g, d)
 }
 
-// unitFigures lists a unit's figures in unitColumns order.
+// unitFigures lists a unit's figures in unitColumns order: the number
+// fields of the registry's unit group that record.Unit holds.
 func unitFigures(u *record.Unit) []float64 {
-	return []float64{u.Silhouette, u.PNRdB, u.AccuracyPct, u.ISICoV,
-		u.RecruitPctMVC, u.DerecruitPctMVC, u.InitialRatePPS, u.MeanRatePPS}
+	var out []float64
+	for _, b := range fieldbind.Bind(u, "unit") {
+		if b.Field.Kind == schema.KindNumber {
+			out = append(out, b.Get().(float64))
+		}
+	}
+	return out
 }
 
 // setUnitFigures is the inverse of unitFigures.
 func setUnitFigures(u *record.Unit, v []float64) {
-	u.Silhouette, u.PNRdB, u.AccuracyPct, u.ISICoV = v[0], v[1], v[2], v[3]
-	u.RecruitPctMVC, u.DerecruitPctMVC, u.InitialRatePPS, u.MeanRatePPS = v[4], v[5], v[6], v[7]
+	i := 0
+	for _, b := range fieldbind.Bind(u, "unit") {
+		if b.Field.Kind == schema.KindNumber {
+			b.Set(v[i])
+			i++
+		}
+	}
 }
 
 func writeProvenance(root *h5.Group, p record.Provenance) error {

@@ -313,29 +313,29 @@ type Unit struct {
 	// ID is the unit's identifier within the decomposition (unique). muarc
 	// assigns it (import numbers units 1..N in file order); it is never
 	// read out of the digits of a label.
-	ID int64
+	ID int64 `layout:"id"`
 	// Label is the unit's name exactly as the lab wrote it ("MU 7", "1.5",
 	// "07"); empty when the source gave none (and in layout 1.0 files).
-	Label string
+	Label string `layout:"label"`
 	// Discharges are sample indices (0-based) into the array's samples,
 	// sorted ascending.
 	Discharges []int64
 	// Silhouette is the silhouette measure of the unit's source, 0..1.
-	Silhouette float64
+	Silhouette float64 `layout:"silhouette"`
 	// PNRdB is the pulse-to-noise ratio in decibels.
-	PNRdB float64
+	PNRdB float64 `layout:"pnr_db"`
 	// AccuracyPct is the decomposition accuracy the method reports, in %.
-	AccuracyPct float64
+	AccuracyPct float64 `layout:"accuracy_pct"`
 	// ISICoV is the coefficient of variation of inter-discharge intervals
 	// (dimensionless).
-	ISICoV float64
+	ISICoV float64 `layout:"isi_cov"`
 	// RecruitPctMVC and DerecruitPctMVC are the force at the first and last
 	// discharge in % MVC.
-	RecruitPctMVC   float64
-	DerecruitPctMVC float64
+	RecruitPctMVC   float64 `layout:"recruit_pct_mvc"`
+	DerecruitPctMVC float64 `layout:"derecruit_pct_mvc"`
 	// InitialRatePPS and MeanRatePPS are discharge rates in pulses per second.
-	InitialRatePPS float64
-	MeanRatePPS    float64
+	InitialRatePPS float64 `layout:"initial_rate_pps"`
+	MeanRatePPS    float64 `layout:"mean_rate_pps"`
 }
 
 // Name is the label, or the id as text when the unit has no label: what a
