@@ -13,6 +13,7 @@ import (
 	"muarc/internal/atomicfile"
 	"muarc/recfile"
 	"muarc/record"
+	"muarc/schema"
 )
 
 // ExportOptions control Export.
@@ -399,16 +400,21 @@ func writeDischarges(w *bufio.Writer, dc *record.Decomposition, shape string, sa
 	return nil
 }
 
-var fieldHeads = map[string]string{
-	FieldSilhouette: "silhouette", FieldPNR: "pnr_db [dB]", FieldAccuracy: "accuracy_pct [%]", FieldISICoV: "isi_cov",
-	FieldRecruit: "recruit_pct_mvc [%]", FieldDerecruit: "derecruit_pct_mvc [%]", FieldInitialRate: "initial_rate_pps [/s]", FieldMeanRate: "mean_rate_pps [/s]",
+// fieldHead is a figure's column head: its name and, for a quantity with a
+// unit (the registry's), the unit in brackets.
+func fieldHead(name string) string {
+	f, _ := schema.FieldByPath(schema.GroupByName("unit").Prefix + "." + name)
+	if f.Unit == "" || f.Unit == "1" {
+		return name
+	}
+	return bracket(name, f.Unit)
 }
 
 func writeUnits(w *bufio.Writer, dc *record.Decomposition, d byte) error {
 	ds := string(d)
 	w.WriteString("unit" + ds + StoredIDColumn)
 	for _, f := range unitFields {
-		w.WriteString(ds + fieldHeads[f])
+		w.WriteString(ds + fieldHead(f))
 	}
 	for _, c := range dc.ExtraColumns {
 		w.WriteString(ds + bracket(c.Name, c.Unit))

@@ -6,10 +6,14 @@ import (
 	"strconv"
 	"strings"
 
+	"muarc/internal/fieldbind"
 	"muarc/record"
+	"muarc/schema"
 )
 
-// Layout fields of a unit table (the dataset names under units/).
+// Layout fields of a unit table (the dataset names under units/): names of
+// the registry's unit group (schema.Fields), spelled here for the header
+// spellings below; unittable_test.go checks each against the registry.
 const (
 	FieldID          = "id"
 	FieldSilhouette  = "silhouette"
@@ -276,48 +280,35 @@ func ReadUnitTable(path string, opt UnitTableOptions) (*UnitTable, error) {
 	return ut, nil
 }
 
+// setField sets the figure f (a registry name of the unit group) of u.
 func setField(u *record.Unit, f string, v float64) {
-	switch f {
-	case FieldSilhouette:
-		u.Silhouette = v
-	case FieldPNR:
-		u.PNRdB = v
-	case FieldAccuracy:
-		u.AccuracyPct = v
-	case FieldISICoV:
-		u.ISICoV = v
-	case FieldRecruit:
-		u.RecruitPctMVC = v
-	case FieldDerecruit:
-		u.DerecruitPctMVC = v
-	case FieldInitialRate:
-		u.InitialRatePPS = v
-	case FieldMeanRate:
-		u.MeanRatePPS = v
+	for _, b := range fieldbind.Bind(u, "unit") {
+		if b.Name() == f {
+			b.Set(v)
+		}
 	}
 }
 
+// getField is figure f of u; NaN for a name that is not a figure.
 func getField(u *record.Unit, f string) float64 {
-	switch f {
-	case FieldSilhouette:
-		return u.Silhouette
-	case FieldPNR:
-		return u.PNRdB
-	case FieldAccuracy:
-		return u.AccuracyPct
-	case FieldISICoV:
-		return u.ISICoV
-	case FieldRecruit:
-		return u.RecruitPctMVC
-	case FieldDerecruit:
-		return u.DerecruitPctMVC
-	case FieldInitialRate:
-		return u.InitialRatePPS
-	case FieldMeanRate:
-		return u.MeanRatePPS
+	for _, b := range fieldbind.Bind(u, "unit") {
+		if b.Name() == f && b.Field.Kind == schema.KindNumber {
+			return b.Get().(float64)
+		}
 	}
 	return math.NaN()
 }
 
-// unitFields lists the figure fields in layout order.
-var unitFields = []string{FieldSilhouette, FieldPNR, FieldAccuracy, FieldISICoV, FieldRecruit, FieldDerecruit, FieldInitialRate, FieldMeanRate}
+// unitFields lists the figure fields in layout order: the number fields of
+// the registry's unit group.
+var unitFields = unitFigureFields()
+
+func unitFigureFields() []string {
+	var out []string
+	for _, f := range schema.FieldsOf("unit") {
+		if f.Kind == schema.KindNumber {
+			out = append(out, f.Name)
+		}
+	}
+	return out
+}
