@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -39,6 +40,8 @@ func registrySidecar(flag bool) map[string]any {
 			}
 			var v any
 			switch {
+			case f.Enum != nil && f.Kind == schema.KindNumber:
+				v, _ = strconv.ParseFloat(f.Enum[len(f.Enum)-1], 64)
 			case f.Enum != nil:
 				v = f.Enum[len(f.Enum)-1]
 			case f.Kind == schema.KindString:
@@ -60,7 +63,7 @@ func registrySidecar(flag bool) map[string]any {
 			case f.Kind == schema.KindBoolean:
 				v = flag
 			case f.Kind == schema.KindJSON:
-				v = map[string]any{"iterations": 40.0, "group": sg.group}
+				v = map[string]any{sg.group + "_step": map[string]any{"order": 4.0, "field": f.Name}}
 			default:
 				panic("no sidecar value for kind " + f.Kind)
 			}

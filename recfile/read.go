@@ -198,14 +198,20 @@ func (g *attrGet) required(name string) {
 
 // fields reads the registry fields of group into the model struct *ptr
 // (schema.Fields through internal/fieldbind), each with the type its kind
-// gives: NaN for an absent number, the zero value for anything else. Group
+// gives; an absent one takes the model's "not known" (SetUnknown). Group
 // names (KindName) are the HDF5 link name, not an attribute.
 func (g *attrGet) fields(ptr any, group string) {
 	for _, b := range fieldbind.Bind(ptr, group) {
+		if b.Field.Kind == schema.KindName {
+			continue
+		}
+		if _, ok := g.m[b.Name()]; !ok {
+			g.used[b.Name()] = true
+			b.SetUnknown()
+			continue
+		}
 		var v any
 		switch b.Field.Kind {
-		case schema.KindName:
-			continue
 		case schema.KindNumber:
 			v = g.num(b.Name())
 		case schema.KindInteger:

@@ -136,9 +136,10 @@ func (b Value) Set(x any) error {
 }
 
 // SetUnknown stores the value the model uses for "not known": NaN for a
-// number, the zero value otherwise.
+// number, the zero value otherwise (also for a number with enumerated
+// values, such as power_line_hz, whose model field keeps 0 for unknown).
 func (b Value) SetUnknown() {
-	if b.v.Kind() == reflect.Float64 {
+	if b.v.Kind() == reflect.Float64 && b.Field.Enum == nil {
 		b.v.SetFloat(math.NaN())
 		return
 	}
@@ -160,7 +161,8 @@ func number(x any) (float64, bool) {
 }
 
 // Known reports whether the value is one the layout stores: a string not
-// empty, a number not NaN, a boolean; an integer attribute that is not
+// empty, a number not NaN (nor 0 for a number with enumerated values,
+// whose unknown is 0), a boolean; an integer attribute that is not
 // required (adc_bits) is not known when 0. Integer table columns (a
 // channel's row 0) and required fields count as known always.
 func (b Value) Known() bool {
@@ -168,7 +170,8 @@ func (b Value) Known() bool {
 	case reflect.String:
 		return b.v.String() != ""
 	case reflect.Float64:
-		return !math.IsNaN(b.v.Float())
+		f := b.v.Float()
+		return !math.IsNaN(f) && !(f == 0 && b.Field.Enum != nil)
 	case reflect.Int, reflect.Int32, reflect.Int64:
 		return b.v.Int() != 0 || b.Field.Required || schema.GroupByName(b.Field.Group).Table
 	}
