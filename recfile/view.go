@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"muarc/h5"
+	"muarc/schema"
 )
 
 // MetadataView builds the JSON metadata view of a file straight from its
@@ -74,7 +75,7 @@ func MetadataViewOf(f *h5.File) (map[string]any, error) {
 		}
 		if h, ok := p[grpHistory].([]any); ok {
 			for _, r := range h {
-				parseJSONField(r.(map[string]any), "details")
+				parseJSONFields(r.(map[string]any), "history")
 			}
 		}
 		view["provenance"] = p
@@ -155,7 +156,7 @@ func viewTrial(g *h5.Group, m map[string]any) error {
 }
 
 func viewArray(g *h5.Group, m map[string]any) error {
-	parseJSONField(m, "software_filters")
+	parseJSONFields(m, "array")
 	if g.Has(dsSamples) {
 		d, err := g.OpenDataset(dsSamples, 0)
 		if err != nil {
@@ -188,7 +189,7 @@ func viewArray(g *h5.Group, m map[string]any) error {
 }
 
 func viewDecomposition(g *h5.Group, m map[string]any) error {
-	parseJSONField(m, "parameters")
+	parseJSONFields(m, "decomposition")
 	if g.Has(grpUnits) {
 		if err := subgroup(g, grpUnits, func(u *h5.Group) error {
 			rows, err := tableRows(u)
@@ -207,7 +208,7 @@ func viewDecomposition(g *h5.Group, m map[string]any) error {
 			if err := attrsInto(dv, d); err != nil {
 				return err
 			}
-			parseJSONField(dv, attrMethod)
+			parseJSONFields(dv, "derived")
 			if d.Has(grpUnits) {
 				if err := subgroup(d, grpUnits, func(u *h5.Group) error {
 					rows, err := tableRows(u)
@@ -249,14 +250,21 @@ func viewMUAPs(g *h5.Group, m map[string]any) error {
 	return nil
 }
 
-func parseJSONField(m map[string]any, key string) {
-	s, ok := m[key].(string)
-	if !ok {
-		return
-	}
-	var v any
-	if json.Unmarshal([]byte(s), &v) == nil {
-		m[key] = v
+// parseJSONFields replaces the JSON-text fields of a registry group
+// (schema.KindJSON) that hold valid JSON by the value they encode.
+func parseJSONFields(m map[string]any, group string) {
+	for _, f := range schema.FieldsOf(group) {
+		if f.Kind != schema.KindJSON {
+			continue
+		}
+		s, ok := m[f.Name].(string)
+		if !ok {
+			continue
+		}
+		var v any
+		if json.Unmarshal([]byte(s), &v) == nil {
+			m[f.Name] = v
+		}
 	}
 }
 

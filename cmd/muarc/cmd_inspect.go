@@ -189,7 +189,9 @@ func printInspection(w io.Writer, ins *inspection) {
 }
 
 // keyAttrs picks the attributes worth a line in the tree, in a fixed order:
-// units, rates and levels, not every free-text field.
+// units, rates and levels, not every free-text field. The names are the
+// layout's (schema.Fields); the list is a choice of what to show, so it is
+// spelled here.
 func keyAttrs(m map[string]any) []string {
 	var out []string
 	for _, k := range []string{"layout", "layout_version", "created", "software", "id", "muscle", "side", "rows", "columns", "ied_mm",
