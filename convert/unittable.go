@@ -301,14 +301,4 @@ func getField(u *record.Unit, f string) float64 {
 
 // unitFields lists the figure fields in layout order: the number fields of
 // the registry's unit group.
-var unitFields = unitFigureFields()
-
-func unitFigureFields() []string {
-	var out []string
-	for _, f := range schema.FieldsOf("unit") {
-		if f.Kind == schema.KindNumber {
-			out = append(out, f.Name)
-		}
-	}
-	return out
-}
+var unitFields = schema.FieldNamesOfKind("unit", schema.KindNumber)

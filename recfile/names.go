@@ -42,17 +42,7 @@ const (
 
 // unitColumns are the fixed unit-table figure columns after id and
 // discharge_count, in order (from the field registry).
-var unitColumns = unitFigureNames()
-
-func unitFigureNames() []string {
-	var out []string
-	for _, f := range schema.FieldsOf("unit") {
-		if f.Kind == schema.KindNumber {
-			out = append(out, f.Name)
-		}
-	}
-	return out
-}
+var unitColumns = schema.FieldNamesOfKind("unit", schema.KindNumber)
 
 // reserved lists the names a group's Extra may not use, per group kind
 // (from the field registry).

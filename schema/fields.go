@@ -216,6 +216,18 @@ func FieldNames(group string, attrsOnly bool) []string {
 	return out
 }
 
+// FieldNamesOfKind returns the names of a group's fields of one kind in
+// registry order, e.g. the unit table's figures (KindNumber of "unit").
+func FieldNamesOfKind(group string, kind Kind) []string {
+	var out []string
+	for _, f := range FieldsOf(group) {
+		if f.Kind == kind {
+			out = append(out, f.Name)
+		}
+	}
+	return out
+}
+
 // FieldByPath returns the field with the given policy-form path.
 func FieldByPath(path string) (Field, bool) {
 	for _, f := range Fields {
