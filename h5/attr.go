@@ -264,31 +264,19 @@ func readAttr(o *obj, a C.hid_t) (Attr, error) {
 		for i := range bs {
 			bs[i] = vals[i] != 0
 		}
-		if scalar {
-			at.Value = bs[0]
-		} else {
-			at.Value = bs
-		}
+		at.Value = scalarOrSlice(bs, count, scalar)
 	case len(at.Type) > 3 && (at.Type[:3] == "int" || at.Type[:4] == "uint"):
 		vals := make([]int64, max(count, 1))
 		if C.muarc_attr_read(a, C.H5T_NATIVE_INT64_g, unsafe.Pointer(&vals[0])) < 0 {
 			return at, fail(o.file, o.path, opname)
 		}
-		if scalar {
-			at.Value = vals[0]
-		} else {
-			at.Value = vals[:count]
-		}
+		at.Value = scalarOrSlice(vals, count, scalar)
 	case len(at.Type) > 5 && at.Type[:5] == "float":
 		vals := make([]float64, max(count, 1))
 		if C.muarc_attr_read(a, C.H5T_NATIVE_DOUBLE_g, unsafe.Pointer(&vals[0])) < 0 {
 			return at, fail(o.file, o.path, opname)
 		}
-		if scalar {
-			at.Value = vals[0]
-		} else {
-			at.Value = vals[:count]
-		}
+		at.Value = scalarOrSlice(vals, count, scalar)
 	default:
 		at.Value = nil // a type muarc does not write; reported by Type
 	}
@@ -309,4 +297,13 @@ func AttrMap(as []Attr) map[string]Attr {
 		m[a.Name] = a
 	}
 	return m
+}
+
+// scalarOrSlice is an attribute's value: its one element when the
+// attribute is scalar, else its count elements.
+func scalarOrSlice[T any](vals []T, count int, scalar bool) any {
+	if scalar {
+		return vals[0]
+	}
+	return vals[:count]
 }

@@ -43,14 +43,20 @@ func (m *MemSamples) ReadFloat32(start int, dst []float32) error {
 	if err != nil {
 		return err
 	}
-	if m.F32 != nil {
-		copy(dst, m.F32[a:b])
-		return nil
-	}
-	for i, v := range m.F64[a:b] {
-		dst[i] = float32(v)
-	}
+	convertInto(dst, m.F32, m.F64, a, b)
 	return nil
+}
+
+// convertInto fills dst with elements a..b of same when it is set, else of
+// other converted.
+func convertInto[D, S float32 | float64](dst, same []D, other []S, a, b int) {
+	if same != nil {
+		copy(dst, same[a:b])
+		return
+	}
+	for i, v := range other[a:b] {
+		dst[i] = D(v)
+	}
 }
 
 // ReadFloat64 implements SampleSource.
@@ -59,12 +65,6 @@ func (m *MemSamples) ReadFloat64(start int, dst []float64) error {
 	if err != nil {
 		return err
 	}
-	if m.F64 != nil {
-		copy(dst, m.F64[a:b])
-		return nil
-	}
-	for i, v := range m.F32[a:b] {
-		dst[i] = float64(v)
-	}
+	convertInto(dst, m.F64, m.F32, a, b)
 	return nil
 }
