@@ -180,14 +180,14 @@ func (sc *Sidecar) Apply(rec *record.Recording) error {
 		rec.Session.Extra, err = fill(&rec.Session, "session", m, err)
 	}
 	for _, m := range objects(v["trials"]) {
-		t := trialNamed(rec, str(m, groupName))
+		t := trialNamed(rec, str(m, nameMember))
 		t.Extra, err = fill(t, "trial", m, err, "arrays")
 		if fm, ok := m["force"].(map[string]any); ok {
 			// The force trace's rate, start and unit: defaults for its file.
 			_, err = fill(&t.Force, "signal", fm, err)
 		}
 		for _, am := range objects(m["arrays"]) {
-			a := arrayNamed(t, str(am, groupName))
+			a := arrayNamed(t, str(am, nameMember))
 			a.Extra, err = fill(a, "array", am, err, "channels", "decompositions")
 			if chs, ok := am["channels"].([]any); ok {
 				a.Channels = a.Channels[:0]
@@ -199,7 +199,7 @@ func (sc *Sidecar) Apply(rec *record.Recording) error {
 				}
 			}
 			for _, dm := range objects(am["decompositions"]) {
-				_, err = fill(decompNamed(a, str(dm, groupName)), "decomposition", dm, err, "units", "derived")
+				_, err = fill(decompNamed(a, str(dm, nameMember)), "decomposition", dm, err, "units", "derived")
 			}
 		}
 	}
@@ -242,9 +242,9 @@ func fill(ptr any, group string, m map[string]any, prev error, containers ...str
 	return extras(m, known...), err
 }
 
-// groupName is the member that names a trial, array or decomposition (the
+// nameMember is the member that names a trial, array or decomposition (the
 // registry's KindName field of those groups): the key they are matched by.
-const groupName = "name"
+const nameMember = "name"
 
 func str(m map[string]any, k string) string {
 	s, _ := m[k].(string)
