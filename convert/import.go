@@ -11,7 +11,6 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
-	"strconv"
 	"strings"
 	"time"
 
@@ -352,160 +351,6 @@ func sourceFile(path, rel, role string) (record.SourceFile, error) {
 	return record.SourceFile{Name: rel, Role: role, SHA256: hex.EncodeToString(h.Sum(nil)), Bytes: n}, nil
 }
 
-func (pl *Plan) arrayOf(it input) (*record.Array, error) {
-	for ti := range pl.Rec.Trials {
-		t := &pl.Rec.Trials[ti]
-		if t.Name != it.trial {
-			continue
-		}
-		for ai := range t.Arrays {
-			if t.Arrays[ai].Name == it.array && t.Arrays[ai].Samples != nil {
-				return &t.Arrays[ai], nil
-			}
-		}
-	}
-	return nil, perr(it.path, 0, 0, "give the EMG file of the array too (--emg)", "no EMG for trial %q array %q", it.trial, it.array)
-}
-
-func (pl *Plan) discharges(it input, prof *Profile) error {
-	a, err := pl.arrayOf(it)
-	if err != nil {
-		return err
-	}
-	rows, _ := a.Samples.Shape()
-	dc, err := ReadDischarges(it.path, Grid{RateHz: a.SamplingRateHz, StartS: a.StartS, Samples: rows}, prof.dischargeOptions())
-	if err != nil {
-		return err
-	}
-	d := decompNamed(a, it.dc)
-	byLabel := map[string]int{}
-	for i, u := range d.Units {
-		if u.Label != "" {
-			byLabel[u.Label] = i
-		}
-	}
-	count := 0
-	for _, tr := range dc.Units {
-		if i, ok := byLabel[tr.Label]; ok && tr.Label != "" {
-			d.Units[i].Discharges = tr.Discharges
-		} else {
-			u := record.NewUnit(nextUnitID(d))
-			u.Label = tr.Label
-			u.Discharges = tr.Discharges
-			d.Units = append(d.Units, u)
-		}
-		count += len(tr.Discharges)
-	}
-	pl.Report.Files = append(pl.Report.Files, FileReport{Name: it.rel, Role: "discharges", Trial: it.trial, Array: a.Name, Decomposition: d.Name,
-		Units: len(dc.Units), Discharges: count, Notes: dc.Notes})
-	return nil
-}
-
-func (pl *Plan) units(it input, prof *Profile) error {
-	a, err := pl.arrayOf(it)
-	if err != nil {
-		return err
-	}
-	// Unit tables have their own dialect (units.delimiter, units.decimal_comma);
-	// the signal files' settings do not apply to them.
-	d, _ := ParseDelimiter(prof.Units.Delimiter)
-	ut, err := ReadUnitTable(it.path, UnitTableOptions{TextOptions: TextOptions{Delimiter: d, DecimalComma: prof.Units.DecimalComma}, Columns: prof.Units.Columns, AllowOutOfRange: prof.allowOutOfRange()})
-	if err != nil {
-		return err
-	}
-	dec := decompNamed(a, it.dc)
-	notes := append([]string(nil), ut.Notes...)
-	// Units are matched by label as written. A discharge file without
-	// labels numbered its units 1..N: then a table label that is exactly
-	// such a number names that unit.
-	idx := map[string]int{}
-	unlabelled := len(dec.Units) > 0
-	for i, u := range dec.Units {
-		if u.Label != "" {
-			idx[u.Label] = i
-			unlabelled = false
-		}
-	}
-	if unlabelled {
-		for i, u := range dec.Units {
-			idx[strconv.FormatInt(u.ID, 10)] = i
-		}
-		notes = append(notes, fmt.Sprintf("the discharge file has no unit labels: the table's units were matched to units 1..%d in the discharge file's order by their number", len(dec.Units)))
-	}
-	if len(idx) > 0 && len(ut.Units) > 0 {
-		matched := false
-		for _, u := range ut.Units {
-			_, ok := idx[u.Label]
-			matched = matched || ok
-		}
-		if !matched {
-			var have []string
-			for _, u := range dec.Units {
-				have = append(have, u.Name())
-				if len(have) == 5 {
-					break
-				}
-			}
-			return perr(it.path, 0, 0, "write each unit's label the same way in both files (muarc matches labels as written, never by the digits in them)",
-				"no unit of the table (first %q) is among the discharge file's units (%s)", ut.Units[0].Label, strings.Join(have, ", "))
-		}
-	}
-	rowOf := map[int64]int{}
-	for r, u := range ut.Units {
-		if i, ok := idx[u.Label]; ok {
-			u.ID = dec.Units[i].ID
-			u.Discharges = dec.Units[i].Discharges
-			dec.Units[i] = u
-		} else {
-			u.ID = nextUnitID(dec)
-			idx[u.Label] = len(dec.Units)
-			dec.Units = append(dec.Units, u)
-			notes = append(notes, fmt.Sprintf("unit %q has figures but no discharges", u.Label))
-		}
-		rowOf[u.ID] = r
-	}
-	if ut.StoredIDs != nil {
-		// The ids an export wrote (muarc_id) come back.
-		rowOf = map[int64]int{}
-		for r, u := range ut.Units {
-			dec.Units[idx[u.Label]].ID = ut.StoredIDs[r]
-			rowOf[ut.StoredIDs[r]] = r
-		}
-		seen := map[int64]string{}
-		for _, u := range dec.Units {
-			if l, dup := seen[u.ID]; dup {
-				return perr(it.path, 0, 0, "give every unit of the decomposition its own muarc_id, or drop the column", "muarc_id %d names units %q and %q", u.ID, l, u.Name())
-			}
-			seen[u.ID] = u.Name()
-		}
-		notes = append(notes, "unit ids from the muarc_id column")
-	}
-	// Extra columns in the decomposition's unit order.
-	for _, c := range ut.Extra {
-		col := record.Column{Name: c.Name, Unit: c.Unit}
-		for _, u := range dec.Units {
-			r, ok := rowOf[u.ID]
-			if c.Values != nil {
-				v := math.NaN()
-				if ok {
-					v = c.Values[r]
-				}
-				col.Values = append(col.Values, v)
-			} else {
-				s := ""
-				if ok {
-					s = c.Text[r]
-				}
-				col.Text = append(col.Text, s)
-			}
-		}
-		dec.ExtraColumns = append(dec.ExtraColumns, col)
-	}
-	pl.Report.Files = append(pl.Report.Files, FileReport{Name: it.rel, Role: "units", Trial: it.trial, Array: a.Name, Decomposition: dec.Name,
-		Units: len(ut.Units), Notes: notes})
-	return nil
-}
-
 // finish checks what the files left open: arrays without EMG, units
 // without figures, extra columns shorter than the unit list.
 func (pl *Plan) finish() error {
@@ -609,13 +454,4 @@ func matches(re *regexp.Regexp, s string) bool {
 		return false
 	}
 	return re.MatchString(s)
-}
-
-// nextUnitID is the id for a unit added to d: one more than the largest.
-func nextUnitID(d *record.Decomposition) int64 {
-	var m int64
-	for _, u := range d.Units {
-		m = max(m, u.ID)
-	}
-	return m + 1
 }
