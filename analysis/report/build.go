@@ -64,7 +64,8 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 // goes: each recording's section, its figures included, is written as soon
 // as it is made and only its verdict, tables and notes are kept, so memory
 // does not grow with the figures of a large study. The returned page
-// holds every section without the figures' drawings (captions kept).
+// holds every section and the study figures without their drawings
+// (captions kept).
 func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 	p, b, err := begin(dir, opt)
 	if err != nil {
@@ -77,6 +78,11 @@ func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 	}
 	if err := renderHead(w, p); err != nil {
 		return nil, err
+	}
+	// The study figures (one line per subject) are written; only their
+	// captions are kept.
+	for k := range p.StudyFigures {
+		p.StudyFigures[k].SVG = nil
 	}
 	for i := range b.files {
 		s := b.section(i)
