@@ -2,6 +2,8 @@ package convert
 
 import (
 	"fmt"
+	"slices"
+	"sort"
 	"strings"
 )
 
@@ -122,6 +124,19 @@ func noReading(t *dischText, res []result, opt DischargeOptions) error {
 
 // ambiguous is the error when readings that fit store different values.
 func ambiguous(t *dischText, groups [][]*result, opt DischargeOptions) error {
+	// Readings no rule speaks against first; those a weak preference
+	// (every unit with at most one discharge, a header cell like numbers)
+	// speaks against after them.
+	weak := func(g []*result) bool {
+		for _, r := range g {
+			if r.soft == nil {
+				return false
+			}
+		}
+		return true
+	}
+	groups = slices.Clone(groups)
+	sort.SliceStable(groups, func(a, b int) bool { return !weak(groups[a]) && weak(groups[b]) })
 	if len(groups) > 4 {
 		groups = groups[:4]
 	}

@@ -45,7 +45,7 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 	if len(head) < len(t.lines) {
 		var again []reading
 		for _, r := range res {
-			if r.fail == nil && !(multi && r.soft != nil && !r.soft.unsorted) {
+			if r.fail == nil && (!multi || r.soft.fallback()) {
 				again = append(again, r.r)
 			}
 		}
@@ -62,20 +62,83 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 		}
 	}
 	var ok []*result
+	// A weak preference does not rule a reading out: readings that fit
+	// the text and store different values are refused, whichever of
+	// them such a rule would prefer.
 	for i := range res {
-		if res[i].fail == nil && !(multi && res[i].soft != nil) {
+		if f := res[i].soft; res[i].fail == nil && (!multi || f == nil || f.weak && !f.unsorted && weakRulesYield) {
 			ok = append(ok, &res[i])
 		}
 	}
+	// When no reading passes every rule, times out of order do not rule a
+	// reading out (sorted, with a note): the readings left are read only
+	// if they all store the same values, else refused naming them.
 	if len(ok) == 0 && multi {
-		// Times out of order in the file do not rule a reading out when
-		// no reading has them in order (they are sorted, with a note).
 		for i := range res {
-			if res[i].fail == nil && res[i].soft != nil && res[i].soft.unsorted {
+			if f := res[i].soft; res[i].fail == nil && f != nil && f.unsorted && (weakRulesYield || !f.weak) {
 				ok = append(ok, &res[i])
 			}
 		}
 	}
+	groups := groupResults(ok)
+	// Readings that store different values, where all but one group put
+	// some time off the sample grid by more than its digits allow: the
+	// digits decide (the sampling rate fits only one time base).
+	var byDigits *result
+	if len(groups) > 1 && weakRulesYield {
+		var on []*result
+		for _, r := range ok {
+			if r.offDigits == nil {
+				on = append(on, r)
+			} else if byDigits == nil {
+				byDigits = r
+			}
+		}
+		if g2 := groupResults(on); len(g2) == 1 {
+			groups = g2
+		} else {
+			byDigits = nil
+		}
+	}
+	switch {
+	case len(groups) == 0:
+		traceRefusal("no reading fits", nil)
+		return nil, noReading(t, res, opt)
+	case len(groups) > 1:
+		guess := true
+		for _, g := range groups {
+			for _, r := range g {
+				guess = guess && r.firstGuess
+			}
+		}
+		if guess {
+			traceRefusal("1-based only, not said", nil)
+			return nil, firstIndexGuess(t, res, groups[0][0], opt)
+		}
+		traceRefusal("readings differ", separating(groups))
+		return nil, ambiguous(t, groups, opt)
+	}
+	chosen := groups[0][0]
+	for _, r := range groups[0] {
+		if !r.firstGuess {
+			chosen = r
+			break
+		}
+	}
+	if chosen.firstGuess {
+		traceRefusal("1-based only, not said", nil)
+		return nil, firstIndexGuess(t, res, chosen, opt)
+	}
+	dc := accept(t, chosen, res, multi, opt, tol)
+	if byDigits != nil {
+		f := byDigits.offDigits
+		dc.Notes = append(dc.Notes, fmt.Sprintf("not %s: line %d: %s", byDigits.r.describe(), f.line, f.msg))
+	}
+	return dc, nil
+}
+
+// groupResults gathers readings that store the same values.
+func groupResults(ok []*result) [][]*result {
 	var groups [][]*result
 	for _, r := range ok {
 		placed := false
@@ -90,32 +153,18 @@ func ReadDischarges(path string, g Grid, opt DischargeOptions) (*Discharges, err
 			groups = append(groups, []*result{r})
 		}
 	}
-	switch {
-	case len(groups) == 0:
-		return nil, noReading(t, res, opt)
-	case len(groups) > 1:
-		guess := true
-		for _, g := range groups {
-			for _, r := range g {
-				guess = guess && r.firstGuess
-			}
-		}
-		if guess {
-			return nil, firstIndexGuess(t, res, groups[0][0], opt)
-		}
-		return nil, ambiguous(t, groups, opt)
+	return groups
+}
+
+// refusalTrace, when set (by the oracle's measurement), is told the kind
+// of each refusal and, for readings that differ, the options that tell
+// them apart.
+var refusalTrace func(kind string, dims []string)
+
+func traceRefusal(kind string, dims []string) {
+	if refusalTrace != nil {
+		refusalTrace(kind, dims)
 	}
-	chosen := groups[0][0]
-	for _, r := range groups[0] {
-		if !r.firstGuess {
-			chosen = r
-			break
-		}
-	}
-	if chosen.firstGuess {
-		return nil, firstIndexGuess(t, res, chosen, opt)
-	}
-	return accept(t, chosen, res, multi, opt, tol), nil
 }
 
 func checkDischargeOptions(path string, opt DischargeOptions) error {
@@ -157,6 +206,9 @@ type result struct {
 	// firstGuess is true for a 1-based reading neither given nor marked in
 	// the header: detection never picks 1-based on its own.
 	firstGuess bool
+	// offDigits names a time this reading puts off the sample grid by
+	// more than its digits allow.
+	offDigits *rfail
 }
 
 // dischargeReadings lists the readings the options leave open, the most
@@ -290,12 +342,37 @@ func evaluate(t *dischText, lines []dline, cands []reading, g Grid, tol float64)
 			if s.fail != nil {
 				res.fail = s.fail
 			} else {
-				res.units, res.fail, res.soft, res.offGrid, res.worst = place(&s, r, g, tol)
+				res.units, res.fail, res.soft, res.offGrid, res.worst, res.offDigits = place(&s, r, g, tol)
+				// The structure's own weak preference (a header cell like
+				// numbers) stays with the reading: alone, or over times out
+				// of order (then it takes the weak tier too); two
+				// discharges within 1 ms rule the reading out either way.
+				switch {
+				case s.soft == nil:
+				case res.soft == nil:
+					res.soft = s.soft
+				case res.soft.unsorted:
+					both := *res.soft
+					both.weak = true
+					res.soft = &both
+				}
 			}
 			out = append(out, res)
 		}
 	}
 	return out
+}
+
+// countFallback counts the readings that fit the text once the weak
+// preferences are set aside.
+func countFallback(all []result) int {
+	n := 0
+	for _, x := range all {
+		if x.fail == nil && (x.soft == nil || x.soft.unsorted || x.soft.weak) {
+			n++
+		}
+	}
+	return n
 }
 
 // timeReadings completes a structural reading with the time bases and
@@ -349,9 +426,12 @@ func accept(t *dischText, c *result, all []result, multi bool, opt DischargeOpti
 				n++
 			}
 		}
-		if n == 1 {
+		switch {
+		case n == 0:
+			why = fmt.Sprintf("detected: every one of the %d readings that fit the text stores these values", countFallback(all))
+		case n == 1:
 			why = fmt.Sprintf("detected: the only one of %d readings that fits", len(all))
-		} else {
+		default:
 			why = fmt.Sprintf("detected: %d of %d readings fit and store the same values", n, len(all))
 		}
 	}
@@ -369,7 +449,9 @@ func accept(t *dischText, c *result, all []result, multi bool, opt DischargeOpti
 	if t.comments > 0 {
 		dc.Notes = append(dc.Notes, fmt.Sprintf("%d comment lines read and not stored", t.comments))
 	}
-	if c.soft != nil {
+	if c.soft != nil && c.soft.weak && !c.soft.unsorted {
+		dc.Notes = append(dc.Notes, fmt.Sprintf("line %d: %s (read all the same: no other reading fits the text)", c.soft.line, c.soft.msg))
+	} else if c.soft != nil {
 		dc.Notes = append(dc.Notes, fmt.Sprintf("line %d: %s (kept; stored in ascending order)", c.soft.line, c.soft.msg))
 	}
 	if dc.OffGrid > 0 {

@@ -92,7 +92,9 @@ func headerEvidence(hdr [][]byte, r reading, line int) *rfail {
 			}
 			if l := stripTimeMark(string(c)); numbery(l) {
 				if _, k := parseNumber([]byte(l), r.comma); k != cellNumber {
-					return no(i+1, "header cell %q is numbers, not a label", c)
+					f := no(i+1, "header cell %q is numbers, not a label", c)
+					f.soft, f.weak = true, true
+					return f
 				}
 			}
 		}

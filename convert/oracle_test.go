@@ -382,8 +382,11 @@ func TestDischargeOracle(t *testing.T) {
 	if err := json.Unmarshal(out, &ref); err != nil || len(ref) != n {
 		t.Fatalf("reference output: %v (%d of %d)", err, len(ref), n)
 	}
-	refusedN, wrong := 0, 0
+	refusedN, wrong, refusedBefore, wrongBefore := 0, 0, 0, 0
 	byShape := map[string][2]int{}
+	causes := map[string]int{}
+	showCause, shown := os.Getenv("MUARC_ORACLE_SHOW"), 0
+	defer func() { refusalTrace = nil }()
 	for i, c := range cases {
 		text, _ := os.ReadFile(c.Path)
 		show := func() string { return fmt.Sprintf("case %d %+v\n%s", i, c, clip(text)) }
@@ -404,7 +407,41 @@ func TestDischargeOracle(t *testing.T) {
 		}
 		st := byShape[key]
 		st[0]++
+		// The refusal's cause is counted by shape, for the table below.
+		refusalTrace = func(kind string, dims []string) {
+			k := kind
+			if len(dims) > 0 {
+				d := slices.Clone(dims)
+				slices.Sort(d)
+				k += ": " + strings.Join(d, "+")
+				for _, x := range d {
+					causes["any shape | "+kind+" in "+x]++
+				}
+			}
+			causes[key+" | "+k]++
+		}
+		var cause string
+		prevTrace := refusalTrace
+		traceNow := func(kind string, dims []string) {
+			d := slices.Clone(dims)
+			slices.Sort(d)
+			cause = key + " | " + kind + ": " + strings.Join(d, "+")
+			prevTrace(kind, dims)
+		}
+		// The same file without the weak rules yielding: the refusal rate
+		// before that change, in the same run.
+		weakRulesYield, refusalTrace = false, nil
+		if dcb, err := ReadDischarges(c.Path, g, DischargeOptions{FirstIndex: -1}); err != nil {
+			refusedBefore++
+		} else if l, tr := trainsOf(dcb); !c.equal(l, tr) {
+			wrongBefore++
+		}
+		weakRulesYield, refusalTrace = true, traceNow
 		dc, err = ReadDischarges(c.Path, g, DischargeOptions{FirstIndex: -1})
+		if err != nil && showCause != "" && strings.Contains(cause, showCause) && shown < 12 {
+			shown++
+			t.Logf("REFUSED (%s) %+v\n%.300s\n%v", cause, c, text, err)
+		}
 		if err != nil {
 			if AsParseError(err) == nil {
 				t.Errorf("detected: not a ParseError (exit 2): %v", err)
@@ -420,8 +457,17 @@ func TestDischargeOracle(t *testing.T) {
 			t.Fatal("too many")
 		}
 	}
-	t.Logf("%d cases: %d read exactly with every option detected, %d refused, %d stored different values", n, n-refusedN-wrong, refusedN, wrong)
+	t.Logf("%d cases: %d read exactly with every option detected, %d refused (%.1f %%), %d stored different values; the same files with the reader before the digits and weak-rule changes: %d refused (%.1f %%), %d stored different values",
+		n, n-refusedN-wrong, refusedN, 100*float64(refusedN)/float64(n), wrong, refusedBefore, 100*float64(refusedBefore)/float64(n), wrongBefore)
 	for k, v := range byShape {
 		t.Logf("  %s: %d cases, %d refused", k, v[0], v[1])
+	}
+	keys := make([]string, 0, len(causes))
+	for k := range causes {
+		keys = append(keys, k)
+	}
+	slices.SortFunc(keys, func(a, b string) int { return causes[b] - causes[a] })
+	for _, k := range keys {
+		t.Logf("  refused %4d  %s", causes[k], k)
 	}
 }
