@@ -9,6 +9,8 @@ import (
 	"os"
 	"runtime"
 	"sync"
+
+	"muarc/record"
 )
 
 // blockBytes is the size of the text blocks parsed in parallel. Small enough
@@ -20,10 +22,11 @@ const blockBytes = 512 << 10
 type blockMode uint8
 
 const (
-	modeScan  blockMode = iota // check every cell and gather statistics only
-	mode32                     // convert data cells to float32 (and check they fit)
-	mode64                     // convert data cells to float64
-	modeCount                  // count rows and read the time column only
+	modeScan   blockMode = iota // check every cell and gather statistics only
+	mode32                      // convert data cells to float32 (and check they fit)
+	mode64                      // convert data cells to float64
+	modeCount                   // count rows and read the time column only (and gather quantumStats)
+	modeCounts                  // convert data cells to integer counts of spec.scale
 )
 
 // blockSpec is what every worker needs to parse a block of signal rows.
@@ -38,6 +41,10 @@ type blockSpec struct {
 	// allowRange stores infinity words and overflow as ±Inf and underflow
 	// as 0 instead of refusing them.
 	allowRange bool
+	// quantum gathers quantumStats in the first pass; scale is the count
+	// scale of modeCounts.
+	quantum bool
+	scale   record.CountScale
 }
 
 // block is one run of whole lines and what parsing it gave.
@@ -49,6 +56,8 @@ type block struct {
 	rows      int
 	f32       []float32
 	f64       []float64
+	cnt       []int32
+	q         quantumStats
 	times     []float64
 	rowLines  []int32 // line of each row relative to line (time files only)
 	timeDec   int     // most decimals written in a time cell
@@ -78,6 +87,7 @@ func (b *block) reset() {
 	b.rows, b.timeDec, b.maxDigits, b.maxMant = 0, 0, 0, 0
 	b.timeFrac = false
 	b.f32, b.f64, b.times, b.rowLines = b.f32[:0], b.f64[:0], b.times[:0], b.rowLines[:0]
+	b.cnt, b.q = b.cnt[:0], quantumStats{}
 	b.nan, b.f32bad, b.f64bad = 0, 0, 0
 	b.f32MaxErr, b.f64MaxErr = 0, 0
 	b.f32First, b.f64First = cellRef{}, cellRef{}
@@ -101,6 +111,14 @@ func (sp *blockSpec) parse(b *block) {
 		if bt := trimBlank(t); !blankLine(t, sp.d.Delimiter) && !isComment(bt) {
 			if sp.mode == modeCount {
 				if err := sp.countRow(b, t, line); err != nil {
+					b.err = err
+					return
+				}
+				if sp.quantum && !b.q.broken {
+					sp.quantumRow(&b.q, t, line)
+				}
+			} else if sp.mode == modeCounts {
+				if err := sp.countsRow(b, t, line); err != nil {
 					b.err = err
 					return
 				}

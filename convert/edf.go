@@ -433,7 +433,43 @@ func (pl *Plan) edfArray(it input, prof *Profile, h *edfplus.Header, a *record.A
 	}
 	src := &edfSource{path: it.path, sigs: sigs, rows: h.Records * first.SamplesPerRecord, spr: first.SamplesPerRecord, cur: -1}
 	a.Samples = src
+	if typ, sc, ok := edfCounts(h, sigs); ok {
+		// One calibration for every channel: the digital values are the
+		// counts, stored as they are with the CF scale.
+		a.SampleType, a.Scale = typ, sc
+		src.counts, src.scale = true, sc
+	}
 	return nil
+}
+
+// edfCounts is the integer form of an array's signals when they share one
+// calibration: counts are the digital values, scale_factor =
+// (physical max - physical min) / (digital max - digital min) and
+// add_offset = physical min - digital min × scale_factor (EDF specification,
+// "physical minimum/maximum" and "digital minimum/maximum" of the header).
+func edfCounts(h *edfplus.Header, sigs []int) (record.SampleType, record.CountScale, bool) {
+	f := h.Signals[sigs[0]]
+	for _, i := range sigs {
+		s := h.Signals[i]
+		if s.PhysicalMin != f.PhysicalMin || s.PhysicalMax != f.PhysicalMax || s.DigitalMin != f.DigitalMin || s.DigitalMax != f.DigitalMax {
+			return "", record.CountScale{}, false
+		}
+	}
+	if f.DigitalMax <= f.DigitalMin || f.PhysicalMax == f.PhysicalMin {
+		return "", record.CountScale{}, false
+	}
+	sf := (f.PhysicalMax - f.PhysicalMin) / float64(f.DigitalMax-f.DigitalMin)
+	ao := f.PhysicalMin - float64(float64(f.DigitalMin)*sf)
+	if math.IsNaN(sf) || math.IsInf(sf, 0) || math.IsInf(ao, 0) || math.IsNaN(ao) {
+		return "", record.CountScale{}, false
+	}
+	// The samples of a file may lie outside the declared digital range;
+	// the type holds every value the format can carry.
+	lo, hi := int64(-1<<15), int64(1<<15-1)
+	if h.Format.BytesPerSample() == 3 {
+		lo, hi = -1<<23, 1<<23-1
+	}
+	return record.SmallestCountType(lo, hi), record.LinearScale(sf, ao), true
 }
 
 // edfEnd cuts the padding of a signal whose samples end at endS seconds

@@ -84,13 +84,31 @@ func TestImportEDFlibExact(t *testing.T) {
 		r.Close()
 		// edflib_writer.c: signal s, sample n has digital dmin + (n*7919 + s*104729) mod (dmax-dmin+1).
 		for s, a := range tr.Arrays {
-			if a.SampleType != record.Float64 || a.Unit != "uV" || a.SamplingRateHz != []float64{256, 512}[s] || a.FilterLowHz != 20 || a.FilterHighHz != 500 {
+			// One calibration per array: the digital values are stored as
+			// counts with the header's scale (EDF: 16-bit, BDF: 24-bit
+			// two's complement samples; EDF specification, "data record").
+			wantType := map[string]record.SampleType{"edf": record.Int16, "bdf": record.Int32}[kind]
+			sig := h.Signals[s]
+			wantSF := (sig.PhysicalMax - sig.PhysicalMin) / float64(sig.DigitalMax-sig.DigitalMin)
+			if a.SampleType != wantType || a.Scale.ScaleFactor != wantSF || a.Scale.AddOffset != sig.PhysicalMin-float64(float64(sig.DigitalMin)*wantSF) || a.Scale.Decimals >= 0 {
+				t.Errorf("%s array %s: stored as %s with %+v", kind, a.Name, a.SampleType, a.Scale)
+			}
+			mc := a.Samples.(*record.MemCounts)
+			for n, k := range mc.Counts {
+				if want := dmin + (int64(n)*7919+int64(s)*104729)%(dmax-dmin+1); int64(k) != want {
+					t.Fatalf("%s array %s count %d: %d, EDFlib wrote %d", kind, a.Name, n, k, want)
+				}
+			}
+			m := &record.MemSamples{Samples: mc.Samples, Channels: mc.Channels, F64: make([]float64, len(mc.Counts))}
+			if err := mc.ReadFloat64(0, m.F64); err != nil {
+				t.Fatal(err)
+			}
+			if a.Unit != "uV" || a.SamplingRateHz != []float64{256, 512}[s] || a.FilterLowHz != 20 || a.FilterHighHz != 500 {
 				t.Errorf("%s array %s: %+v", kind, a.Name, a)
 			}
 			if a.Channels[0].Row != 0 || a.Channels[0].Column != s {
 				t.Errorf("%s array %s: channel place %+v from the profile", kind, a.Name, a.Channels[0])
 			}
-			m := a.Samples.(*record.MemSamples)
 			if m.Samples != 4*int(a.SamplingRateHz) {
 				t.Fatalf("%d samples", m.Samples)
 			}

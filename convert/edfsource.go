@@ -59,16 +59,39 @@ type edfSource struct {
 	rec        edfplus.Record
 	cur        int
 	calibrated []edfplus.Signal
+	// counts: the array is stored as the digital values with scale.
+	counts bool
+	scale  record.CountScale
+}
+
+// Scale implements record.CountSource (for an array stored as counts).
+func (s *edfSource) Scale() record.CountScale { return s.scale }
+
+// ReadCounts implements record.CountSource: the digital values.
+func (s *edfSource) ReadCounts(start int, dst []int32) error {
+	return s.each(start, len(dst), func(i int, d int32, _ int) { dst[i] = d })
 }
 
 func (s *edfSource) Shape() (int, int) { return s.rows, len(s.sigs) }
 
 func (s *edfSource) ReadFloat64(start int, dst []float64) error {
+	return s.each(start, len(dst), func(i int, d int32, c int) {
+		if s.counts {
+			dst[i] = s.scale.Physical(int64(d))
+		} else {
+			dst[i] = s.calibrated[c].Physical(d)
+		}
+	})
+}
+
+// each calls fn with the digital value of every cell of rows
+// [start, start+n/channels), in row-major order.
+func (s *edfSource) each(start, n int, fn func(i int, d int32, c int)) error {
 	ch := len(s.sigs)
-	if len(dst)%ch != 0 {
+	if n%ch != 0 {
 		return errors.New("convert: block is not a whole number of rows")
 	}
-	n := len(dst) / ch
+	n /= ch
 	if start < 0 || start+n > s.rows {
 		return fmt.Errorf("convert: rows [%d,%d) outside 0..%d", start, start+n, s.rows)
 	}
@@ -91,7 +114,7 @@ func (s *edfSource) ReadFloat64(start int, dst []float64) error {
 			s.cur = ri
 		}
 		for c, i := range s.sigs {
-			dst[row*ch+c] = s.calibrated[c].Physical(s.rec.Digital[i][k])
+			fn(row*ch+c, s.rec.Digital[i][k], c)
 		}
 	}
 	if start+n == s.rows {

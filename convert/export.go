@@ -237,6 +237,9 @@ func writeEMG(w *bufio.Writer, a *record.Array, d byte) error {
 	}
 	w.WriteByte('\n')
 	const band = 4096
+	if cs, ok := a.Samples.(record.CountSource); ok && cs.Scale().Decimals >= 0 {
+		return writeCounts(w, cs, a, d, band)
+	}
 	f64 := a.SampleType == record.Float64
 	var b32 []float32
 	var b64 []float64
@@ -266,6 +269,32 @@ func writeEMG(w *bufio.Writer, a *record.Array, d byte) error {
 				} else {
 					b = appendF32(b, b32[r*ch+c])
 				}
+			}
+			b = append(b, '\n')
+			w.Write(b)
+		}
+	}
+	return nil
+}
+
+// writeCounts writes the rows of counts that came from decimal text: each
+// cell as counts × scale + offset with the decimals the text had, in
+// integers (byte for byte the cell that was imported).
+func writeCounts(w *bufio.Writer, cs record.CountSource, a *record.Array, d byte, band int) error {
+	rows, ch := cs.Shape()
+	sc := cs.Scale()
+	k := make([]int32, band*ch)
+	var b []byte
+	for r0 := 0; r0 < rows; r0 += band {
+		n := min(band, rows-r0)
+		if err := cs.ReadCounts(r0, k[:n*ch]); err != nil {
+			return err
+		}
+		for r := 0; r < n; r++ {
+			b = strconv.AppendFloat(b[:0], a.StartS+float64(r0+r)/a.SamplingRateHz, 'f', -1, 64)
+			for c := 0; c < ch; c++ {
+				b = append(b, d)
+				b = sc.AppendText(b, int64(k[r*ch+c]))
 			}
 			b = append(b, '\n')
 			w.Write(b)

@@ -62,24 +62,26 @@ type Inputs struct {
 
 // FileReport says what was read from one input file and what was assumed.
 type FileReport struct {
-	Name          string   `json:"name"`
-	Role          string   `json:"role"`
-	Trial         string   `json:"trial,omitempty"`
-	Array         string   `json:"array,omitempty"`
-	Decomposition string   `json:"decomposition,omitempty"`
-	Delimiter     string   `json:"delimiter,omitempty"`
-	Rows          int      `json:"rows,omitempty"`
-	Channels      int      `json:"channels,omitempty"`
-	RateHz        float64  `json:"sampling_rate_hz,omitempty"`
-	JitterS       float64  `json:"time_jitter_s,omitempty"`
-	Gaps          []Gap    `json:"gaps,omitempty"`
-	DType         string   `json:"sample_type,omitempty"`
-	DTypeWhy      string   `json:"sample_type_why,omitempty"`
-	LossyCells    int64    `json:"lossy_cells,omitempty"`
-	MaxAbsError   float64  `json:"max_abs_error,omitempty"`
-	Units         int      `json:"units,omitempty"`
-	Discharges    int      `json:"discharges,omitempty"`
-	Notes         []string `json:"notes,omitempty"`
+	Name          string  `json:"name"`
+	Role          string  `json:"role"`
+	Trial         string  `json:"trial,omitempty"`
+	Array         string  `json:"array,omitempty"`
+	Decomposition string  `json:"decomposition,omitempty"`
+	Delimiter     string  `json:"delimiter,omitempty"`
+	Rows          int     `json:"rows,omitempty"`
+	Channels      int     `json:"channels,omitempty"`
+	RateHz        float64 `json:"sampling_rate_hz,omitempty"`
+	JitterS       float64 `json:"time_jitter_s,omitempty"`
+	Gaps          []Gap   `json:"gaps,omitempty"`
+	DType         string  `json:"sample_type,omitempty"`
+	DTypeWhy      string  `json:"sample_type_why,omitempty"`
+	LossyCells    int64   `json:"lossy_cells,omitempty"`
+	MaxAbsError   float64 `json:"max_abs_error,omitempty"`
+	// Counts is set when the samples are stored as integer counts.
+	Counts     *CountsReport `json:"counts,omitempty"`
+	Units      int           `json:"units,omitempty"`
+	Discharges int           `json:"discharges,omitempty"`
+	Notes      []string      `json:"notes,omitempty"`
 }
 
 // Report is the import report of one recording.
@@ -433,6 +435,7 @@ func (pl *Plan) Write(path string, opt recfile.WriteOptions) error {
 	for i, s := range pl.sigs {
 		f := &pl.Report.Files[pl.reportIdx[i]]
 		f.JitterS, f.DType, f.DTypeWhy, f.LossyCells, f.MaxAbsError = s.JitterS, string(s.DType), s.DTypeWhy, s.LossyCells, s.MaxAbsError
+		f.setCounts(s)
 	}
 	return nil
 }

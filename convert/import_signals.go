@@ -176,10 +176,10 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 		}
 	}
 	placeChannels(a.Channels, prof.EMG.Channels)
-	a.SampleType = s.DType
+	a.SampleType, a.Scale = s.DType, s.Scale
 	s.Notes = append(it.notes, s.Notes...)
 	src := s.Source()
-	a.Samples = src
+	a.Samples = src.samples()
 	pl.sources = append(pl.sources, src)
 	pl.sigs = append(pl.sigs, s)
 	pl.reportIdx = append(pl.reportIdx, len(pl.Report.Files))
@@ -187,6 +187,7 @@ func (pl *Plan) emg(it input, opt SignalOptions, prof *Profile) error {
 	fr := FileReport{Name: it.rel, Role: "emg", Trial: t.Name, Array: a.Name, Delimiter: DelimiterName(s.Dialect.Delimiter), Rows: s.Rows,
 		Channels: len(s.Labels), RateHz: s.RateHz, Gaps: s.Gaps, DType: string(s.DType), DTypeWhy: s.DTypeWhy,
 		LossyCells: s.LossyCells, MaxAbsError: s.MaxAbsError, Notes: s.Notes}
+	fr.setCounts(s)
 	pl.Report.Files = append(pl.Report.Files, fr)
 	return nil
 }

@@ -69,7 +69,7 @@ func TestImportSynthStudy(t *testing.T) {
 		}
 		for ai, wa := range wt.Arrays {
 			ga := gt.Arrays[ai]
-			if ga.Name != wa.Name || ga.SamplingRateHz != wa.SamplingRateHz || ga.SampleType != record.Float32 || len(ga.Channels) != len(wa.Channels) {
+			if ga.Name != wa.Name || ga.SamplingRateHz != wa.SamplingRateHz || !ga.SampleType.IsInteger() || len(ga.Channels) != len(wa.Channels) {
 				t.Fatalf("array %q rate %v type %s", ga.Name, ga.SamplingRateHz, ga.SampleType)
 			}
 			for c := range wa.Channels {
@@ -83,17 +83,19 @@ func TestImportSynthStudy(t *testing.T) {
 				t.Fatalf("shape %dx%d want %dx%d", gr, gc, rows, ch)
 			}
 			wv := make([]float64, rows*ch)
-			gv := make([]float32, rows*ch)
+			gv := make([]float64, rows*ch)
 			if err := wa.Samples.ReadFloat64(0, wv); err != nil {
 				t.Fatal(err)
 			}
-			if err := ga.Samples.ReadFloat32(0, gv); err != nil {
+			if err := ga.Samples.ReadFloat64(0, gv); err != nil {
 				t.Fatal(err)
 			}
+			// The export wrote 2 decimals: stored as counts, the value read
+			// is strconv's float64 of those digits exactly.
 			for i := range wv {
-				w, _ := strconv.ParseFloat(strconv.FormatFloat(wv[i], 'f', 2, 64), 32)
-				if gv[i] != float32(w) {
-					t.Fatalf("sample %d: %v want %v", i, gv[i], float32(w))
+				w, _ := strconv.ParseFloat(strconv.FormatFloat(wv[i], 'f', 2, 64), 64)
+				if gv[i] != w {
+					t.Fatalf("sample %d: %v want %v", i, gv[i], w)
 				}
 			}
 			if len(ga.Decompositions) != len(wa.Decompositions) {

@@ -90,6 +90,9 @@ type Signals struct {
 	// DType is the stored sample type and DTypeWhy the reason.
 	DType    record.SampleType
 	DTypeWhy string
+	// Scale is the count scale when DType is an integer type: the data
+	// cells are counts of a quantum (see quantum.go).
+	Scale record.CountScale
 	// MaxDigits is the most significant digits written in a data cell.
 	MaxDigits int
 	// LossyCells counts cells the chosen type does not hold at the digits
@@ -112,6 +115,8 @@ type Signals struct {
 	skip         []bool
 
 	forced             record.SampleType
+	quantum            quantumStats
+	countsWhyNot       string
 	lossy32, lossy64   int64
 	maxErr32, maxErr64 float64
 	first32, first64   cellRef
@@ -271,7 +276,8 @@ func (s *Signals) columns(opt SignalOptions) error {
 }
 
 func (s *Signals) spec(mode blockMode, all32 bool) *blockSpec {
-	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32, skip: s.skip, allowRange: s.allowRange}
+	return &blockSpec{file: s.File, d: s.Dialect, cols: s.cols, tcol: s.tcol, mode: mode, all32: all32, skip: s.skip, allowRange: s.allowRange,
+		quantum: mode == modeCount && s.forced == "", scale: s.Scale}
 }
 
 func (s *Signals) firstPass(opt SignalOptions) error {
@@ -316,6 +322,7 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 	timeFrac := false
 	err = p.each(func(b *block) error {
 		s.Rows += b.rows
+		s.quantum.merge(&b.q)
 		timeDec = max(timeDec, b.timeDec)
 		timeFrac = timeFrac || b.timeFrac
 		for i, t := range b.times {
@@ -417,6 +424,7 @@ func (s *Signals) firstPass(opt SignalOptions) error {
 	switch s.forced {
 	case "":
 		s.DType, s.DTypeWhy = record.Float32, "float32 unless a cell needs more digits (decided in the second pass; Decide checks first)"
+		s.decideCounts()
 	default:
 		s.decideType(s.forced)
 	}
@@ -476,6 +484,14 @@ func (s *Signals) Decide() error {
 }
 
 func (s *Signals) decideType(forced record.SampleType) {
+	if s.DType.IsInteger() {
+		return // counts, decided in the first pass
+	}
+	defer func() {
+		if s.countsWhyNot != "" {
+			s.DTypeWhy += "; not stored as integer counts: " + s.countsWhyNot
+		}
+	}()
 	switch forced {
 	case record.Float32:
 		s.DType = record.Float32

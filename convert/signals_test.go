@@ -231,13 +231,20 @@ func TestDTypeDecision(t *testing.T) {
 	}
 	// Integers up to 2^24 are exact in float32; 16777217 = 2^24+1 is not
 	// (IEEE 754 binary32 has a 24-bit significand).
-	p = writeTemp(t, "b.csv", "a\n16777216\n-5\n")
-	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 {
+	// (A cell with one decimal keeps these files from being integer counts.)
+	p = writeTemp(t, "b.csv", "a\n16777216\n-5\n0.5\n")
+	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float32 || !strings.Contains(s.DTypeWhy, "not stored as integer counts: line 4, column 1 (\"0.5\") is written with 1 decimals, earlier cells with 0") {
 		t.Errorf("%s", s.DTypeWhy)
 	}
-	p = writeTemp(t, "c.csv", "a\n16777217\n")
+	p = writeTemp(t, "c.csv", "a\n16777217\n0.5\n")
 	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Float64 {
 		t.Errorf("%s", s.DTypeWhy)
+	}
+	// Whole numbers alone are counts: 16777216 and -5 are -1 and 0 counts
+	// of 16777221 plus 16777216 (integer arithmetic).
+	p = writeTemp(t, "e.csv", "a\n16777216\n-5\n")
+	if s, _ = scanDecide(p, SignalOptions{RateHz: 1}); s.DType != record.Int8 || s.Scale.ScaleUnits != 16777221 || s.Scale.OffsetUnits != 16777216 || s.Scale.Decimals != 0 {
+		t.Errorf("%s %+v", s.DTypeWhy, s.Scale)
 	}
 	// 0.1 written with one digit reads back from float32 (FLT_DIG = 6).
 	p = writeTemp(t, "d.csv", "a\n0.1\n1.00000\n3.40282e38\n")

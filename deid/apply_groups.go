@@ -65,7 +65,7 @@ func (a *applier) array(p string, in *record.Array) (record.Array, error) {
 	a.str(p+".placement_description", in.PlacementDescription, func(s string) { out.PlacementDescription = s })
 	a.str(p+".unit", in.Unit, func(s string) { out.Unit = s })
 	// The recorded data: always carried.
-	out.SamplingRateHz, out.StartS, out.SampleType = in.SamplingRateHz, in.StartS, in.SampleType
+	out.SamplingRateHz, out.StartS, out.SampleType, out.Scale = in.SamplingRateHz, in.StartS, in.SampleType, in.Scale
 	out.Samples = in.Samples
 	out.Channels = a.labels(p, in.Channels)
 	out.Extra = a.extra(p, in.Extra)

@@ -386,3 +386,34 @@ func TestAgeOver89FromDates(t *testing.T) {
 		t.Errorf("AgeAtSession kept %v (dates %v), want the recorded 89.5", a, fromDates)
 	}
 }
+
+// TestHashingCounts: integer samples reach the writer as counts (the
+// wrapped source is still a record.CountSource with the same scale), so a
+// de-identified copy keeps counts and scale bit for bit, and the digest
+// taken while streaming equals the one read afterwards.
+func TestHashingCounts(t *testing.T) {
+	rec := identifiable()
+	sc, err := record.DecimalScale(1907, -5, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := &rec.Trials[0].Arrays[0]
+	a.SampleType, a.Scale = record.Int16, sc
+	a.Samples = &record.MemCounts{Samples: 3, Channels: 2, Counts: []int32{-32768, 32767, 0, 1, -1, 7}, CountScale: sc}
+	want, _ := DataDigests(rec)
+	wrapSamples(rec)
+	cs, ok := rec.Trials[0].Arrays[0].Samples.(record.CountSource)
+	if !ok || cs.Scale() != sc {
+		t.Fatalf("the wrapped samples are %T, not counts of %+v", rec.Trials[0].Arrays[0].Samples, sc)
+	}
+	buf := make([]int32, 4)
+	cs.ReadCounts(0, buf)
+	cs.ReadCounts(2, buf[:2])
+	if buf[0] != -1 || buf[1] != 7 {
+		t.Fatalf("counts %v", buf[:2])
+	}
+	hs := cs.(*hashingCounts)
+	if got, ok := hs.sum(); !ok || got != want["trials[0].arrays[0].samples"] {
+		t.Fatalf("streamed digest %s %v, want %s", got, ok, want["trials[0].arrays[0].samples"])
+	}
+}

@@ -104,6 +104,18 @@ func hashSamples(h hash.Hash, a record.Array) error {
 	}
 	block := max(1, (1<<20)/ch)
 	var b [8]byte
+	if cs, ok := a.Samples.(record.CountSource); ok && a.SampleType.IsInteger() {
+		hashScale(h, cs.Scale())
+		buf := make([]int32, block*ch)
+		for r := 0; r < rows; r += block {
+			n := min(block, rows-r)
+			if err := cs.ReadCounts(r, buf[:n*ch]); err != nil {
+				return err
+			}
+			hashCounts(h, buf[:n*ch])
+		}
+		return nil
+	}
 	if a.SampleType == record.Float64 {
 		buf := make([]float64, block*ch)
 		for r := 0; r < rows; r += block {
@@ -188,6 +200,58 @@ func (s *hashingSource) sum() (string, bool) {
 	return hex.EncodeToString(s.h.Sum(nil)), true
 }
 
+// hashScale hashes a count scale: scale_factor, add_offset and decimals.
+func hashScale(h hash.Hash, sc record.CountScale) {
+	var b [8]byte
+	for _, v := range []uint64{math.Float64bits(sc.ScaleFactor), math.Float64bits(sc.AddOffset), uint64(int64(sc.Decimals))} {
+		binary.LittleEndian.PutUint64(b[:], v)
+		h.Write(b[:])
+	}
+}
+
+// hashCounts hashes counts as little-endian int32.
+func hashCounts(h hash.Hash, k []int32) {
+	var b [4]byte
+	for _, x := range k {
+		binary.LittleEndian.PutUint32(b[:], uint32(x))
+		h.Write(b[:])
+	}
+}
+
+// hashingCounts is a hashingSource for integer samples: the writer takes
+// the counts (ReadCounts) and they are hashed as hashSamples does, so the
+// copy keeps counts and scale bit for bit.
+type hashingCounts struct {
+	*hashingSource
+	cs record.CountSource
+}
+
+func (s *hashingCounts) Scale() record.CountScale { return s.cs.Scale() }
+
+func (s *hashingCounts) ReadCounts(start int, dst []int32) error {
+	if err := s.cs.ReadCounts(start, dst); err != nil {
+		return err
+	}
+	_, ch := s.src.Shape()
+	if start != s.next || ch == 0 {
+		s.bad = true
+		return nil
+	}
+	hashCounts(s.h, dst)
+	s.next += len(dst) / ch
+	return nil
+}
+
+func (s *hashingCounts) ReadFloat32(start int, dst []float32) error {
+	s.bad = true // counts are copied as counts
+	return s.src.ReadFloat32(start, dst)
+}
+
+func (s *hashingCounts) ReadFloat64(start int, dst []float64) error {
+	s.bad = true
+	return s.src.ReadFloat64(start, dst)
+}
+
 // wrapSamples puts a hashingSource in front of every array's samples.
 func wrapSamples(rec *record.Recording) map[string]*hashingSource {
 	out := map[string]*hashingSource{}
@@ -199,6 +263,10 @@ func wrapSamples(rec *record.Recording) map[string]*hashingSource {
 			}
 			hs := &hashingSource{src: a.Samples, rec: a, h: sha256.New()}
 			a.Samples = hs
+			if cs, ok := hs.src.(record.CountSource); ok && a.SampleType.IsInteger() {
+				hashScale(hs.h, cs.Scale())
+				a.Samples = &hashingCounts{hashingSource: hs, cs: cs}
+			}
 			out[fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)] = hs
 		}
 	}

@@ -21,10 +21,10 @@ type Dataset struct {
 	// UTF8 is set for a string dataset whose type is tagged UTF-8.
 	UTF8 bool
 	// ieeeLE is set when the stored type is exactly IEEE 754 binary32 or
-	// binary64, little-endian: the only form whose raw chunk bytes the
-	// fast read path may decode itself. Another byte order (a file
-	// rewritten by another tool or on another machine) goes through the
-	// library, which converts it.
+	// binary64, little-endian, or a signed 8-, 16- or 32-bit little-endian
+	// integer: the only forms whose raw chunk bytes the fast read path may
+	// decode itself. Another byte order (a file rewritten by another tool
+	// or on another machine) goes through the library, which converts it.
 	ieeeLE bool
 
 	planOnce sync.Once
@@ -55,7 +55,8 @@ func (g *Group) OpenDataset(name string, cacheBytes int) (*Dataset, error) {
 	d := &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, cache: &chunkCache{limit: cacheBytes}}
 	t := C.H5Dget_type(id)
 	d.Type = typeName(t)
-	d.ieeeLE = C.H5Tequal(t, C.H5T_IEEE_F32LE_g) > 0 || C.H5Tequal(t, C.H5T_IEEE_F64LE_g) > 0
+	d.ieeeLE = C.H5Tequal(t, C.H5T_IEEE_F32LE_g) > 0 || C.H5Tequal(t, C.H5T_IEEE_F64LE_g) > 0 ||
+		C.H5Tequal(t, C.H5T_STD_I8LE_g) > 0 || C.H5Tequal(t, C.H5T_STD_I16LE_g) > 0 || C.H5Tequal(t, C.H5T_STD_I32LE_g) > 0
 	if C.H5Tget_class(t) == C.H5T_STRING {
 		d.UTF8 = C.H5Tget_cset(t) == C.H5T_CSET_UTF8
 	}

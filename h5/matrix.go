@@ -13,7 +13,8 @@ import (
 	"unsafe"
 )
 
-// MatrixWriter streams a 2-D [row, column] float dataset, extendible in rows,
+// MatrixWriter streams a 2-D [row, column] numeric dataset (float32,
+// float64, int8, int16 or int32), extendible in rows,
 // chunked [ChunkRows, ChunkCols], with shuffle + deflate + Fletcher-32. Rows
 // arrive in bands of ChunkRows rows; each band is cut into chunks that are
 // shuffled, compressed and checksummed in parallel in Go and written with
@@ -25,7 +26,7 @@ type MatrixWriter struct {
 	chunkRows, chunkCols int
 	level                int
 	rows                 int
-	f64                  bool
+	typ                  string
 	workers              int
 	// per-worker scratch, reused across bands
 	scratch []chunkScratch
@@ -36,17 +37,39 @@ type chunkScratch struct {
 	compressor      unsafe.Pointer // libdeflate compressor of this worker
 }
 
-// CreateMatrix creates an empty matrix dataset with cols columns. f64 picks
-// float64 elements (else float32); level is the compression level (1-9,
-// libdeflate's scale; any level gives standard zlib streams).
+// CreateMatrix creates an empty float matrix dataset with cols columns. f64
+// picks float64 elements (else float32); level is the compression level
+// (1-9, libdeflate's scale; any level gives standard zlib streams).
 func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCols, level int) (*MatrixWriter, error) {
+	typ := "float32"
+	if f64 {
+		typ = "float64"
+	}
+	return g.CreateMatrixOf(name, typ, cols, chunkRows, chunkCols, level)
+}
+
+// CreateMatrixOf is CreateMatrix for an element type named "float32",
+// "float64", "int8", "int16" or "int32" (little-endian, signed).
+func (g *Group) CreateMatrixOf(name, typ string, cols int, chunkRows, chunkCols, level int) (*MatrixWriter, error) {
 	if cols <= 0 || chunkRows <= 0 || chunkCols <= 0 || level < 1 || level > 9 {
 		return nil, &Error{File: g.file, Object: g.child(name), Op: "create matrix", Detail: fmt.Sprintf("bad geometry cols=%d chunk=%dx%d level=%d", cols, chunkRows, chunkCols, level)}
 	}
 	chunkCols = min(chunkCols, cols)
-	ftype, elem := C.H5T_IEEE_F32LE_g, 4
-	if f64 {
+	var ftype C.hid_t
+	var elem int
+	switch typ {
+	case "float32":
+		ftype, elem = C.H5T_IEEE_F32LE_g, 4
+	case "float64":
 		ftype, elem = C.H5T_IEEE_F64LE_g, 8
+	case "int8":
+		ftype, elem = C.H5T_STD_I8LE_g, 1
+	case "int16":
+		ftype, elem = C.H5T_STD_I16LE_g, 2
+	case "int32":
+		ftype, elem = C.H5T_STD_I32LE_g, 4
+	default:
+		return nil, &Error{File: g.file, Object: g.child(name), Op: "create matrix", Detail: fmt.Sprintf("element type %q (want float32, float64, int8, int16 or int32)", typ)}
 	}
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
@@ -62,8 +85,8 @@ func (g *Group) CreateMatrix(name string, cols int, f64 bool, chunkRows, chunkCo
 	}
 	unlockLib()
 	w := &MatrixWriter{
-		ds:   &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, Type: fmt.Sprintf("float%d", 8*elem), Shape: []int{0, cols}, MaxShape: []int{-1, cols}},
-		cols: cols, elem: elem, chunkRows: chunkRows, chunkCols: chunkCols, level: level, f64: f64,
+		ds:   &Dataset{obj: obj{id: id, file: g.file, path: g.child(name)}, Type: typ, Shape: []int{0, cols}, MaxShape: []int{-1, cols}},
+		cols: cols, elem: elem, chunkRows: chunkRows, chunkCols: chunkCols, level: level, typ: typ,
 		workers: runtime.GOMAXPROCS(0),
 	}
 	w.scratch = make([]chunkScratch, w.workers)
@@ -89,25 +112,27 @@ func (w *MatrixWriter) Rows() int { return w.rows }
 
 // WriteBand32 appends up to BandRows rows of float32 (row-major, len a
 // multiple of the column count). Only the last band may be short.
-func (w *MatrixWriter) WriteBand32(data []float32) error {
-	if w.f64 {
-		return fmt.Errorf("%s: %s: float64 matrix given float32 rows", w.ds.file, w.ds.path)
-	}
-	var b []byte
-	if len(data) > 0 {
-		b = unsafe.Slice((*byte)(unsafe.Pointer(&data[0])), 4*len(data))
-	}
-	return w.writeBand(b)
-}
+func (w *MatrixWriter) WriteBand32(data []float32) error { return writeTyped(w, "float32", data) }
 
 // WriteBand64 is WriteBand32 for a float64 matrix.
-func (w *MatrixWriter) WriteBand64(data []float64) error {
-	if !w.f64 {
-		return fmt.Errorf("%s: %s: float32 matrix given float64 rows", w.ds.file, w.ds.path)
+func (w *MatrixWriter) WriteBand64(data []float64) error { return writeTyped(w, "float64", data) }
+
+// WriteBandInt8 is WriteBand32 for an int8 matrix.
+func (w *MatrixWriter) WriteBandInt8(data []int8) error { return writeTyped(w, "int8", data) }
+
+// WriteBandInt16 is WriteBand32 for an int16 matrix.
+func (w *MatrixWriter) WriteBandInt16(data []int16) error { return writeTyped(w, "int16", data) }
+
+// WriteBandInt32 is WriteBand32 for an int32 matrix.
+func (w *MatrixWriter) WriteBandInt32(data []int32) error { return writeTyped(w, "int32", data) }
+
+func writeTyped[T float32 | float64 | int8 | int16 | int32](w *MatrixWriter, typ string, data []T) error {
+	if w.typ != typ {
+		return fmt.Errorf("%s: %s: %s matrix given %s rows", w.ds.file, w.ds.path, w.typ, typ)
 	}
 	var b []byte
 	if len(data) > 0 {
-		b = unsafe.Slice((*byte)(unsafe.Pointer(&data[0])), 8*len(data))
+		b = unsafe.Slice((*byte)(unsafe.Pointer(&data[0])), int(unsafe.Sizeof(data[0]))*len(data))
 	}
 	return w.writeBand(b)
 }

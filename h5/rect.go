@@ -17,8 +17,9 @@ import (
 
 // rectPlan is what a fast rectangle read needs to know about a matrix.
 type rectPlan struct {
-	ok       bool // chunks are [shuffle,] deflate, fletcher32 little-endian IEEE float32/64
+	ok       bool // chunks are [shuffle,] deflate, fletcher32 little-endian IEEE float32/64 or int8/16/32
 	shuffled bool
+	integer  bool
 	chunk    []int
 	elem     int
 }
@@ -27,17 +28,15 @@ func (d *Dataset) plan() *rectPlan {
 	d.planOnce.Do(func() {
 		p := &rectPlan{}
 		d.rect = p
-		if len(d.Shape) != 2 || !d.ieeeLE {
+		elem := map[string]int{"float32": 4, "float64": 8, "int8": 1, "int16": 2, "int32": 4}[d.Type]
+		if len(d.Shape) != 2 || elem == 0 || !d.ieeeLE {
 			return
 		}
 		chunk, filters, err := d.Layout()
 		if err != nil || len(chunk) != 2 {
 			return
 		}
-		p.chunk, p.elem = chunk, 4
-		if d.Type == "float64" {
-			p.elem = 8
-		}
+		p.chunk, p.elem, p.integer = chunk, elem, d.Type[0] == 'i'
 		switch {
 		case slices.Equal(filters, []string{"shuffle", "deflate", "fletcher32"}):
 			p.ok, p.shuffled = true, true
@@ -62,22 +61,47 @@ func (d *Dataset) ReadRect64(r0, nr, c0, nc int, dst []float64) error {
 	return d.readRect(r0, nr, c0, nc, nil, dst)
 }
 
+// ReadRectInt32 is ReadRect32 for an integer matrix (int8, int16 or
+// int32), giving the stored integers.
+func (d *Dataset) ReadRectInt32(r0, nr, c0, nc int, dst []int32) error {
+	if d.Type != "int8" && d.Type != "int16" && d.Type != "int32" {
+		return &Error{File: d.file, Object: d.path, Op: "read", Detail: "stored as " + d.Type + ", expected int8, int16 or int32"}
+	}
+	return d.readRectAny(r0, nr, c0, nc, rectDst{i32: dst})
+}
+
+// rectDst is the destination of a rectangle read: exactly one is set.
+type rectDst struct {
+	f32 []float32
+	f64 []float64
+	i32 []int32
+}
+
+func (t rectDst) len() int { return len(t.f32) + len(t.f64) + len(t.i32) }
+
 func (d *Dataset) readRect(r0, nr, c0, nc int, d32 []float32, d64 []float64) error {
+	return d.readRectAny(r0, nr, c0, nc, rectDst{f32: d32, f64: d64})
+}
+
+func (d *Dataset) readRectAny(r0, nr, c0, nc int, dst rectDst) error {
 	if len(d.Shape) != 2 || r0 < 0 || nr < 0 || c0 < 0 || nc < 0 || r0+nr > d.Shape[0] || c0+nc > d.Shape[1] {
 		return &Error{File: d.file, Object: d.path, Op: "read", Detail: fmt.Sprintf("rows %d+%d, columns %d+%d outside shape %v", r0, nr, c0, nc, d.Shape)}
 	}
-	if len(d32)+len(d64) != nr*nc {
-		return &Error{File: d.file, Object: d.path, Op: "read", Detail: fmt.Sprintf("buffer of %d values for %dx%d", len(d32)+len(d64), nr, nc)}
+	if dst.len() != nr*nc {
+		return &Error{File: d.file, Object: d.path, Op: "read", Detail: fmt.Sprintf("buffer of %d values for %dx%d", dst.len(), nr, nc)}
 	}
 	if nr == 0 || nc == 0 {
 		return nil
 	}
 	p := d.plan()
 	if !p.ok {
-		if d32 != nil {
-			return d.ReadSlab32([]int{r0, c0}, []int{nr, nc}, d32)
+		switch {
+		case dst.f32 != nil:
+			return d.ReadSlab32([]int{r0, c0}, []int{nr, nc}, dst.f32)
+		case dst.f64 != nil:
+			return d.ReadSlab64([]int{r0, c0}, []int{nr, nc}, dst.f64)
 		}
-		return d.ReadSlab64([]int{r0, c0}, []int{nr, nc}, d64)
+		return d.slab(C.H5T_NATIVE_INT32_g, []int{r0, c0}, []int{nr, nc}, dst.i32)
 	}
 	cr, cc := p.chunk[0], p.chunk[1]
 	type job struct{ row, col int }
@@ -107,7 +131,7 @@ func (d *Dataset) readRect(r0, nr, c0, nc int, d32 []float32, d64 []float64) err
 			for i := range next {
 				j := jobs[i]
 				if hit := d.cache.get(j.row, j.col); hit != nil {
-					copyRect(hit, p, j.row, j.col, r0, nr, c0, nc, d32, d64)
+					copyRect(hit, p, j.row, j.col, r0, nr, c0, nc, dst)
 					continue
 				}
 				var err error
@@ -116,7 +140,7 @@ func (d *Dataset) readRect(r0, nr, c0, nc int, d32 []float32, d64 []float64) err
 					errs[i] = err
 					continue
 				}
-				copyRect(plain, p, j.row, j.col, r0, nr, c0, nc, d32, d64)
+				copyRect(plain, p, j.row, j.col, r0, nr, c0, nc, dst)
 				// Keep the chunk only when the read did not use all of it.
 				if j.row < r0 || j.row+cr > r0+nr {
 					d.cache.put(j.row, j.col, plain)
@@ -187,6 +211,27 @@ func (d *Dataset) libraryChunk(p *rectPlan, row, col int, plain []byte) error {
 	cr, cc := p.chunk[0], p.chunk[1]
 	nr, nc := min(cr, d.Shape[0]-row), min(cc, d.Shape[1]-col)
 	clear(plain)
+	if p.integer {
+		tmp := make([]int32, nr*nc)
+		if err := d.slab(C.H5T_NATIVE_INT32_g, []int{row, col}, []int{nr, nc}, tmp); err != nil {
+			return err
+		}
+		for r := 0; r < nr; r++ {
+			for c := 0; c < nc; c++ {
+				v := tmp[r*nc+c]
+				i := (r*cc + c) * p.elem
+				switch p.elem {
+				case 1:
+					plain[i] = byte(int8(v))
+				case 2:
+					binary.LittleEndian.PutUint16(plain[i:], uint16(int16(v)))
+				default:
+					binary.LittleEndian.PutUint32(plain[i:], uint32(v))
+				}
+			}
+		}
+		return nil
+	}
 	tmp := make([]float64, nr*nc)
 	if err := d.ReadSlab64([]int{row, col}, []int{nr, nc}, tmp); err != nil {
 		return err
@@ -207,7 +252,7 @@ func (d *Dataset) libraryChunk(p *rectPlan, row, col int, plain []byte) error {
 
 // copyRect copies the overlap of the decoded chunk at (row, col) with the
 // requested rectangle into the destination.
-func copyRect(plain []byte, p *rectPlan, row, col, r0, nr, c0, nc int, d32 []float32, d64 []float64) {
+func copyRect(plain []byte, p *rectPlan, row, col, r0, nr, c0, nc int, dst rectDst) {
 	cc := p.chunk[1]
 	ra, rb := max(row, r0), min(row+p.chunk[0], r0+nr)
 	ca, cb := max(col, c0), min(col+cc, c0+nc)
@@ -215,6 +260,11 @@ func copyRect(plain []byte, p *rectPlan, row, col, r0, nr, c0, nc int, d32 []flo
 	for r := ra; r < rb; r++ {
 		src := plain[((r-row)*cc+(ca-col))*p.elem:]
 		o := (r-r0)*nc + (ca - c0)
+		if p.integer {
+			copyInts(src, p.elem, w, dst, o)
+			continue
+		}
+		d32, d64 := dst.f32, dst.f64
 		switch {
 		case p.elem == 4 && d32 != nil:
 			copy(d32[o:o+w], unsafe.Slice((*float32)(unsafe.Pointer(&src[0])), w))
@@ -230,6 +280,30 @@ func copyRect(plain []byte, p *rectPlan, row, col, r0, nr, c0, nc int, d32 []flo
 			for k, v := range s {
 				d32[o+k] = float32(v)
 			}
+		}
+	}
+}
+
+// copyInts widens w little-endian integers of elem bytes from src into
+// dst at o (as int32, or converted to float).
+func copyInts(src []byte, elem, w int, dst rectDst, o int) {
+	for k := 0; k < w; k++ {
+		var v int32
+		switch elem {
+		case 1:
+			v = int32(int8(src[k]))
+		case 2:
+			v = int32(int16(binary.LittleEndian.Uint16(src[2*k:])))
+		default:
+			v = int32(binary.LittleEndian.Uint32(src[4*k:]))
+		}
+		switch {
+		case dst.i32 != nil:
+			dst.i32[o+k] = v
+		case dst.f32 != nil:
+			dst.f32[o+k] = float32(v)
+		default:
+			dst.f64[o+k] = float64(v)
 		}
 	}
 }

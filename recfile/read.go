@@ -95,6 +95,14 @@ func ReadAll(path string) (*record.Recording, error) {
 		for ai := range rec.Trials[ti].Arrays {
 			a := &rec.Trials[ti].Arrays[ai]
 			n, c := a.Samples.Shape()
+			if cs, ok := a.Samples.(record.CountSource); ok {
+				mc := &record.MemCounts{Samples: n, Channels: c, Counts: make([]int32, n*c), CountScale: cs.Scale()}
+				if err := cs.ReadCounts(0, mc.Counts); err != nil {
+					return nil, err
+				}
+				a.Samples = mc
+				continue
+			}
 			m := &record.MemSamples{Samples: n, Channels: c}
 			if a.SampleType == record.Float64 {
 				m.F64 = make([]float64, n*c)
@@ -482,8 +490,8 @@ func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 	if lerr != nil {
 		return ar, lerr
 	}
-	if len(d.Shape) != 2 || (d.Type != "float32" && d.Type != "float64") {
-		return ar, formatErr(f.path, d.Path(), "samples are a 2-D float32 or float64 [sample, channel] matrix", "samples are %s %v", d.Type, d.Shape)
+	if len(d.Shape) != 2 || (d.Type != "float32" && d.Type != "float64" && !record.SampleType(d.Type).IsInteger()) {
+		return ar, formatErr(f.path, d.Path(), "samples are a 2-D float32, float64, int8, int16 or int32 [sample, channel] matrix", "samples are %s %v", d.Type, d.Shape)
 	}
 	// Cache two bands of chunks across all channels, so block readers that
 	// are not aligned to chunk rows still inflate each chunk once.
@@ -498,6 +506,12 @@ func (f *File) readArray(parent *h5.Group, name string) (record.Array, error) {
 	sv := &ArraySamples{ds: d, rows: d.Shape[0], cols: d.Shape[1]}
 	f.samples = append(f.samples, sv)
 	ar.Samples = sv
+	if ar.SampleType.IsInteger() {
+		if ar.Scale, err = f.readScale(d); err != nil {
+			return ar, err
+		}
+		ar.Samples = &ArrayCounts{s: sv, scale: ar.Scale}
+	}
 	if ar.Channels, err = f.readChannels(g, sv.cols); err != nil {
 		return ar, err
 	}

@@ -2,6 +2,7 @@ package recfile
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -95,13 +96,41 @@ func fixture() *record.Recording {
 				},
 			},
 			{Name: "ramp_10", TargetPctMVC: nan, MVC: nan, Profile: record.ForceProfile{RestS: nan, RampUpS: nan, PlateauS: nan, RampDownS: nan},
-				Arrays: []record.Array{{Name: "a", Rows: 1, Columns: 1, IEDMm: nan, Gain: nan, FilterLowHz: nan, FilterHighHz: nan, SamplingRateHz: 1000, Channels: chans(1, 1), Samples: mk(1, 1, false, 3)}}},
+				Arrays: []record.Array{{Name: "a", Rows: 1, Columns: 1, IEDMm: nan, Gain: nan, FilterLowHz: nan, FilterHighHz: nan, SamplingRateHz: 1000, Channels: chans(1, 1), Samples: mk(1, 1, false, 3)},
+					countsArray("counts_grid", record.Int16, decimalScale(1907, -3, 4), 2000, 4),
+					countsArray("bdf_grid", record.Int32, record.LinearScale(0.0596, -2.5), 700, 3)}},
 		},
 		Provenance: record.Provenance{
 			Sources: []record.SourceFile{{Name: "S01/emg.csv", Role: "emg", SHA256: strings.Repeat("ab", 32), Bytes: 1234}},
 			History: []record.Operation{{Action: "import", Software: "muarc test", Time: time.Date(2026, 3, 15, 1, 2, 3, 0, time.UTC), Details: `{"k":1}`}},
 		},
 	}
+}
+
+// countsArray is an array of integer samples (counts of a made-up
+// quantum; fixture values, not check values).
+func countsArray(name string, typ record.SampleType, sc record.CountScale, rows, cols int) record.Array {
+	nan := math.NaN()
+	lo, hi := typ.CountRange()
+	m := &record.MemCounts{Samples: rows, Channels: cols, Counts: make([]int32, rows*cols), CountScale: sc}
+	for i := range m.Counts {
+		m.Counts[i] = int32(math.Round(math.Sin(float64(i)*0.013) * float64(min(hi, 1<<20))))
+	}
+	m.Counts[0], m.Counts[1] = int32(lo), int32(hi)
+	var ch []record.Channel
+	for c := 0; c < cols; c++ {
+		ch = append(ch, record.Channel{Label: fmt.Sprintf("k%d", c), Row: 0, Column: c, XMm: nan, YMm: nan, Usable: true})
+	}
+	return record.Array{Name: name, Rows: 1, Columns: cols, IEDMm: nan, Gain: nan, FilterLowHz: nan, FilterHighHz: nan, SamplingRateHz: 2048,
+		Unit: "uV", SampleType: typ, Scale: sc, Channels: ch, Samples: m}
+}
+
+func decimalScale(units, offset int64, decimals int) record.CountScale {
+	s, err := record.DecimalScale(units, offset, decimals)
+	if err != nil {
+		panic(err)
+	}
+	return s
 }
 
 func ramp(n int) []float32 {
@@ -119,8 +148,12 @@ func equalRec(t *testing.T, want, got *record.Recording) {
 	for ti := range want.Trials {
 		for ai := range want.Trials[ti].Arrays {
 			wa, ga := &want.Trials[ti].Arrays[ai], &got.Trials[ti].Arrays[ai]
-			wm, gm := wa.Samples.(*record.MemSamples), ga.Samples.(*record.MemSamples)
-			if !sameBits(wm, gm) {
+			if wc, ok := wa.Samples.(*record.MemCounts); ok {
+				gc, ok := ga.Samples.(*record.MemCounts)
+				if !ok || !reflect.DeepEqual(wc, gc) || ga.SampleType != wa.SampleType {
+					t.Fatalf("trial %d array %d counts differ (%s, read back %s)", ti, ai, wa.SampleType, ga.SampleType)
+				}
+			} else if wm, gm := wa.Samples.(*record.MemSamples), ga.Samples.(*record.MemSamples); !sameBits(wm, gm) {
 				t.Fatalf("trial %d array %d samples differ", ti, ai)
 			}
 			for di := range wa.Decompositions {

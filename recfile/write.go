@@ -118,8 +118,13 @@ func check(rec *record.Recording) error {
 			if len(a.Channels) != ch {
 				return invalid(where, "%d channel descriptions for %d sample columns", len(a.Channels), ch)
 			}
-			if a.SampleType != "" && a.SampleType != record.Float32 && a.SampleType != record.Float64 {
-				return invalid(where, "sample type %q (want float32 or float64)", a.SampleType)
+			if a.SampleType != "" && a.SampleType != record.Float32 && a.SampleType != record.Float64 && !a.SampleType.IsInteger() {
+				return invalid(where, "sample type %q (want float32, float64, int8, int16 or int32)", a.SampleType)
+			}
+			if a.SampleType.IsInteger() {
+				if err := checkScale(where, &a); err != nil {
+					return err
+				}
 			}
 			decs := map[string]bool{}
 			for di, d := range a.Decompositions {
@@ -425,6 +430,9 @@ func (w *writer) samples(g *h5.Group, ar *record.Array) error {
 	}
 	if cc <= 0 {
 		cc = DefaultChunkCols
+	}
+	if ar.SampleType.IsInteger() {
+		return w.counts(g, ar, cr, cc, level)
 	}
 	mw, err := g.CreateMatrix(dsSamples, cols, f64, cr, cc, level)
 	if err != nil {

@@ -146,7 +146,8 @@ func (s Signal) DurationS() float64 {
 	return float64(len(s.Values)) / s.SamplingRateHz
 }
 
-// SampleType is the stored floating-point width of EMG samples.
+// SampleType is the stored type of EMG samples: float32, float64, or
+// integer counts (int8, int16, int32) with a CountScale.
 type SampleType string
 
 // Sample types.
@@ -195,8 +196,13 @@ type Array struct {
 	StartS float64 `layout:"start_s"`
 	// Unit is the UCUM unit of the samples, e.g. "uV" or "mV".
 	Unit string `layout:"unit"`
-	// SampleType is the on-disk float width; empty means Float32.
+	// SampleType is the on-disk type; empty means Float32. For an integer
+	// type the samples are counts and Scale turns them into physical
+	// values (Samples then gives physical values; a CountSource also gives
+	// the counts).
 	SampleType SampleType
+	// Scale is the count scale of integer samples (unused for floats).
+	Scale CountScale
 	// Channels describes each column of the sample matrix, in order.
 	Channels []Channel
 	// Samples provides the [sample, channel] matrix. The writer reads it in

@@ -326,7 +326,7 @@ var Fields = []Field{
 	{Group: "array", Name: "sampling_rate_hz", Kind: KindNumber, Unit: "Hz", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "EMG sampling rate"},
 	{Group: "array", Name: "start_s", Kind: KindNumber, Unit: "s", Required: true, Class: ClassCarried, Since: "1.0", Meaning: "time of sample 0 from the trial start"},
 	{Group: "array", Name: "unit", Kind: KindUnit, Class: ClassValue, Default: ActKeep, Since: "1.0", Meaning: "unit of the samples, e.g. `uV`"},
-	{Group: "array", Name: "sample_type", Kind: KindString, Enum: []string{"float32", "float64"}, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "stored float width of `samples`"},
+	{Group: "array", Name: "sample_type", Kind: KindString, Enum: []string{"float32", "float64", "int8", "int16", "int32"}, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "stored type of `samples`: a float width, or (since 1.2) integer counts with `scale_factor` and `add_offset`"},
 	{Group: "array", Name: "samples", Kind: KindInteger, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "number of sample rows"},
 	{Group: "array", Name: "channel_count", Kind: KindInteger, Class: ClassCarried, ViewOnly: true, Since: "1.0", Meaning: "number of channels (sample columns)"},
 

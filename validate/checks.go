@@ -25,6 +25,7 @@ var checks = []CheckInfo{
 	{"structure.type", Error, "a dataset or attribute has the wrong HDF5 type"},
 	{"structure.shape", Error, "a dataset has the wrong rank or length"},
 	{"structure.chunked", Error, "samples are not chunked"},
+	{"samples.scale", Error, "integer samples without a usable scale_factor / add_offset (or units disagreeing with the array's unit) (layout 1.2)"},
 	{"structure.fletcher32", Error, "samples carry no Fletcher-32 checksum filter"},
 	{"structure.compression", Note, "samples are stored without shuffle + deflate"},
 	{"structure.list_position", Warning, "a trial, array or decomposition lacks list_position or it disagrees with creation order (layout 1.1)"},

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"muarc/h5"
+	"muarc/record"
 	"muarc/schema"
 )
 
@@ -213,8 +214,11 @@ func (s *structure) array(p, jp string) {
 	case !ok:
 		s.add("structure.missing", sp, jp, "every array holds its EMG in samples [sample, channel]", "dataset %s is missing", sp)
 	default:
-		if so.Type != "float32" && so.Type != "float64" {
-			s.add("structure.type", sp, jp+"/sample_type", "store samples as float32 or float64", "%s is stored as %s, the layout wants float32 or float64", sp, so.Type)
+		if so.Type != "float32" && so.Type != "float64" && !record.SampleType(so.Type).IsInteger() {
+			s.add("structure.type", sp, jp+"/sample_type", "store samples as float32, float64 or integer counts (int8, int16, int32) with scale_factor", "%s is stored as %s, the layout wants float32, float64, int8, int16 or int32", sp, so.Type)
+		}
+		if record.SampleType(so.Type).IsInteger() {
+			s.sampleScale(ao, so, sp, jp)
 		}
 		if len(so.Shape) != 2 {
 			s.add("structure.shape", sp, jp, "samples are 2-D [sample, channel]", "%s has shape %v, the layout wants 2-D", sp, so.Shape)
@@ -401,6 +405,49 @@ func (s *structure) unexpected() {
 					s.add("structure.unexpected", ap+"/"+k, "", "muarc keeps but does not read it", "%s is not part of the layout", ap+"/"+k)
 				}
 			}
+		}
+	}
+}
+
+// sampleScale checks the scale of integer samples (layout 1.2): a reader
+// needs scale_factor (and add_offset) to get physical values from counts.
+func (s *structure) sampleScale(ao, so *h5.Object, sp, jp string) {
+	num := func(name string) (float64, bool, bool) {
+		a, ok := attr(so, name)
+		if !ok {
+			return 0, false, true
+		}
+		v, isNum := a.Value.(float64)
+		return v, true, isNum
+	}
+	sf, hasSF, okSF := num("scale_factor")
+	ao2, hasAO, okAO := num("add_offset")
+	hint := "integer samples are counts: store scale_factor and add_offset (float64) beside them, as LAYOUT.md says"
+	switch {
+	case !hasSF:
+		s.add("samples.scale", sp+"@scale_factor", jp+"/sample_type", hint, "%s holds %s counts without a scale_factor: a reader cannot get physical values", sp, so.Type)
+		return
+	case !okSF || hasAO && !okAO:
+		s.add("samples.scale", sp+"@scale_factor", jp+"/sample_type", hint, "%s: scale_factor or add_offset is not a float64", sp)
+		return
+	}
+	dec := -1
+	if a, ok := attr(so, "text_decimals"); ok {
+		v, isInt := a.Value.(int64)
+		if !isInt {
+			s.add("samples.scale", sp+"@text_decimals", jp+"/sample_type", hint, "%s: text_decimals is not an integer", sp)
+			return
+		}
+		dec = int(v)
+	}
+	if _, err := record.ScaleFromAttrs(sf, ao2, dec); err != nil {
+		s.add("samples.scale", sp+"@scale_factor", jp+"/sample_type", hint, "%s: %v", sp, err)
+	}
+	if a, ok := attr(so, "units"); ok {
+		u, _ := a.Value.(string)
+		au, _ := attr(ao, "unit")
+		if want, _ := au.Value.(string); u != want {
+			s.add("samples.scale", sp+"@units", jp+"/unit", "units on samples is the CF spelling of the array's unit; make them agree", "%s has units %q, the array's unit is %q", sp, u, want)
 		}
 	}
 }

@@ -60,9 +60,13 @@ written and the message names the readings and the flags that pick each
 Unit labels are kept as written. The report names every file read, what was
 found and what was not stored. An export folder (muarc export FILE -o D)
 imports back as OUT_DIR/D.h5, its derived_units_* and derived_muaps_* tables into
-each decomposition's derived/ group (never into the lab's unit table). EMG samples are stored as float32 only when every value reads back at the
-digits written, else float64 (--dtype forces one and the report gives the
-largest error that causes). Nothing is written when an input is bad; inputs
+each decomposition's derived/ group (never into the lab's unit table). EMG samples
+whose every cell is a plain decimal with the same number of decimals are integer
+counts in disguise: they are stored as counts (int8/int16/int32) with
+scale_factor and add_offset, exactly, and export writes every cell back as it
+was. Otherwise they are stored as float32 when every value reads back at the
+digits written, else float64 (--dtype forces a float type and the report gives
+the largest error that causes). Nothing is written when an input is bad; inputs
 are never changed. A profile (YAML or JSON, see convert/PROFILES.md) says which
 file is which and how to read it.
 
@@ -88,7 +92,7 @@ trial name and units (convert/PROFILES.md, "EDF and BDF files").`,
 	f.StringVarP(&fl.out, "output", "o", "", "output file (one recording) or folder (a study)")
 	f.BoolVar(&fl.overwrite, "overwrite", false, "replace existing output files")
 	f.BoolVar(&fl.json, "json", false, "print the import report as JSON")
-	f.StringVar(&fl.dtype, "dtype", "", "force the EMG sample type: float32 or float64")
+	f.StringVar(&fl.dtype, "dtype", "", "force a float EMG sample type: float32 or float64 (never integer counts)")
 	f.Float64Var(&fl.rate, "rate", 0, "sampling rate in Hz for signal files without a time column")
 	f.BoolVar(&fl.allowGaps, "allow-gaps", false, "accept gaps in time columns (missing samples become NaN)")
 	f.BoolVar(&fl.allowRange, "allow-out-of-range", false, "store inf/-Infinity cells and numbers beyond float64 as ±Inf, and non-zero numbers below it as 0 (default: refuse them)")

@@ -44,11 +44,7 @@ func demoTable(ctx *demoContext) error {
 					row.Muscles = append(row.Muscles, a.Muscle)
 				}
 				n, c := a.Samples.Shape()
-				size := int64(4)
-				if a.SampleType == "float64" {
-					size = 8
-				}
-				raw += int64(n) * int64(c) * size
+				raw += int64(n) * int64(c) * int64(a.SampleType.Bytes())
 				row.DurationS += a.DurationS()
 				if len(a.Decompositions) > 0 {
 					row.Units += len(a.Decompositions[0].Units)
