@@ -8,9 +8,11 @@ import (
 	"path/filepath"
 	"strconv"
 	"testing"
+	"time"
 
 	"muarc/recfile"
 	"muarc/record"
+	"muarc/synth"
 )
 
 // writeBenchCSV writes a channels x (rate*secs) EMG CSV with a time column
@@ -54,7 +56,7 @@ func BenchmarkScanAndStream64x2048x60(b *testing.B) {
 	b.SetBytes(size)
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		s, err := ScanSignals(p, SignalOptions{})
+		s, err := ScanSignals(p, SignalOptions{DType: record.Float32})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -88,7 +90,8 @@ func BenchmarkImportCSV64x2048x60(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		if rep.Files[0].DType != "float32" {
+		// Six decimals of every cell: int32 counts of 0.000001 mV.
+		if rep.Files[0].DType != "int32" {
 			b.Fatal(rep.Files[0].DTypeWhy)
 		}
 	}
@@ -133,4 +136,58 @@ func BenchmarkParseBlock(b *testing.B) {
 			b.Fatal(blk.err)
 		}
 	}
+}
+
+// BenchmarkImportCountsVsFloat32 imports the same realistic amplifier text
+// (synth.DefaultRealistic: 64 channels, 2048 Hz, 60 s, 16-bit counts of
+// 0.1907 uV written with 4 decimals) twice per iteration: as float32
+// (--dtype float32, the form before integer counts) and as counts (the
+// default). It reports the file bytes per sample of each, their ratio and
+// the import time ratio counts / float32, measured in the same run.
+func BenchmarkImportCountsVsFloat32(b *testing.B) {
+	dir := b.TempDir()
+	p := filepath.Join(dir, "emg.csv")
+	src, err := synth.RealisticEMG(synth.DefaultRealistic())
+	if err != nil {
+		b.Fatal(err)
+	}
+	f, err := os.Create(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	if err := src.WriteText(f, nil, false); err != nil {
+		b.Fatal(err)
+	}
+	f.Close()
+	rows, ch := src.Shape()
+	n := float64(rows * ch)
+	var t32, tc time.Duration
+	var size32, sizec int64
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		for _, dt := range []record.SampleType{record.Float32, ""} {
+			out := filepath.Join(dir, "out"+string(dt)+".h5")
+			t0 := time.Now()
+			rep, err := ImportRecording(Inputs{EMG: []string{p}, DType: dt}, out, recfile.WriteOptions{Overwrite: true})
+			if err != nil {
+				b.Fatal(err)
+			}
+			d := time.Since(t0)
+			st, _ := os.Stat(out)
+			if dt == "" {
+				if rep.Files[0].DType != "int16" || rep.Files[0].Counts.Scale != "0.1907" {
+					b.Fatalf("stored as %s: %s", rep.Files[0].DType, rep.Files[0].DTypeWhy)
+				}
+				tc += d
+				sizec = st.Size()
+			} else {
+				t32 += d
+				size32 = st.Size()
+			}
+		}
+	}
+	b.ReportMetric(float64(size32)/n, "B/sample-float32")
+	b.ReportMetric(float64(sizec)/n, "B/sample-counts")
+	b.ReportMetric(float64(size32)/float64(sizec), "size-ratio")
+	b.ReportMetric(float64(tc)/float64(t32), "time-ratio-counts/float32")
 }

@@ -13,3 +13,6 @@ done
 # seed of its own each run: muarc must store the truth or refuse.
 echo "== ./convert TestDischargeOracle (20000 cases)"
 MUARC_ORACLE_CASES=20000 MUARC_ORACLE_SEED=$(date +%s) CI=true go test -count=1 -run '^TestDischargeOracle$' ./convert
+# The integer-counts round trip (convert/counts_test.go) over more files.
+echo "== ./convert TestCountsRoundTrip (2000 files)"
+COUNTS_CASES=2000 CI=true go test -count=1 -timeout 60m -run '^TestCountsRoundTrip$' ./convert
