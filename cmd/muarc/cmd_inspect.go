@@ -195,7 +195,8 @@ func printInspection(w io.Writer, ins *inspection) {
 func keyAttrs(m map[string]any) []string {
 	var out []string
 	for _, k := range []string{"layout", "layout_version", "created", "software", "id", "muscle", "side", "rows", "columns", "ied_mm",
-		"task", "target_pct_mvc", "mvc", "mvc_unit", "sampling_rate_hz", "start_s", "unit", "method", "edited_by_hand", "first_lag"} {
+		"task", "target_pct_mvc", "mvc", "mvc_unit", "sampling_rate_hz", "start_s", "unit", "method", "edited_by_hand", "first_lag",
+		"scale_factor", "add_offset", "units", "text_decimals"} {
 		if _, ok := m[k]; ok {
 			out = append(out, k)
 		}
