@@ -210,3 +210,51 @@ func TestDerivedUnitsRefused(t *testing.T) {
 		}
 	}
 }
+
+// TestExportFolderIntoNamedFile: `import EXPORT_DIR -o back.h5` writes the
+// file back.h5 (it made a folder of that name holding EXPORT_DIR.h5); a
+// study of several recordings with an output named like a file is refused
+// before anything is written.
+func TestExportFolderIntoNamedFile(t *testing.T) {
+	gens, err := synth.Generate(synth.TestConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	orig := filepath.Join(dir, "orig.h5")
+	if err := recfile.Write(orig, gens[0].Recording, recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	exp := filepath.Join(dir, "exported")
+	if _, err := Export(orig, ExportKinds, ExportOptions{Dir: exp}); err != nil {
+		t.Fatal(err)
+	}
+	back := filepath.Join(dir, "back.H5")
+	res, err := ImportStudy(exp, back, StudyOptions{})
+	if err != nil || len(res) != 1 || res[0].Error != "" || res[0].Output != back {
+		t.Fatalf("%v %+v", err, res)
+	}
+	if st, err := os.Stat(back); err != nil || !st.Mode().IsRegular() {
+		t.Fatalf("%s is not a file: %v", back, err)
+	}
+	f, err := recfile.Open(back)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+
+	study := filepath.Join(dir, "study")
+	for _, sub := range []string{"a", "b"} {
+		if _, err := Export(orig, ExportKinds, ExportOptions{Dir: filepath.Join(study, sub)}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	out := filepath.Join(dir, "study.h5")
+	_, err = ImportStudy(study, out, StudyOptions{})
+	if err == nil || !strings.Contains(err.Error(), "holds 2 recordings") || !strings.Contains(err.Error(), "give a folder") {
+		t.Fatalf("want a refusal naming the 2 recordings, got %v", err)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Fatalf("%s was made: %v", out, err)
+	}
+}

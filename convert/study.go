@@ -214,8 +214,17 @@ func OutputName(studyDir, recording string) string {
 	return name + ".h5"
 }
 
+// isRecordingName reports whether an output path is named like a recording
+// file (.h5 or .hdf5, any case).
+func isRecordingName(p string) bool {
+	ext := strings.ToLower(filepath.Ext(p))
+	return ext == ".h5" || ext == ".hdf5"
+}
+
 // ImportStudy imports every recording the profile finds under src into
 // outDir (created when missing), in parallel, and returns each one's result
+// (when src is itself one recording, an export folder, and outDir is named
+// like a recording file, that file is written instead)
 // in the order found. A recording that fails is reported in its result; the
 // others are still imported. The error is for the study as a whole (no
 // recordings found, unreadable folders).
@@ -259,6 +268,17 @@ func ImportStudy(src, outDir string, opt StudyOptions) ([]StudyResult, error) {
 		opt.Shard = batch.All
 	}
 	names = opt.Shard.Select(names)
+	// An output named like a recording file (OUT.h5) is that file when the
+	// folder is one recording (an export folder); for a study it would
+	// become a folder with a file's name, so it is refused.
+	single := ""
+	if isRecordingName(outDir) {
+		if len(recs) != 1 || recs[0].Name != "." {
+			return nil, fmt.Errorf("%s: looks like a file name, but %s holds %d recordings, each written as a file of its own: give a folder for the output", outDir, src, len(recs))
+		}
+		single = outDir
+		outDir = filepath.Dir(outDir)
+	}
 	if err := os.MkdirAll(outDir, 0o755); err != nil {
 		return nil, err
 	}
@@ -274,6 +294,9 @@ func ImportStudy(src, outDir string, opt StudyOptions) ([]StudyResult, error) {
 			r.Inputs.SubjectFolder = ""
 		}
 		out := filepath.Join(outDir, OutputName(src, r.Name))
+		if single != "" {
+			out = single
+		}
 		res[i] = StudyResult{Recording: r.Name}
 		rep, err := ImportRecording(r.Inputs, out, recfile.WriteOptions{Overwrite: opt.Overwrite})
 		res[i].Report = rep

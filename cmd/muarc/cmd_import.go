@@ -59,7 +59,8 @@ written and the message names the readings and the flags that pick each
 --read ROLE.MEMBER=VALUE for one file role, e.g. --read emg.rate_hz=2048).
 Unit labels are kept as written. The report names every file read, what was
 found and what was not stored. An export folder (muarc export FILE -o D)
-imports back as OUT_DIR/D.h5, its derived_units_* and derived_muaps_* tables into
+imports back as OUT_DIR/D.h5 (or as OUT.h5 when -o names a .h5 file), its
+derived_units_* and derived_muaps_* tables into
 each decomposition's derived/ group (never into the lab's unit table). EMG samples
 whose every cell is a plain decimal with the same number of decimals are integer
 counts in disguise: they are stored as counts (int8/int16/int32) with
@@ -212,7 +213,7 @@ func importStudy(w io.Writer, fl importFlags, src string, prof *convert.Profile,
 		if len(failed) > 0 {
 			fmt.Fprintf(w, "%d of %d recordings failed: %s\n", len(failed), len(res), strings.Join(failed, ", "))
 		} else {
-			fmt.Fprintf(w, "imported %d recordings into %s\n", len(res), fl.out)
+			fmt.Fprintf(w, "imported %d %s into %s\n", len(res), pluralWord(len(res), "recording", "recordings"), fl.out)
 		}
 	}
 	for _, r := range res {
