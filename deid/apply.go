@@ -80,7 +80,10 @@ type Result struct {
 	Unscannable []string `json:"unscannable_values,omitempty"`
 
 	// needles are the original identifying values; never printed.
-	needles    []string
+	needles []string
+	// words are the parts of names that are ordinary words, judged in
+	// the values only (namewords.go).
+	words      *wordCheck
 	originalID string
 	origSessID string
 }
@@ -106,6 +109,7 @@ type applier struct {
 	own     []string // the subject's own identifiers, for scrubbing
 	removed map[string]int
 	needles []string
+	words   *wordCheck
 	// text are needles from free text, places, extras, columns and labels:
 	// not searched where the study's own kept metadata holds them.
 	text []string
@@ -132,7 +136,7 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 	if now.IsZero() {
 		now = time.Now()
 	}
-	a := &applier{damage: opt.AcceptedDamage, pol: pol, ps: opt.Pseudonymizer, res: &Result{}, subj: strings.TrimSpace(rec.Subject.ID), removed: map[string]int{}}
+	a := &applier{damage: opt.AcceptedDamage, pol: pol, ps: opt.Pseudonymizer, res: &Result{}, subj: strings.TrimSpace(rec.Subject.ID), removed: map[string]int{}, words: newWordCheck()}
 	a.res.originalID = a.subj
 	a.res.origSessID = rec.Session.ID
 	a.shift = a.ps.ShiftDays(a.subj, pol.ShiftMaxDays)
@@ -176,12 +180,15 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 		a.res.Unlisted = []string{}
 	}
 	a.res.Quasi = quasiOf(&out.Subject)
+	a.res.words = a.words
 	if !check {
 		return a.res, nil
 	}
-	if err := checkOutput(out, a.res.needles); err != nil {
+	notes, err := checkOutput(out, a.res.needles, a.words)
+	if err != nil {
 		return nil, err
 	}
+	a.res.Notes = append(a.res.Notes, notes...)
 	return a.res, nil
 }
 
@@ -288,8 +295,10 @@ func (a *applier) str(path, v string, set func(string)) {
 	case act == Keep || act == Scrub || k == schema.ClassName || k == schema.ClassValue:
 	case path == "subject.name":
 		a.needles = append(a.needles, nameNeedles(v)...)
+		a.words.add(v)
 	case path == "session.operator":
 		a.text = append(a.text, nameNeedles(v)...)
+		a.words.add(v)
 	case k == schema.ClassText && path != "subject.phone" && path != "subject.email":
 		a.text = append(a.text, needlesOf(v, k)...)
 	default:

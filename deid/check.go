@@ -35,9 +35,12 @@ type CheckReport struct {
 	// Findings are the strings holding one of the values, by path, with
 	// the policy line that would take each out.
 	Findings []Finding `json:"findings"`
-	// ValuesOnly are values that are ordinary words, searched in the
-	// values of the file only (masked).
+	// ValuesOnly are values and name parts that are ordinary words,
+	// searched in the values of the file only (masked).
 	ValuesOnly []string `json:"searched_in_values_only,omitempty"`
+	// Notes name the values that hold one of those words as a word
+	// (not a finding: read them before sharing).
+	Notes []string `json:"notes,omitempty"`
 	// Searched is the number of original values searched for.
 	Searched    int      `json:"values_searched"`
 	Unscannable []string `json:"too_short_for_byte_scan,omitempty"`
@@ -88,6 +91,7 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 		rep.Bytes = fi.Size()
 	}
 	var needles []string
+	wc := newWordCheck()
 	for _, n := range opt.Needles {
 		if strings.TrimSpace(n) != "" {
 			needles = append(needles, strings.TrimSpace(n))
@@ -106,25 +110,34 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 		if err != nil {
 			return nil, err
 		}
-		needles = append(needles, res...)
+		needles = append(needles, res.Needles()...)
+		if res.words != nil {
+			wc = res.words
+		}
 	}
 	needles = uniqueStrings(needles)
-	rep.Searched = len(needles)
-	for _, u := range Unscannable(needles) {
+	// A needle that is one ordinary word ("Hand") is judged in the values
+	// only, as a name part is (namewords.go): the raw bytes hold the
+	// layout's own names (edited_by_hand) by design.
+	var raw []string
+	for _, n := range needles {
+		for _, w := range splitWords(n) {
+			wc.parts[strings.ToLower(w)] = true
+		}
+		if len(tokens(n)) == 1 && strings.EqualFold(tokens(n)[0], n) && ordinary(n) {
+			wc.words[strings.ToLower(n)] = true
+			continue
+		}
+		raw = append(raw, n)
+	}
+	for _, w := range wc.list() {
+		rep.ValuesOnly = append(rep.ValuesOnly, maskValue(w))
+	}
+	rep.Searched = len(raw) + len(wc.words)
+	for _, u := range Unscannable(raw) {
 		rep.Unscannable = append(rep.Unscannable, maskValue(u))
 	}
-	if len(needles) > 0 {
-		// An ordinary word ("Hand") is searched in the values only: the raw
-		// bytes hold the layout's own names (edited_by_hand) by design.
-		var raw, plain []string
-		for _, n := range needles {
-			if len(tokens(n)) == 1 && strings.EqualFold(tokens(n)[0], n) && ordinary(n) {
-				plain = append(plain, n)
-				rep.ValuesOnly = append(rep.ValuesOnly, maskValue(n))
-			} else {
-				raw = append(raw, n)
-			}
-		}
+	if len(raw) > 0 || !wc.empty() {
 		leaks, err := ScanBytes(path, raw)
 		if err != nil {
 			return nil, err
@@ -136,12 +149,9 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 		if err != nil {
 			return nil, err
 		}
-		rep.Findings = checkStrings(f.Recording(), raw)
-		for _, x := range checkStrings(f.Recording(), plain) {
-			if !strings.HasSuffix(x.Path, nameSuffix) {
-				rep.Findings = append(rep.Findings, x)
-			}
-		}
+		wf, notes := checkWords(f.Recording(), wc)
+		rep.Findings = mergeFindings(checkStrings(f.Recording(), raw), wf)
+		rep.Notes = notes
 		f.Close()
 	}
 	return rep, nil
@@ -149,10 +159,6 @@ func CheckFile(path string, opt CheckOptions) (*CheckReport, error) {
 
 // collectOnly gathers the original identifying values of a recording under
 // a policy, without the output checks.
-func collectOnly(f *recfile.File, pol *Policy, k *Key) ([]string, error) {
-	res, err := apply(f.Recording(), Options{Policy: pol, Pseudonymizer: NewPseudonymizer(k), InputPath: f.Path()}, false)
-	if err != nil {
-		return nil, err
-	}
-	return res.Needles(), nil
+func collectOnly(f *recfile.File, pol *Policy, k *Key) (*Result, error) {
+	return apply(f.Recording(), Options{Policy: pol, Pseudonymizer: NewPseudonymizer(k), InputPath: f.Path()}, false)
 }

@@ -87,12 +87,23 @@ func finding(r *record.Recording, path, what string) Finding {
 }
 
 // checkOutput fails when a string of the de-identified recording still
-// holds an original identifying value or an absolute path.
-func checkOutput(r *record.Recording, needles []string) error {
-	if fs := checkStrings(r, needles); len(fs) > 0 {
-		return &OutputError{Findings: fs}
+// holds an original identifying value or an absolute path, or uses a name
+// part that is an ordinary word as a name or code; it returns a note for
+// each value that uses such a part as a word.
+func checkOutput(r *record.Recording, needles []string, wc *wordCheck) ([]string, error) {
+	fs := checkStrings(r, needles)
+	wf, notes := checkWords(r, wc)
+	if fs = mergeFindings(fs, wf); len(fs) > 0 {
+		return nil, &OutputError{Findings: fs}
 	}
-	return nil
+	return notes, nil
+}
+
+// mergeFindings joins two sorted lists of findings, sorted by path.
+func mergeFindings(a, b []Finding) []Finding {
+	out := append(append([]Finding(nil), a...), b...)
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Path < out[j].Path })
+	return out
 }
 
 // OutputError is the refusal of an output whose strings still identify.

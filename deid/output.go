@@ -103,7 +103,8 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	}
 	defer f.Close()
 	out := f.Recording()
-	sum.Findings = checkStrings(out, needles)
+	wf, _ := checkWords(out, res.words)
+	sum.Findings = mergeFindings(checkStrings(out, needles), wf)
 	sum.StillIdentifying = IdentifyingFields(out)
 	if len(sum.Leaks) > 0 || len(sum.Findings) > 0 {
 		return sum, 0, &OutputError{Findings: sum.Findings, Leaks: sum.Leaks}

@@ -30,6 +30,9 @@ func (r *CheckReport) WriteText(w io.Writer) {
 	if len(r.ValuesOnly) > 0 {
 		fmt.Fprintf(w, "  searched in the values only, being ordinary words (the layout's own names hold such words): %s\n", strings.Join(r.ValuesOnly, ", "))
 	}
+	for _, n := range r.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
 	if len(r.Unscannable) > 0 {
 		fmt.Fprintf(w, "  not searched (too short): %s\n", strings.Join(r.Unscannable, ", "))
 	}
