@@ -263,7 +263,7 @@ func TestKAnonymity(t *testing.T) {
 	}
 	add("f", "male", "40-49", "180-190", "80-90", "right")
 	add("g", "male", "50-59", "170-180", "80-90", "right")
-	r := KAnonymity(subs, 2)
+	r := KAnonymity(subs, 2, "json")
 	// By hand: groups {a,b,d,e}=4, {c}=1, {f}=1, {g}=1.
 	if r.Groups != 4 || r.Smallest != 1 || strings.Join(r.BelowK, ",") != "c,f,g" {
 		t.Fatalf("%+v", r)
@@ -301,7 +301,7 @@ func TestKAnonymity(t *testing.T) {
 		t.Error("widen")
 	}
 	// k = 5 over a,b,c,d,e: groups of 4 and 1, both below 5.
-	if r := KAnonymity(subs[:5], 5); r.Smallest != 1 || len(r.BelowK) != 5 || !r.Lifted || r.Steps[0].Change != "drop dominant_side" {
+	if r := KAnonymity(subs[:5], 5, "json"); r.Smallest != 1 || len(r.BelowK) != 5 || !r.Lifted || r.Steps[0].Change != "drop dominant_side" {
 		t.Fatalf("%+v", r)
 	}
 }
@@ -415,5 +415,43 @@ func TestHashingCounts(t *testing.T) {
 	hs := cs.(*hashingCounts)
 	if got, ok := hs.sum(); !ok || got != want["trials[0].arrays[0].samples"] {
 		t.Fatalf("streamed digest %s %v, want %s", got, ok, want["trials[0].arrays[0].samples"])
+	}
+}
+
+// TestKHintFormats: every policy hint of the k-anonymity ladders, written
+// in a YAML or a JSON policy's own format, is a line that the policy reader
+// accepts in a file of that format and that makes the change it names.
+func TestKHintFormats(t *testing.T) {
+	for q, ladder := range ladders {
+		for _, r := range ladder[1:] {
+			for _, c := range []struct{ name, doc string }{
+				{"p.yaml", "name: hint\nbase: muarc-safe-harbor-1\n" + r.hint("yaml") + "\n"},
+				{"p.json", `{"name": "hint", "base": "muarc-safe-harbor-1", ` + r.hint("json") + "}"},
+			} {
+				p, err := ParsePolicy([]byte(c.doc), c.name)
+				if err != nil {
+					t.Errorf("%s %q: the hint does not parse: %v\n%s", q, r.change, err, c.doc)
+					continue
+				}
+				if p.Format() != strings.TrimPrefix(c.name, "p.") {
+					t.Errorf("%s: format %q", c.name, p.Format())
+				}
+				for _, f := range r.drop {
+					if p.Fields[f] != Drop {
+						t.Errorf("%s %q: %s is %q, not drop", c.name, r.change, f, p.Fields[f])
+					}
+				}
+				got := map[string]float64{"age_band_years": float64(p.AgeBandYears), "height_band_cm": p.HeightBandCm, "mass_band_kg": p.MassBandKg}
+				if r.setting != "" && got[r.setting] != r.width {
+					t.Errorf("%s %q: %s = %g", c.name, r.change, r.setting, got[r.setting])
+				}
+			}
+		}
+	}
+	if h := ladders["height"][2].hint("yaml"); h != "fields: {subject.height_cm: drop}" {
+		t.Errorf("YAML hint %q", h)
+	}
+	if h := ladders["age_band"][1].hint("json"); h != `"age_band_years": 20` {
+		t.Errorf("JSON hint %q", h)
 	}
 }

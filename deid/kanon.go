@@ -87,8 +87,9 @@ type KReport struct {
 // height, mass, dominant side; "" counts as a value of its own) and reports
 // the smallest group, the subjects in groups below k and generalisations
 // that would lift them. One entry per subject: the caller passes each
-// subject once.
-func KAnonymity(subjects []SubjectQuasi, k int) *KReport {
+// subject once. The policy hints are written in format: "yaml" for a YAML
+// policy, else JSON (Policy.Format).
+func KAnonymity(subjects []SubjectQuasi, k int, format string) *KReport {
 	if k < 1 {
 		k = DefaultK
 	}
@@ -124,7 +125,7 @@ func KAnonymity(subjects []SubjectQuasi, k int) *KReport {
 		for l := 1; l <= levels[q]; l++ {
 			cur = generalise(cur, q, ladders[q][l])
 			st := ladders[q][l]
-			r.Steps = append(r.Steps, KStep{Change: st.change, PolicyHint: st.hint, BelowK: countBelow(cur, k)})
+			r.Steps = append(r.Steps, KStep{Change: st.change, PolicyHint: st.hint(format), BelowK: countBelow(cur, k)})
 		}
 	}
 	r.Lifted = below == 0
@@ -220,38 +221,65 @@ func countBelow(subjects []SubjectQuasi, k int) int {
 type rung struct {
 	width  float64
 	change string
-	hint   string
+	// setting is the policy setting that widens ("age_band_years"), or
+	// drop the fields that leave the value out.
+	setting string
+	drop    []string
+}
+
+// hint is the policy line of the rung in the policy file's format ("yaml"
+// for .yaml and .yml files; anything else is JSON, as the built-in policy).
+func (r rung) hint(format string) string {
+	yaml := format == "yaml"
+	if r.setting != "" {
+		if yaml {
+			return fmt.Sprintf("%s: %g", r.setting, r.width)
+		}
+		return fmt.Sprintf("%q: %g", r.setting, r.width)
+	}
+	var parts []string
+	for _, f := range r.drop {
+		if yaml {
+			parts = append(parts, f+": drop")
+		} else {
+			parts = append(parts, fmt.Sprintf("%q: \"drop\"", f))
+		}
+	}
+	if yaml {
+		return "fields: {" + strings.Join(parts, ", ") + "}"
+	}
+	return `"fields": {` + strings.Join(parts, ", ") + "}"
 }
 
 // ladders: level 0 is "as written". The band hints name the policy's band
 // options (Policy's age_band_years, height_band_cm, mass_band_kg); the drop
 // hints name the registry fields of quasiFields with their policy paths.
 var ladders = map[string][]rung{
-	"age_band": {{}, {20, "age bands of 20 years", `"age_band_years": 20`},
-		{40, "age bands of 40 years", `"age_band_years": 40`},
-		{0, "drop the age band", dropHint("age_band")}},
-	"height": {{}, {20, "height bands of 20 cm", `"height_band_cm": 20`},
-		{0, "drop height", dropHint("height")}},
-	"mass": {{}, {20, "mass bands of 20 kg", `"mass_band_kg": 20`},
-		{0, "drop mass", dropHint("mass")}},
-	"dominant_side": {{}, {0, "drop " + quasiFields["dominant_side"][0], dropHint("dominant_side")}},
-	"sex":           {{}, {0, "drop " + quasiFields["sex"][0], dropHint("sex")}},
+	"age_band": {{}, {20, "age bands of 20 years", "age_band_years", nil},
+		{40, "age bands of 40 years", "age_band_years", nil},
+		{0, "drop the age band", "", dropFields("age_band")}},
+	"height": {{}, {20, "height bands of 20 cm", "height_band_cm", nil},
+		{0, "drop height", "", dropFields("height")}},
+	"mass": {{}, {20, "mass bands of 20 kg", "mass_band_kg", nil},
+		{0, "drop mass", "", dropFields("mass")}},
+	"dominant_side": {{}, {0, "drop " + quasiFields["dominant_side"][0], "", dropFields("dominant_side")}},
+	"sex":           {{}, {0, "drop " + quasiFields["sex"][0], "", dropFields("sex")}},
 }
 
-// dropHint is the policy setting that drops a quasi-identifier's registry
-// fields, e.g. `"subject.mass_kg": "drop"`. A field the registry does not
-// have, or may not drop, is a programming error: it panics when the
-// package loads, so every deid test fails.
-func dropHint(quasi string) string {
-	var parts []string
+// dropFields are the policy paths of a quasi-identifier's registry fields,
+// e.g. "subject.mass_kg", for a hint that drops them. A field the registry
+// does not have, or may not drop, is a programming error: it panics when
+// the package loads, so every deid test fails.
+func dropFields(quasi string) []string {
+	var out []string
 	for _, name := range quasiFields[quasi] {
 		f, ok := schema.FieldByPath(schema.GroupByName("subject").Prefix + "." + name)
 		if !ok || !f.Allows(schema.ActDrop) {
 			panic(fmt.Sprintf("deid: quasi-identifier %s names subject field %q, which the registry does not have or may not drop", quasi, name))
 		}
-		parts = append(parts, fmt.Sprintf("%q: %q", f.Path(), schema.ActDrop))
+		out = append(out, f.Path())
 	}
-	return strings.Join(parts, ", ")
+	return out
 }
 
 // generalise returns a copy with one quasi-identifier widened to width (0:

@@ -21,19 +21,23 @@ func TestKAnonymityHintsArePolicySettings(t *testing.T) {
 	for q, ladder := range ladders {
 		for _, r := range ladder[1:] {
 			var m map[string]any
-			if err := json.Unmarshal([]byte("{"+r.hint+"}"), &m); err != nil {
-				t.Fatalf("%s: hint %s is not JSON members: %v", q, r.hint, err)
+			hint := r.hint("json")
+			if err := json.Unmarshal([]byte("{"+hint+"}"), &m); err != nil {
+				t.Fatalf("%s: hint %s is not JSON members: %v", q, hint, err)
+			}
+			if f, ok := m["fields"].(map[string]any); ok {
+				m = f // field lines sit under "fields"
 			}
 			for k, v := range m {
 				n++
 				if act, ok := v.(string); ok {
 					if err := checkField(k, Action(act)); err != nil {
-						t.Errorf("%s: hint %s: %v", q, r.hint, err)
+						t.Errorf("%s: hint %s: %v", q, hint, err)
 					}
 					continue
 				}
 				if !options[k] {
-					t.Errorf("%s: hint %s names %q, which is neither a field nor a Policy option", q, r.hint, k)
+					t.Errorf("%s: hint %s names %q, which is neither a field nor a Policy option", q, hint, k)
 				}
 			}
 		}

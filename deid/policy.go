@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"path/filepath"
 	"sort"
 	"strings"
 
@@ -79,7 +80,18 @@ type Policy struct {
 	// Fields maps a metadata-view path to its action.
 	Fields map[string]Action `json:"fields" yaml:"fields"`
 
-	sum string
+	sum    string
+	format string // "yaml" or "json": the file's format (Format)
+}
+
+// Format is the format of the file the policy was read from: "yaml" for
+// .yaml and .yml, else "json" (the built-in policy is JSON). Hints that
+// propose a policy line are written in it.
+func (p *Policy) Format() string {
+	if p == nil || p.format == "" {
+		return "json"
+	}
+	return p.format
 }
 
 // Default returns the built-in policy.
@@ -104,7 +116,10 @@ func LoadPolicy(path string) (*Policy, error) {
 // in .json, YAML when in .yaml or .yml, as every muarc document) and checks
 // every path and action. Errors give the file, line and column.
 func ParsePolicy(data []byte, name string) (*Policy, error) {
-	var p Policy
+	p := Policy{format: "json"}
+	if ext := strings.ToLower(filepath.Ext(name)); ext == ".yaml" || ext == ".yml" {
+		p.format = "yaml"
+	}
 	if err := docload.Decode(name, data, &p); err != nil {
 		var de *docload.Error
 		if errors.As(err, &de) && de.Hint == "" {

@@ -402,7 +402,7 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 		if k == 0 {
 			k = pol.K
 		}
-		rep.KAnonymity = KAnonymity(quasi, k)
+		rep.KAnonymity = KAnonymity(quasi, k, pol.Format())
 	}
 	if opt.Linkage != "" && !opt.DryRun && len(links) > 0 {
 		if err := writeLinkage(opt.Linkage, links); err != nil {
