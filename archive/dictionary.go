@@ -379,7 +379,8 @@ var patternWords = map[string]string{
 	`^[0-9]{4}(-[0-9]{2}-[0-9]{2})?$`: "YYYY-MM-DD, or YYYY",
 	`^[0-9]{4}-[0-9]{2}-[0-9]{2}[Tt][0-9]{2}:[0-9]{2}:[0-9]{2}(\.[0-9]+)?([Zz]|[+-][0-9]{2}:[0-9]{2})$`:    "YYYY-MM-DDThh:mm:ssZ (RFC 3339, with a time zone)",
 	`^[0-9]{4}-[0-9]{2}-[0-9]{2}([Tt][0-9]{2}:[0-9]{2}:[0-9]{2}(\.[0-9]+)?([Zz]|[+-][0-9]{2}:[0-9]{2}))?$`: "YYYY-MM-DD, or YYYY-MM-DDThh:mm:ssZ (RFC 3339)",
-	`^[A-Za-z0-9_-][A-Za-z0-9_.-]*$`: "letters, digits, _ - and . (not starting with .)",
+	`^[A-Za-z0-9_-][A-Za-z0-9_.-]*$`:        "letters, digits, _ - and . (not starting with .)",
+	`^[0-9]+(\.[0-9]+)?-[0-9]+(\.[0-9]+)?$`: "a band lo-hi, e.g. 170-180 (lo <= value < hi)",
 }
 
 func readablePattern(p string) string {

@@ -439,13 +439,13 @@ func quasiOf(s *record.Subject) QuasiIDs {
 	}
 	if !math.IsNaN(s.HeightCm) {
 		q.Height = strconv.FormatFloat(s.HeightCm, 'f', -1, 64)
-	} else if b, ok := s.Extra["height_band_cm"].(string); ok {
-		q.Height = b
+	} else {
+		q.Height = s.HeightBandCm
 	}
 	if !math.IsNaN(s.MassKg) {
 		q.Mass = strconv.FormatFloat(s.MassKg, 'f', -1, 64)
-	} else if b, ok := s.Extra["mass_band_kg"].(string); ok {
-		q.Mass = b
+	} else {
+		q.Mass = s.MassBandKg
 	}
 	return q
 }

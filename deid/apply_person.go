@@ -19,8 +19,10 @@ func (a *applier) subject(rec *record.Recording, out *record.Subject) {
 	a.age(rec, out)
 	a.str("subject.sex", in.Sex, func(s string) { out.Sex = s })
 	out.Extra = a.extra("subject", in.Extra)
-	a.measure("subject.height_cm", "height_band_cm", in.HeightCm, a.pol.HeightBandCm, &out.HeightCm, out)
-	a.measure("subject.mass_kg", "mass_band_kg", in.MassKg, a.pol.MassBandKg, &out.MassKg, out)
+	a.str("subject.height_band_cm", in.HeightBandCm, func(s string) { out.HeightBandCm = s })
+	a.str("subject.mass_band_kg", in.MassBandKg, func(s string) { out.MassBandKg = s })
+	a.measure("subject.height_cm", "height_band_cm", in.HeightCm, a.pol.HeightBandCm, &out.HeightCm, &out.HeightBandCm)
+	a.measure("subject.mass_kg", "mass_band_kg", in.MassKg, a.pol.MassBandKg, &out.MassKg, &out.MassBandKg)
 	a.str("subject.dominant_side", in.DominantSide, func(s string) { out.DominantSide = s })
 	a.str("subject.phone", in.Phone, func(s string) { out.Phone = s })
 	if p := strings.TrimSpace(in.Phone); p != "" {
@@ -118,9 +120,9 @@ func (a *applier) age(rec *record.Recording, out *record.Subject) {
 	a.note("subject.age_years", act, named, note)
 }
 
-// measure handles height or mass: keep, drop, or a band written as the
-// extra field bandKey ("height_band_cm").
-func (a *applier) measure(path, bandKey string, v, width float64, dst *float64, out *record.Subject) {
+// measure handles height or mass: keep, drop, or a band written to band,
+// the registry field bandKey ("height_band_cm").
+func (a *applier) measure(path, bandKey string, v, width float64, dst *float64, band *string) {
 	if math.IsNaN(v) {
 		return
 	}
@@ -130,11 +132,8 @@ func (a *applier) measure(path, bandKey string, v, width float64, dst *float64, 
 	case Keep:
 		*dst = v
 	case Generalize:
-		if out.Extra == nil {
-			out.Extra = record.Extra{}
-		}
-		out.Extra[bandKey] = MeasureBand(v, width)
-		note = "written as subject.extra." + bandKey + " (lo-hi: lo <= value < hi)"
+		*band = MeasureBand(v, width)
+		note = "written as subject." + bandKey + " (lo-hi: lo <= value < hi)"
 	}
 	a.note(path, act, named, note)
 }
@@ -208,6 +207,7 @@ func (a *applier) session(rec *record.Recording, out *record.Session) {
 	in := &rec.Session
 	a.str("session.id", in.ID, func(s string) { out.ID = s })
 	out.Extra = a.extra("session", in.Extra)
+	a.integer("session.date_year", in.DateYear, func(v int) { out.DateYear = v })
 	if in.Date != "" {
 		act, named := a.action("session.date")
 		note := ""
@@ -225,12 +225,8 @@ func (a *applier) session(rec *record.Recording, out *record.Session) {
 			if y, err := YearOf(in.Date); err != nil {
 				act, note = Drop, "dropped: "+err.Error()
 			} else {
-				n, _ := strconv.ParseInt(y, 10, 64)
-				if out.Extra == nil {
-					out.Extra = record.Extra{}
-				}
-				out.Extra["date_year"] = n
-				note = "written as session.extra.date_year (session.date must be a full date)"
+				out.DateYear, _ = strconv.Atoi(y)
+				note = "written as session.date_year (session.date must be a full date)"
 			}
 		}
 		if act != Keep {

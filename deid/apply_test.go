@@ -78,8 +78,9 @@ func TestApplyDefault(t *testing.T) {
 	if s.AgeBand != "60-69" || !math.IsNaN(s.AgeYears) {
 		t.Errorf("age %v band %q", s.AgeYears, s.AgeBand)
 	}
-	if !math.IsNaN(s.HeightCm) || s.Extra["height_band_cm"] != "170-180" || s.Extra["mass_band_kg"] != "60-70" {
-		t.Errorf("height/mass %v %v", s.HeightCm, s.Extra)
+	// MeasureBand by hand: floor(171.5/10)*10 = 170, floor(64/10)*10 = 60.
+	if !math.IsNaN(s.HeightCm) || s.HeightBandCm != "170-180" || s.MassBandKg != "60-70" || s.Extra["height_band_cm"] != nil {
+		t.Errorf("height/mass %v %q %q %v", s.HeightCm, s.HeightBandCm, s.MassBandKg, s.Extra)
 	}
 	if _, ok := s.Extra["tremor"]; ok {
 		t.Error("unlisted subject extra kept")
@@ -245,7 +246,7 @@ func TestApplyScrubAndYear(t *testing.T) {
 	if n := res2.Recording.Trials[0].Notes; n != "[name] checked the straps" {
 		t.Errorf("scrubbed notes %q", n)
 	}
-	if out.Session.Date != "" || out.Session.Extra["date_year"] != int64(2026) {
+	if out.Session.Date != "" || out.Session.DateYear != 2026 || out.Session.Extra["date_year"] != nil {
 		t.Errorf("session %+v", out.Session)
 	}
 	if len(res.Scrubbed) == 0 {

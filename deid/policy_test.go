@@ -37,7 +37,7 @@ func TestDefaultPolicySafeHarbor(t *testing.T) {
 	if got, named := p.ActionFor("trials[].arrays[].extra.amplifier_serial"); got != Drop || !named {
 		t.Errorf("extra pattern: %s %v", got, named)
 	}
-	if got, named := p.ActionFor("subject.extra.height_band_cm"); got != Keep || !named {
+	if got, named := p.ActionFor("subject.height_band_cm"); got != Keep || !named {
 		t.Errorf("band extra: %s %v", got, named)
 	}
 	if p.Name != DefaultPolicyName || p.K != DefaultK || p.AgeBandYears != 10 {

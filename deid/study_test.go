@@ -299,7 +299,7 @@ func TestShards(t *testing.T) {
 
 // TestOutputsValidate: de-identified files pass muarc validate (JSON Schema
 // of the metadata view via gojsonschema, structure, content) with no error:
-// year-only birth dates, shifted dates and band extras are valid values.
+// year-only birth dates, shifted dates, bands and the session year are valid values.
 func TestOutputsValidate(t *testing.T) {
 	src, _ := studyDir(t)
 	out := filepath.Join(t.TempDir(), "shared")
@@ -315,6 +315,17 @@ func TestOutputsValidate(t *testing.T) {
 			v := validate.File(filepath.Join(out, f.Output), validate.DefaultOptions())
 			if n := v.Count(validate.Error); n != 0 {
 				t.Errorf("%s: %d validation errors: %+v", f.Output, n, v.Findings)
+			}
+			// The bands and the session year are listed fields (since
+			// layout 1.2), read back as such, not as extra attributes.
+			r, err := recfile.Open(filepath.Join(out, f.Output))
+			if err != nil {
+				t.Fatal(err)
+			}
+			s, e := r.Recording().Subject, r.Recording().Session
+			r.Close()
+			if s.HeightBandCm == "" || s.MassBandKg == "" || s.Extra["height_band_cm"] != nil || (p != nil) != (e.DateYear != 0) || e.Extra["date_year"] != nil {
+				t.Errorf("%s: bands %q %q, year %d, extras %v %v", f.Output, s.HeightBandCm, s.MassBandKg, e.DateYear, s.Extra, e.Extra)
 			}
 		}
 	}

@@ -60,6 +60,11 @@ type Subject struct {
 	HeightCm float64 `layout:"height_cm"`
 	// MassKg is body mass in kilograms; NaN when not known.
 	MassKg float64 `layout:"mass_kg"`
+	// HeightBandCm and MassBandKg are height and mass as bands "lo-hi"
+	// (lo <= value < hi, in cm and kg), written by de-identification in
+	// place of HeightCm and MassKg; empty when none.
+	HeightBandCm string `layout:"height_band_cm"`
+	MassBandKg   string `layout:"mass_band_kg"`
 	// DominantSide is "left", "right", "both" or empty.
 	DominantSide string `layout:"dominant_side"`
 	// Phone and Email are contact details. Identifying.
@@ -83,7 +88,10 @@ type Session struct {
 	// PowerLineHz is the mains frequency where the session was recorded
 	// (50 or 60 Hz); 0 when not known (the writer leaves it out).
 	PowerLineHz float64 `layout:"power_line_hz"`
-	Extra       Extra
+	// DateYear is the session's year, written by de-identification in
+	// place of Date when the policy keeps the year only; 0 when none.
+	DateYear int `layout:"date_year"`
+	Extra    Extra
 }
 
 // ForceProfile is the trapezoidal target: rest, linear ramp up to the target
