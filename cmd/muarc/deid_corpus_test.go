@@ -9,8 +9,10 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"regexp"
 	"strings"
 	"testing"
+	"time"
 
 	"muarc/deid"
 	"muarc/internal/reftest"
@@ -53,36 +55,50 @@ var corpusPeople = []corpusPerson{
 
 const corpusOperator = "Perpetua Aldwinckle"
 
+// corpusDates are the birth date of subject k in the spellings the corpus
+// writes into free text (ISO 8601 in birth_date itself).
+func corpusDates(k int) (iso, dotted, words string) {
+	d := time.Date(1950+k*3, time.Month(1+k%12), 3+k, 0, 0, 0, 0, time.UTC)
+	return d.Format("2006-01-02"), d.Format("02.01.2006"), d.Format("2 January 2006")
+}
+
 // corpusRecording puts p's identifiers in every string-bearing part of the
-// layout: subject, session and extra fields, free text, channel labels, a
-// free-text unit column, a unit label, source names, history details, and (kept) group
-// names.
+// layout that a lab's own values fill: subject, session, study and their
+// extra fields, free text, trial and array extras (EDF annotations as
+// import keeps them), channel labels, a unit label, free-text unit
+// columns, source names, history details, and (kept) group names, the
+// study's description, a history entry's software and the name of a
+// number column of the unit table.
 func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Recording {
 	r := *base
 	low := strings.ToLower(strings.ReplaceAll(p.last, "-", ""))
+	iso, dotted, words := corpusDates(k)
+	email := strings.ToLower(p.first) + "." + low + "@example.org"
 	r.Subject.ID = fmt.Sprintf("RHB-%04d", 4100+k)
 	r.Subject.Name = p.first + " " + p.last
-	r.Subject.BirthDate = fmt.Sprintf("19%02d-%02d-%02d", 50+k*3, 1+k%12, 3+k)
+	r.Subject.BirthDate = iso
 	r.Subject.Phone = fmt.Sprintf("+1-555-01%02d", 20+k)
-	r.Subject.Email = strings.ToLower(p.first) + "." + low + "@example.org"
-	r.Subject.Notes = fmt.Sprintf("%s %s prefers mornings; son %s drives her", p.first, p.last, p.relative)
-	r.Subject.Extra = record.Extra{"mrn": p.mrn}
+	r.Subject.Email = email
+	r.Subject.Notes = fmt.Sprintf("%s %s prefers mornings; son %s drives her; born %s", p.first, p.last, p.relative, dotted)
+	r.Subject.Extra = record.Extra{"mrn": p.mrn, "alt_phone": fmt.Sprintf("155501%02d", 20+k)}
+	r.Study.Extra = record.Extra{"referral": "referred by the family of " + p.first + " " + p.last}
 	r.Session.ID = fmt.Sprintf("RHB-%04d-v1", 4100+k)
 	r.Session.Date = fmt.Sprintf("2026-03-%02dT09:30:00Z", 2+k)
 	r.Session.Site = fmt.Sprintf("7 %s Court clinic, %s", p.street, p.town)
 	r.Session.Operator = corpusOperator
-	r.Session.Notes = fmt.Sprintf("%s came with %s from %s", p.first, p.relative, p.town)
+	r.Session.Notes = fmt.Sprintf("%s came with %s from %s; date of birth %s", p.first, p.relative, p.town, words)
 	r.Session.Extra = record.Extra{"home_town": p.town}
-	r.Provenance.Sources = []record.SourceFile{{Name: p.last + "_" + p.first + "/2026-03-02/emg.csv", Role: "emg", Bytes: 1234}}
-	r.Provenance.History = append([]record.Operation(nil), base.Provenance.History...)
-	if len(r.Provenance.History) > 0 {
-		r.Provenance.History[0].Details = fmt.Sprintf(`{"source":"/home/lab/%s_%s"}`, p.last, p.first)
-	}
+	compact := strings.ReplaceAll(iso, "-", "") + "_" + strings.ReplaceAll(r.Session.Date[:10], "-", "")
+	r.Provenance.Sources = []record.SourceFile{{Name: p.last + "_" + p.first + "/2026-03-02/emg.csv", Role: "emg", Bytes: 1234},
+		{Name: p.last + "_" + p.first + "/" + compact + "_force.csv", Role: "force", Bytes: 999}}
+	r.Provenance.History = []record.Operation{{Action: "import", Software: "muarc 0.1.0", Time: time.Date(2026, 3, 15, 8, 0, 0, 0, time.UTC),
+		Details: fmt.Sprintf(`{"source":"/home/lab/%s_%s","mail":%q}`, p.last, p.first, email)}}
 	r.Trials = append([]record.Trial(nil), base.Trials...)
 	for ti := range r.Trials {
 		t := &r.Trials[ti]
-		t.Notes = fmt.Sprintf("%s %s asked for a break", p.first, p.last)
-		t.Extra = record.Extra{"escort": p.relative}
+		t.Notes = fmt.Sprintf("%s %s asked for a break on %02d.03.2026", p.first, p.last, 2+k)
+		t.Extra = record.Extra{"escort": p.relative, "contact": email, "callback": strings.ReplaceAll(r.Subject.Phone, "-", ""),
+			"edf_annotations": fmt.Sprintf(`[{"onset_s":1.5,"text":"%s %s pressed the button"}]`, p.first, p.last)}
 		if p.plain {
 			// kept values that hold the ordinary word on purpose
 			t.Task = "isometric hand grip and ankle force ramp with rest, long trial of mass sample grid"
@@ -90,7 +106,7 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 		t.Arrays = append([]record.Array(nil), t.Arrays...)
 		for ai := range t.Arrays {
 			a := &t.Arrays[ai]
-			a.Extra = record.Extra{"amplifier_serial": p.serial}
+			a.Extra = record.Extra{"amplifier_serial": p.serial, "fitted_by": corpusOperator}
 			a.Channels = append([]record.Channel(nil), a.Channels...)
 			a.Channels[0].Label = p.last + "01"
 			a.Channels[1].Label = p.mrn
@@ -104,10 +120,13 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 				d.Units[0].Label = "MU 1 " + p.first // a unit label with a name in it
 				d.Notes = "checked by " + corpusOperator + " with " + p.first
 				text := make([]string, len(d.Units))
+				rater := make([]string, len(d.Units))
 				for u := range text {
 					text[u] = []string{"son " + p.relative + " waited outside", "lives at 7 " + p.street + " Court", "", "Mr " + p.last + " was tired"}[u%4]
+					rater[u] = corpusOperator
 				}
-				d.ExtraColumns = append(append([]record.Column(nil), d.ExtraColumns...), record.Column{Name: "comment", Text: text})
+				d.ExtraColumns = append(append([]record.Column(nil), d.ExtraColumns...),
+					record.Column{Name: "comment", Text: text}, record.Column{Name: "rater", Text: rater})
 			}
 		}
 	}
@@ -115,17 +134,25 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 		t := &r.Trials[0]
 		t.Name = low + "_ramp"
 		t.Arrays[0].Name = low + "_ta"
-		t.Arrays[0].Decompositions[0].Name = low + "_auto"
+		d := &t.Arrays[0].Decompositions[0]
+		d.Name = low + "_auto"
+		r.Study.Description = "pilot recordings, first participant " + p.first + " " + p.last
+		r.Provenance.History = append(r.Provenance.History, record.Operation{Action: "import", Software: "lab notebook of " + p.last,
+			Time: time.Date(2026, 3, 20, 8, 0, 0, 0, time.UTC), Details: "{}"})
+		vals := make([]float64, len(d.Units))
+		d.ExtraColumns = append(d.ExtraColumns, record.Column{Name: low + "_tapping", Values: vals})
 	}
 	return &r
 }
 
 // corpusNeedles are the values the outside scanner searches for: every
-// identifier placed, minus ordinary surnames on their own.
+// identifier placed, minus ordinary surnames on their own (the layout's
+// names and English hold them; muarc judges them in the values).
 func corpusNeedles(k int, p corpusPerson, r *record.Recording) []string {
+	iso, dotted, words := corpusDates(k)
 	n := []string{p.first + " " + p.last, p.first, r.Subject.ID, r.Session.ID, r.Subject.Phone, strings.ReplaceAll(r.Subject.Phone, "-", ""),
 		r.Subject.Email, p.relative, p.street, p.town, p.mrn, p.serial, p.last + "01", corpusOperator, "Aldwinckle",
-		r.Subject.BirthDate, strings.ReplaceAll(r.Subject.BirthDate, "-", ""), r.Session.Date[:10], strings.ReplaceAll(r.Session.Date[:10], "-", ""),
+		iso, strings.ReplaceAll(iso, "-", ""), dotted, words, r.Session.Date[:10], strings.ReplaceAll(r.Session.Date[:10], "-", ""),
 		fmt.Sprintf("%02d.03.2026", 2+k), p.last + "_" + p.first}
 	if !p.plain {
 		n = append(n, p.last)
@@ -148,11 +175,15 @@ type corpusRun struct {
 
 // TestDeidentifyCorpus de-identifies a corpus of identified recordings and
 // proves, with a raw-bytes scanner that is not muarc's (testdata/rawscan.py,
-// Python standard library only), that no identifier is left in any output
-// or in a packed deposit; that subjects with ordinary surnames (Hand, Mass,
-// Sample, Force, Grid, Rest, Trial, Long) are never refused; that the one
-// subject with identifiers in kept group names is refused with the paths
-// and the policy lines that fix it, and written once they are applied; and
+// Python standard library only), that every identifier placed is in the
+// originals and none is left in any output, in the BIDS dataset exported
+// from them or in a packed deposit (file contents and names); that subjects
+// with ordinary surnames (Hand, Mass, Sample, Force, Grid, Rest, Trial,
+// Long) are never refused by the built-in policy and get a note where a
+// kept value uses the word; that a policy keeping channel labels refuses
+// every subject, ordinary surnames included (Hand01), naming the label;
+// that the one subject with identifiers in kept values is refused with the
+// paths and policy lines, and written once those lines are applied; and
 // that the dry run reports exactly what the real run does.
 func TestDeidentifyCorpus(t *testing.T) {
 	py := reftest.NeedPython(t)
@@ -184,7 +215,7 @@ func TestDeidentifyCorpus(t *testing.T) {
 	}
 	rawscan := func(files ...string) (hits [][]any, n int) {
 		t.Helper()
-		out, err := exec.Command(py, append([]string{"testdata/rawscan.py", needleFile}, files...)...).Output()
+		out, err := exec.Command(py, append([]string{"testdata/rawscan.py", needleFile, "--root", root}, files...)...).Output()
 		if err != nil {
 			t.Fatalf("rawscan: %v", err)
 		}
@@ -197,16 +228,28 @@ func TestDeidentifyCorpus(t *testing.T) {
 		}
 		return r.Hits, r.Files
 	}
-	// The scanner sees the identifiers in the originals (it can fail).
-	var origs []string
-	filepath.Walk(src, func(p string, fi os.FileInfo, err error) error {
-		if err == nil && !fi.IsDir() {
-			origs = append(origs, p)
+	filesUnder := func(dir string) []string {
+		var files []string
+		filepath.Walk(dir, func(p string, fi os.FileInfo, err error) error {
+			if err == nil && !fi.IsDir() {
+				files = append(files, p)
+			}
+			return nil
+		})
+		return files
+	}
+	// The scanner sees every identifier in the originals (it can fail).
+	hits, _ := rawscan(filesUnder(src)...)
+	seen := map[string]bool{}
+	for _, h := range hits {
+		if h[2] != "name" {
+			seen[h[1].(string)] = true
 		}
-		return nil
-	})
-	if hits, _ := rawscan(origs...); len(hits) < len(corpusPeople)*10 {
-		t.Fatalf("the outside scanner finds only %d identifiers in the originals", len(hits))
+	}
+	for _, n := range needles {
+		if !seen[n] {
+			t.Errorf("the outside scanner does not find %q in the originals", n)
+		}
 	}
 
 	// A fixed key, not `muarc key new`: date shifts follow the key, and a
@@ -218,14 +261,25 @@ func TestDeidentifyCorpus(t *testing.T) {
 	if err := os.WriteFile(key, []byte(hex.EncodeToString(fixed[:])+"\n"), 0o600); err != nil {
 		t.Fatal(err)
 	}
+	keepLabels := filepath.Join(root, "keep-labels.yaml")
+	os.WriteFile(keepLabels, []byte("name: corpus-keep-labels\nbase: muarc-safe-harbor-1\nfields:\n"+
+		"  trials[].arrays[].channels[].label: keep\n  trials[].arrays[].decompositions[].units[].label: keep\n"), 0o644)
 	fixPolicy := filepath.Join(root, "fix.yaml")
-	os.WriteFile(fixPolicy, []byte("name: corpus-fix\nbase: muarc-safe-harbor-1\nfields:\n"+
-		"  trials[].name: pseudonymize\n  trials[].arrays[].name: pseudonymize\n  trials[].arrays[].decompositions[].name: pseudonymize\n"), 0o644)
 
+	var kept corpusPerson
+	for _, p := range corpusPeople {
+		if p.kept {
+			kept = p
+		}
+	}
+	keptLow := strings.ToLower(kept.last)
+	wantKept := []string{"provenance.history[1].software", "study.description",
+		"trials[0].arrays[0].decompositions[0].name", "trials[0].arrays[0].decompositions[0].units[].extra." + keptLow + "_tapping (its name)",
+		"trials[0].arrays[0].name", "trials[0].name"}
 	for _, stage := range []struct {
 		name   string
 		policy []string
-	}{{"default", nil}, {"fixed", []string{"--policy", fixPolicy}}} {
+	}{{"default", nil}, {"keep-labels", []string{"--policy", keepLabels}}, {"fixed", []string{"--policy", fixPolicy}}} {
 		out := filepath.Join(root, "shared-"+stage.name)
 		args := append([]string{"deidentify", src, "-o", out, "--key", key, "--json"}, stage.policy...)
 		dryOut, se, dryCode := runMuarc(t, root, append(args, "--dry-run")...)
@@ -241,6 +295,7 @@ func TestDeidentifyCorpus(t *testing.T) {
 			t.Fatalf("%s: dry run exit %d, %d files; run exit %d, %d files", stage.name, dryCode, len(dry.Files), realCode, len(real.Files))
 		}
 		var written []string
+		fixes := map[string]string{}
 		for i := range real.Files {
 			d, r := dry.Files[i], real.Files[i]
 			if d.Input != r.Input || d.Output != r.Output || d.Error != r.Error || !reflect.DeepEqual(d.Findings, r.Findings) ||
@@ -253,21 +308,49 @@ func TestDeidentifyCorpus(t *testing.T) {
 					p = q
 				}
 			}
-			refuse := p.kept && stage.name == "default"
+			refuse := p.kept && stage.name == "default" || stage.name == "keep-labels"
 			if (r.Error != "") != refuse {
 				t.Errorf("%s: %s: error %q (refusal expected: %v)", stage.name, r.Input, r.Error, refuse)
 			}
-			if refuse {
-				var paths []string
+			var paths []string
+			for _, f := range r.Findings {
+				paths = append(paths, f.Path)
+				m := fixLine.FindStringSubmatch(f.Fix)
+				if m == nil || strings.Contains(f.What, p.last) || strings.Contains(f.What, p.first) {
+					t.Errorf("%s: %s: finding %+v: want a masked value and a policy line", stage.name, f.Path, f)
+					continue
+				}
+				fixes[m[1]] = strings.SplitN(strings.ReplaceAll(m[2], " or ", ", "), ", ", 2)[0]
+			}
+			switch {
+			case stage.name == "keep-labels":
+				// Every subject's first channel label holds the surname
+				// glued to digits (Hallbeck01, Hand01), the second a record
+				// number, the first unit label the first name.
+				want := map[string]bool{"trials[0].arrays[0].channels[0].label": true, "trials[0].arrays[0].channels[1].label": true,
+					"trials[0].arrays[0].decompositions[0].units[0].label": true}
 				for _, f := range r.Findings {
-					paths = append(paths, f.Path)
-					if !strings.Contains(f.Fix, "to pseudonymize") || strings.Contains(f.Fix, "drop") {
-						t.Errorf("%s: fix %q offers an action the field does not allow (a name is kept or pseudonymized)", f.Path, f.Fix)
+					delete(want, f.Path)
+					if strings.Contains(f.Path, "label") && !strings.Contains(f.Fix, "to generalize or drop") {
+						t.Errorf("%s: fix %q, want generalize or drop", f.Path, f.Fix)
 					}
 				}
-				want := "trials[0].arrays[0].decompositions[0].name,trials[0].arrays[0].name,trials[0].name"
-				if strings.Join(paths, ",") != want {
-					t.Errorf("%s: findings at %v, want %s", r.Input, paths, want)
+				if len(want) > 0 {
+					t.Errorf("keep-labels: %s: no finding at %v (findings %v)", r.Input, want, paths)
+				}
+			case refuse:
+				if strings.Join(paths, ",") != strings.Join(wantKept, ",") {
+					t.Errorf("%s: findings at %v, want %v", r.Input, paths, wantKept)
+				}
+			case p.plain && stage.name == "default":
+				// Never silent: the task that uses the surname as a word is
+				// a note naming the field.
+				var noted bool
+				for _, n := range r.Notes {
+					noted = noted || strings.HasPrefix(n, "trials[0].task holds") && !strings.Contains(n, p.last)
+				}
+				if !noted {
+					t.Errorf("%s: no note naming trials[0].task: %q", r.Input, r.Notes)
 				}
 			}
 			if r.Error == "" {
@@ -276,6 +359,14 @@ func TestDeidentifyCorpus(t *testing.T) {
 		}
 		if hits, n := rawscan(written...); len(hits) != 0 || n != len(written) {
 			t.Errorf("%s: the outside scanner finds identifiers in the outputs: %v", stage.name, hits)
+		}
+		if stage.name == "default" {
+			// The fixed stage applies the lines the findings proposed.
+			doc := "name: corpus-fix\nbase: muarc-safe-harbor-1\nfields:\n"
+			for path, act := range fixes {
+				doc += fmt.Sprintf("  %q: %s\n", path, act)
+			}
+			os.WriteFile(fixPolicy, []byte(doc), 0o644)
 		}
 		if stage.name != "fixed" {
 			continue
@@ -287,15 +378,20 @@ func TestDeidentifyCorpus(t *testing.T) {
 		if o, se, code := runMuarc(t, root, "pack", out, "-o", dep); code != 0 {
 			t.Fatalf("pack: %s%s", o, se)
 		}
-		var files []string
-		filepath.Walk(dep, func(p string, fi os.FileInfo, err error) error {
-			if err == nil && !fi.IsDir() {
-				files = append(files, p)
-			}
-			return nil
-		})
+		files := filesUnder(dep)
 		if hits, n := rawscan(files...); len(hits) != 0 || n < len(corpusPeople)+3 {
 			t.Errorf("deposit: the outside scanner finds identifiers in %d files: %v", n, hits)
 		}
+		bidsOut := filepath.Join(root, "bids")
+		if o, se, code := runMuarc(t, root, "export", out, "--bids", bidsOut); code != 0 {
+			t.Fatalf("export --bids: %s%s", o, se)
+		}
+		files = filesUnder(bidsOut)
+		if hits, n := rawscan(files...); len(hits) != 0 || n < len(corpusPeople)*3 {
+			t.Errorf("BIDS export: the outside scanner finds identifiers in %d files: %v", n, hits)
+		}
 	}
 }
+
+// fixLine reads a finding's fix: the policy path and the actions offered.
+var fixLine = regexp.MustCompile(`^fix: set the policy line "([^"]+)" to (.+)$`)
