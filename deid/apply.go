@@ -29,6 +29,9 @@ type Options struct {
 	// findings of a damaged source de-identified on request
 	// (StudyOptions.AcceptDamaged); the history entry records them.
 	AcceptedDamage map[string]int
+
+	// people are the other subjects of the study run (others.go).
+	people *studyPeople
 }
 
 // FieldOutcome says what happened to one field holding a value.
@@ -84,6 +87,7 @@ type Result struct {
 	// words are the parts of names that are ordinary words, judged in
 	// the values only (namewords.go).
 	words      *wordCheck
+	people     *studyPeople
 	originalID string
 	origSessID string
 }
@@ -180,11 +184,11 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 		a.res.Unlisted = []string{}
 	}
 	a.res.Quasi = quasiOf(&out.Subject)
-	a.res.words = a.words
+	a.res.words, a.res.people = a.words, opt.people
 	if !check {
 		return a.res, nil
 	}
-	notes, err := checkOutput(out, a.res.needles, a.words)
+	notes, err := checkOutput(out, a.res.needles, a.words, checkOthers(out, opt.people, a.subj))
 	if err != nil {
 		return nil, err
 	}

@@ -287,7 +287,7 @@ func checkWords(r *record.Recording, wc *wordCheck) (findings []Finding, notes [
 		switch {
 		case !ok:
 		case h.finding:
-			findings = append(findings, finding(r, path, fmt.Sprintf("holds %s, a part of the name that is an ordinary word, used as a name or code (%s)", maskValue(h.word), h.why)))
+			findings = append(findings, finding(r, path, s, fmt.Sprintf("holds %s, a part of the name that is an ordinary word, used as a name or code (%s)", maskValue(h.word), h.why)))
 		default:
 			notes = append(notes, fmt.Sprintf("%s holds %s, a part of the name that is an ordinary word, used as a word there: read it before sharing", path, maskValue(h.word)))
 		}

@@ -124,3 +124,47 @@ func TestOrdinarySurnameLabel(t *testing.T) {
 		t.Errorf("checkWords: %+v", wf)
 	}
 }
+
+// TestFindingPlaceAndFix: a finding names the HDF5 place (the subject's
+// name is an attribute, a trial's name is its group's name) and offers
+// only actions that take the value out: shift and year only for a date.
+func TestFindingPlaceAndFix(t *testing.T) {
+	r := identifiable()
+	f := finding(r, "subject.name", "Ottilie Quarnstrom", "x")
+	if f.HDF5 != "attribute name of /subject" {
+		t.Errorf("subject.name in the file: %q", f.HDF5)
+	}
+	if f := finding(r, "trials[0].name", "ramp_30", "x"); f.HDF5 != "the name of group /trials/ramp_30" {
+		t.Errorf("trials[0].name in the file: %q", f.HDF5)
+	}
+	text := finding(r, "trials[0].arrays[0].decompositions[0].units[0].extra.rater", "Mrs Quarnstrom", "x")
+	date := finding(r, "subject.extra.visit_day", "2026-03-14", "x")
+	if !strings.HasSuffix(text.Fix, "to drop, pseudonymize or scrub") || !strings.HasSuffix(date.Fix, "to drop, pseudonymize, scrub, shift or year") {
+		t.Errorf("fixes: text %q, date %q", text.Fix, date.Fix)
+	}
+}
+
+// TestOtherSubjects: a value naming another subject of the study (its
+// surname inside a token, its e-mail address) is found; the subject's own
+// name is left to its own needles; ordinary words are not names.
+func TestOtherSubjects(t *testing.T) {
+	sp := newStudyPeople()
+	sp.add("S1", "Wendeline Hallbeck", "w.hallbeck@example.org")
+	sp.add("S2", "Ilvana Hand", "")
+	for _, c := range []struct {
+		value, self string
+		want        bool
+	}{
+		{"same protocol as Hallbeck", "S2", true},
+		{"ramp_hallbeck01", "S2", true},
+		{"ask w.hallbeck@example.org.", "S2", true},
+		{"same protocol as Hallbeck", "S1", false}, // own name: its own needles
+		{"isometric hand grip", "S1", false},       // Hand is an ordinary word
+		{"Ilvana came too", "S1", true},
+		{"tibialis anterior", "S1", false},
+	} {
+		if got := sp.other(c.value, c.self); got != c.want {
+			t.Errorf("%q for %s: %v, want %v", c.value, c.self, got, c.want)
+		}
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"reflect"
 	"regexp"
+	"slices"
 	"sort"
 	"strings"
 	"time"
@@ -61,21 +62,27 @@ func checkStrings(r *record.Recording, needles []string) []Finding {
 			return
 		}
 		if hits := scanText(s, needles); len(hits) > 0 {
-			out = append(out, finding(r, path, "still holds an original identifying value "+maskValue(hits[0])))
+			out = append(out, finding(r, path, s, "still holds an original identifying value "+maskValue(hits[0])))
 		}
 		if absPath.MatchString(s) {
-			out = append(out, finding(r, path, "holds an absolute file path"))
+			out = append(out, finding(r, path, s, "holds an absolute file path"))
 		}
 	})
 	sort.Slice(out, func(i, j int) bool { return out[i].Path < out[j].Path })
 	return out
 }
 
-// finding names the HDF5 place of a path and the policy line that fixes it.
-func finding(r *record.Recording, path, what string) Finding {
+// finding names the HDF5 place of a path holding value and the policy line
+// that fixes it.
+func finding(r *record.Recording, path, value, what string) Finding {
 	f := Finding{Path: path, HDF5: hdf5Place(r, strings.TrimSuffix(path, nameSuffix)), What: what}
 	pp := policyPath(strings.TrimSuffix(path, nameSuffix))
-	switch acts := fixActions(pp); {
+	acts := fixActions(pp)
+	if c, _ := classOf(pp); c == extraClass && DateSpellings(value) == nil {
+		// shift and year only apply to a date; on other text they drop it
+		acts = slices.DeleteFunc(acts, func(a Action) bool { return a == Shift || a == Year })
+	}
+	switch {
 	case len(acts) > 0:
 		f.Fix = fmt.Sprintf("fix: set the policy line %q to %s", pp, joinActions(acts))
 	case strings.HasPrefix(pp, "provenance.history[]."):
@@ -88,12 +95,13 @@ func finding(r *record.Recording, path, what string) Finding {
 
 // checkOutput fails when a string of the de-identified recording still
 // holds an original identifying value or an absolute path, or uses a name
-// part that is an ordinary word as a name or code; it returns a note for
-// each value that uses such a part as a word.
-func checkOutput(r *record.Recording, needles []string, wc *wordCheck) ([]string, error) {
+// part that is an ordinary word as a name or code, or holds one of more
+// (another subject's name); it returns a note for each value that uses such
+// a part as a word.
+func checkOutput(r *record.Recording, needles []string, wc *wordCheck, more []Finding) ([]string, error) {
 	fs := checkStrings(r, needles)
 	wf, notes := checkWords(r, wc)
-	if fs = mergeFindings(fs, wf); len(fs) > 0 {
+	if fs = mergeFindings(fs, append(wf, more...)); len(fs) > 0 {
 		return nil, &OutputError{Findings: fs}
 	}
 	return notes, nil
@@ -154,7 +162,7 @@ func hdf5Place(r *record.Recording, path string) string {
 			}
 			return "attribute " + rest + " of " + b.String()
 		case i == len(parts)-1:
-			if name == "name" && i > 0 {
+			if name == "name" && i > 0 && (strings.HasPrefix(parts[i-1], "trials[") || strings.HasPrefix(parts[i-1], "arrays[") || strings.HasPrefix(parts[i-1], "decompositions[")) {
 				return "the name of group " + b.String()
 			}
 			if i > 0 && strings.HasSuffix(parts[i-1], "]") && (strings.HasPrefix(parts[i-1], "channels") || strings.HasPrefix(parts[i-1], "units") || strings.HasPrefix(parts[i-1], "sources") || strings.HasPrefix(parts[i-1], "history")) {

@@ -24,7 +24,7 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	}
 	defer f.Close()
 	rec := f.Recording()
-	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now, AcceptedDamage: j.damage})
+	res, err := Apply(rec, Options{Policy: pol, Pseudonymizer: ps, InputPath: j.in, Now: opt.Now, AcceptedDamage: j.damage, people: j.people})
 	if err != nil {
 		return fo, err
 	}
@@ -104,7 +104,7 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	defer f.Close()
 	out := f.Recording()
 	wf, _ := checkWords(out, res.words)
-	sum.Findings = mergeFindings(checkStrings(out, needles), wf)
+	sum.Findings = mergeFindings(checkStrings(out, needles), append(wf, checkOthers(out, res.people, res.originalID)...))
 	sum.StillIdentifying = IdentifyingFields(out)
 	if len(sum.Leaks) > 0 || len(sum.Findings) > 0 {
 		return sum, 0, &OutputError{Findings: sum.Findings, Leaks: sum.Leaks}

@@ -176,6 +176,7 @@ type job struct {
 	out      string // output name
 	preError error
 	damage   map[string]int // integrity findings accepted, by check id
+	people   *studyPeople   // the run's subjects, for the other-subject check
 }
 
 // DeidentifyStudy de-identifies every muarc file (*.h5) under srcDir into
@@ -307,7 +308,9 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 	checkSources(jobs, opt)
 	// Pre-pass: ids, pseudonyms, collisions and output names, before any write.
 	subjects, sessions := NewRegistry(), NewRegistry()
+	people := newStudyPeople()
 	for _, j := range jobs {
+		j.people = people
 		if j.preError != nil {
 			continue
 		}
@@ -322,6 +325,7 @@ func run(jobs []*job, outDir string, single bool, opt StudyOptions) (*StudyRepor
 			j.preError = fmt.Errorf("subject.id is empty: give every recording its subject code before de-identifying (the code keys the pseudonym and the date shift)")
 			continue
 		}
+		people.add(j.subj, viewString(view, "subject", "name"), viewString(view, "subject", "email"))
 		if err := subjects.Add(ps.Subject(j.subj), j.subj); err != nil {
 			j.preError = err
 		}

@@ -55,6 +55,9 @@ var corpusPeople = []corpusPerson{
 
 const corpusOperator = "Perpetua Aldwinckle"
 
+// corpusCross is the subject whose task names the first subject.
+const corpusCross = 1
+
 // corpusDates are the birth date of subject k in the spellings the corpus
 // writes into free text (ISO 8601 in birth_date itself).
 func corpusDates(k int) (iso, dotted, words string) {
@@ -103,6 +106,10 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 			// kept values that hold the ordinary word on purpose
 			t.Task = "isometric hand grip and ankle force ramp with rest, long trial of mass sample grid"
 		}
+		if k == corpusCross {
+			// a kept value naming another subject of the study
+			t.Task = "isometric ramp, same protocol as " + corpusPeople[0].last
+		}
 		t.Arrays = append([]record.Array(nil), t.Arrays...)
 		for ai := range t.Arrays {
 			a := &t.Arrays[ai]
@@ -136,6 +143,7 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 		t.Arrays[0].Name = low + "_ta"
 		d := &t.Arrays[0].Decompositions[0]
 		d.Name = low + "_auto"
+		t.Arrays[0].PlacementDescription = "placed by " + corpusOperator
 		r.Study.Description = "pilot recordings, first participant " + p.first + " " + p.last
 		r.Provenance.History = append(r.Provenance.History, record.Operation{Action: "import", Software: "lab notebook of " + p.last,
 			Time: time.Date(2026, 3, 20, 8, 0, 0, 0, time.UTC), Details: "{}"})
@@ -182,8 +190,9 @@ type corpusRun struct {
 // Long) are never refused by the built-in policy and get a note where a
 // kept value uses the word; that a policy keeping channel labels refuses
 // every subject, ordinary surnames included (Hand01), naming the label;
-// that the one subject with identifiers in kept values is refused with the
-// paths and policy lines, and written once those lines are applied; and
+// that the one subject with identifiers in kept values, and the one whose
+// task names another subject, are refused with the paths and policy lines,
+// and written once those lines are applied; and
 // that the dry run reports exactly what the real run does.
 func TestDeidentifyCorpus(t *testing.T) {
 	py := reftest.NeedPython(t)
@@ -275,7 +284,7 @@ func TestDeidentifyCorpus(t *testing.T) {
 	keptLow := strings.ToLower(kept.last)
 	wantKept := []string{"provenance.history[1].software", "study.description",
 		"trials[0].arrays[0].decompositions[0].name", "trials[0].arrays[0].decompositions[0].units[].extra." + keptLow + "_tapping (its name)",
-		"trials[0].arrays[0].name", "trials[0].name"}
+		"trials[0].arrays[0].name", "trials[0].arrays[0].placement_description", "trials[0].name"}
 	for _, stage := range []struct {
 		name   string
 		policy []string
@@ -308,7 +317,8 @@ func TestDeidentifyCorpus(t *testing.T) {
 					p = q
 				}
 			}
-			refuse := p.kept && stage.name == "default" || stage.name == "keep-labels"
+			cross := p.last == corpusPeople[corpusCross].last
+			refuse := (p.kept || cross) && stage.name == "default" || stage.name == "keep-labels"
 			if (r.Error != "") != refuse {
 				t.Errorf("%s: %s: error %q (refusal expected: %v)", stage.name, r.Input, r.Error, refuse)
 			}
@@ -337,6 +347,10 @@ func TestDeidentifyCorpus(t *testing.T) {
 				}
 				if len(want) > 0 {
 					t.Errorf("keep-labels: %s: no finding at %v (findings %v)", r.Input, want, paths)
+				}
+			case cross && stage.name == "default":
+				if strings.Join(paths, ",") != "trials[0].task" {
+					t.Errorf("%s: findings at %v, want trials[0].task (it names another subject)", r.Input, paths)
 				}
 			case refuse:
 				if strings.Join(paths, ",") != strings.Join(wantKept, ",") {
