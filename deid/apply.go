@@ -88,6 +88,7 @@ type Result struct {
 	// the values only (namewords.go).
 	words      *wordCheck
 	people     *studyPeople
+	phones     []string
 	originalID string
 	origSessID string
 }
@@ -114,6 +115,7 @@ type applier struct {
 	removed map[string]int
 	needles []string
 	words   *wordCheck
+	phones  []string // the last 7 digits of phone numbers taken out
 	// text are needles from free text, places, extras, columns and labels:
 	// not searched where the study's own kept metadata holds them.
 	text []string
@@ -184,11 +186,11 @@ func apply(rec *record.Recording, opt Options, check bool) (*Result, error) {
 		a.res.Unlisted = []string{}
 	}
 	a.res.Quasi = quasiOf(&out.Subject)
-	a.res.words, a.res.people = a.words, opt.people
+	a.res.words, a.res.people, a.res.phones = a.words, opt.people, a.phones
 	if !check {
 		return a.res, nil
 	}
-	notes, err := checkOutput(out, a.res.needles, a.words, checkOthers(out, opt.people, a.subj))
+	notes, err := checkOutput(out, a.res.needles, a.words, append(checkOthers(out, opt.people, a.subj), checkPhones(out, a.phones)...))
 	if err != nil {
 		return nil, err
 	}

@@ -26,8 +26,11 @@ func (a *applier) subject(rec *record.Recording, out *record.Subject) {
 	a.str("subject.dominant_side", in.DominantSide, func(s string) { out.DominantSide = s })
 	a.str("subject.phone", in.Phone, func(s string) { out.Phone = s })
 	if p := strings.TrimSpace(in.Phone); p != "" {
-		if d := digitsOnly(p); len(d) >= 7 && d != p {
-			a.needles = append(a.needles, d)
+		if d := digitsOnly(p); len(d) >= 7 {
+			if d != p {
+				a.needles = append(a.needles, d)
+			}
+			a.phones = append(a.phones, d[len(d)-7:])
 		}
 	}
 	a.str("subject.email", in.Email, func(s string) { out.Email = s })

@@ -168,3 +168,27 @@ func TestOtherSubjects(t *testing.T) {
 		}
 	}
 }
+
+// TestPhoneWrittenOtherwise: the subject's phone number in a kept value,
+// spaced or bracketed differently from the recorded one, is a finding.
+func TestPhoneWrittenOtherwise(t *testing.T) {
+	rec := identifiable() // phone +44 20 7946 0958
+	for _, v := range []string{"call 7946-0958", "tel. (020) 79 46 09 58", "+442079460958"} {
+		rec.Trials[0].Task = v
+		_, err := Apply(rec, Options{Pseudonymizer: testKey(t)})
+		oe, ok := err.(*OutputError)
+		if !ok || len(oe.Findings) == 0 {
+			t.Errorf("%q: want a finding at trials[0].task, got %v", v, err)
+			continue
+		}
+		for _, f := range oe.Findings {
+			if f.Path != "trials[0].task" {
+				t.Errorf("%q: finding at %s", v, f.Path)
+			}
+		}
+	}
+	rec.Trials[0].Task = "ramp of 20 s at 30 % MVC, 2048 samples per second"
+	if _, err := Apply(rec, Options{Pseudonymizer: testKey(t)}); err != nil {
+		t.Errorf("a task without the number: %v", err)
+	}
+}

@@ -85,3 +85,23 @@ func checkOthers(r *record.Recording, sp *studyPeople, self string) []Finding {
 	})
 	return out
 }
+
+// checkPhones returns a finding for every value of r whose digits, with
+// everything else left out, hold the last seven digits of a phone number
+// taken out: the number written another way ("555 0120", "(555) 01-20").
+func checkPhones(r *record.Recording, phones []string) []Finding {
+	if len(phones) == 0 {
+		return nil
+	}
+	var out []Finding
+	walkStrings(r, func(path, s string) {
+		d := digitsOnly(s)
+		for _, p := range phones {
+			if len(d) >= len(p) && strings.Contains(d, p) {
+				out = append(out, finding(r, path, s, "holds the subject's phone number, written another way"))
+				return
+			}
+		}
+	})
+	return out
+}

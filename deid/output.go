@@ -104,7 +104,7 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	defer f.Close()
 	out := f.Recording()
 	wf, _ := checkWords(out, res.words)
-	sum.Findings = mergeFindings(checkStrings(out, needles), append(wf, checkOthers(out, res.people, res.originalID)...))
+	sum.Findings = mergeFindings(checkStrings(out, needles), append(append(wf, checkOthers(out, res.people, res.originalID)...), checkPhones(out, res.phones)...))
 	sum.StillIdentifying = IdentifyingFields(out)
 	if len(sum.Leaks) > 0 || len(sum.Findings) > 0 {
 		return sum, 0, &OutputError{Findings: sum.Findings, Leaks: sum.Leaks}

@@ -144,6 +144,7 @@ func corpusRecording(base *record.Recording, k int, p corpusPerson) *record.Reco
 		d := &t.Arrays[0].Decompositions[0]
 		d.Name = low + "_auto"
 		t.Arrays[0].PlacementDescription = "placed by " + corpusOperator
+		t.Arrays[0].Reference = "ankle strap; questions to " + corpusSpacedPhone(k)
 		r.Study.Description = "pilot recordings, first participant " + p.first + " " + p.last
 		r.Provenance.History = append(r.Provenance.History, record.Operation{Action: "import", Software: "lab notebook of " + p.last,
 			Time: time.Date(2026, 3, 20, 8, 0, 0, 0, time.UTC), Details: "{}"})
@@ -165,8 +166,14 @@ func corpusNeedles(k int, p corpusPerson, r *record.Recording) []string {
 	if !p.plain {
 		n = append(n, p.last)
 	}
+	if p.kept {
+		n = append(n, corpusSpacedPhone(k))
+	}
 	return n
 }
+
+// corpusSpacedPhone is subject k's phone number written another way.
+func corpusSpacedPhone(k int) string { return fmt.Sprintf("(555) 01 %02d", 20+k) }
 
 type corpusRun struct {
 	Files []struct {
@@ -284,7 +291,7 @@ func TestDeidentifyCorpus(t *testing.T) {
 	keptLow := strings.ToLower(kept.last)
 	wantKept := []string{"provenance.history[1].software", "study.description",
 		"trials[0].arrays[0].decompositions[0].name", "trials[0].arrays[0].decompositions[0].units[].extra." + keptLow + "_tapping (its name)",
-		"trials[0].arrays[0].name", "trials[0].arrays[0].placement_description", "trials[0].name"}
+		"trials[0].arrays[0].name", "trials[0].arrays[0].placement_description", "trials[0].arrays[0].reference", "trials[0].name"}
 	for _, stage := range []struct {
 		name   string
 		policy []string
