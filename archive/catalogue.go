@@ -84,6 +84,8 @@ type summaryRecord struct {
 	DominantSide     string      `json:"dominant_side,omitempty"`
 	HeightCm         *float64    `json:"height_cm,omitempty"`
 	MassKg           *float64    `json:"mass_kg,omitempty"`
+	HeightBandCm     string      `json:"height_band_cm,omitempty"`
+	MassBandKg       string      `json:"mass_band_kg,omitempty"`
 	Session          string      `json:"session"`
 	Trials           int         `json:"trials"`
 	Rows             []rowRecord `json:"rows"`
@@ -140,6 +142,7 @@ func recordOf(s *RecordingSummary) summaryRecord {
 		StudyContact: s.Study.Contact, StudyLicense: s.Study.License,
 		Subject: s.Subject.ID, Sex: s.Subject.Sex, AgeYears: known(s.Subject.AgeYears), AgeBand: s.Subject.AgeBand,
 		DominantSide: s.Subject.DominantSide, HeightCm: known(s.Subject.HeightCm), MassKg: known(s.Subject.MassKg),
+		HeightBandCm: s.Subject.HeightBandCm, MassBandKg: s.Subject.MassBandKg,
 		Session: s.Session, Trials: s.Trials, Rows: rows}
 }
 
@@ -147,7 +150,8 @@ func (r summaryRecord) summary(file string, size int64) RecordingSummary {
 	s := RecordingSummary{File: file, Bytes: size, Session: r.Session, Trials: r.Trials,
 		Study: record.Study{ID: r.StudyID, Title: r.StudyTitle, Description: r.StudyDescription, Contact: r.StudyContact, License: r.StudyLicense},
 		Subject: SubjectRow{ID: r.Subject, Sex: r.Sex, AgeYears: orNaN(r.AgeYears), AgeBand: r.AgeBand,
-			DominantSide: r.DominantSide, HeightCm: orNaN(r.HeightCm), MassKg: orNaN(r.MassKg)}}
+			DominantSide: r.DominantSide, HeightCm: orNaN(r.HeightCm), MassKg: orNaN(r.MassKg),
+			HeightBandCm: r.HeightBandCm, MassBandKg: r.MassBandKg}}
 	for _, row := range r.Rows {
 		x := row.row()
 		x.File, x.Bytes = file, size

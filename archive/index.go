@@ -136,6 +136,8 @@ type SubjectRow struct {
 	DominantSide string  `json:"dominant_side" layout:"dominant_side"`
 	HeightCm     float64 `json:"-" layout:"height_cm"`
 	MassKg       float64 `json:"-" layout:"mass_kg"`
+	HeightBandCm string  `json:"height_band_cm,omitempty" layout:"height_band_cm"`
+	MassBandKg   string  `json:"mass_band_kg,omitempty" layout:"mass_band_kg"`
 }
 
 // subjectRowOf copies the subject's non-identifying fields.

@@ -93,8 +93,8 @@ print(json.dumps(list(csv.DictReader(sys.stdin, delimiter="\t"))))`)
 		t.Fatal(err)
 	}
 	want := []map[string]string{
-		{"subject": "P01", "sex": "female", "age_years": "34", "age_band": "", "height_cm": "", "mass_kg": "varies", "dominant_side": "left", "sessions": "2", "recordings": "2"},
-		{"subject": "P02", "sex": "male", "age_years": "", "age_band": "", "height_cm": "", "mass_kg": "80", "dominant_side": "left", "sessions": "1", "recordings": "1"},
+		{"subject": "P01", "sex": "female", "age_years": "34", "age_band": "", "height_cm": "", "mass_kg": "varies", "height_band_cm": "", "mass_band_kg": "", "dominant_side": "left", "sessions": "2", "recordings": "2"},
+		{"subject": "P02", "sex": "male", "age_years": "", "age_band": "", "height_cm": "", "mass_kg": "80", "height_band_cm": "", "mass_band_kg": "", "dominant_side": "left", "sessions": "1", "recordings": "1"},
 	}
 	if !reflect.DeepEqual(rows, want) {
 		t.Errorf("Python's csv reads\n%v\nwant\n%v", rows, want)

@@ -26,6 +26,10 @@ var sidecarGroups = []struct{ group, where string }{
 	{"channel", "trials/0/arrays/0/channels/0"}, {"decomposition", "trials/0/arrays/0/decompositions/0"},
 }
 
+// formed gives a value for the string fields whose JSON Schema asks for a
+// form (a pattern), which free text would not meet.
+var formed = map[string]string{"height_band_cm": "170-180", "mass_band_kg": "70-80"}
+
 // registrySidecar builds a sidecar with a value for every stored field of
 // the sidecar groups, distinct within each group, that the recording JSON
 // Schema accepts. Booleans take the value flag.
@@ -44,6 +48,8 @@ func registrySidecar(flag bool) map[string]any {
 				v, _ = strconv.ParseFloat(f.Enum[len(f.Enum)-1], 64)
 			case f.Enum != nil:
 				v = f.Enum[len(f.Enum)-1]
+			case formed[f.Name] != "":
+				v = formed[f.Name]
 			case f.Kind == schema.KindString:
 				v = fmt.Sprintf("%s %s text", sg.group, f.Name)
 			case f.Kind == schema.KindName:
