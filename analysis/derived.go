@@ -7,6 +7,7 @@ import (
 	"io/fs"
 	"math"
 	"os"
+	"strings"
 	"time"
 
 	"muarc/internal/atomicfile"
@@ -203,6 +204,23 @@ func CheckInputFile(path string) error {
 	return nil
 }
 
+// LostError refuses to store figures in a recording that holds objects or
+// attributes muarc does not read: rewriting it would lose them.
+type LostError struct {
+	File string
+	Lost []string // HDF5 paths, attributes as PATH@NAME
+}
+
+func (e *LostError) Error() string {
+	list := e.Lost
+	more := ""
+	if len(list) > 5 {
+		list, more = list[:5], fmt.Sprintf(" and %d more", len(e.Lost)-5)
+	}
+	return fmt.Sprintf("%s: holds %d part(s) muarc does not read (%s%s); storing the figures rewrites the file and would lose them, so nothing was written (the file is unchanged). Move those parts into a file of their own (h5py, h5copy), or keep the figures outside the recording with stats --json or --tsv",
+		e.File, len(e.Lost), strings.Join(list, ", "), more)
+}
+
 // StatsFile derives the figures of the recording at path (and the MUAP
 // templates when muaps is true). With write it stores them in each
 // decomposition's derived group: the file is rewritten beside itself and
@@ -244,6 +262,13 @@ func StatsFile(path string, muaps, write bool) (*FileStats, error) {
 	}
 	if err := recfile.WriteInto(t.Path, rec, recfile.WriteOptions{Overwrite: true}); err != nil {
 		return nil, t.Abandon(fmt.Errorf("%s: writing the figures: %w (the file is unchanged)", path, err))
+	}
+	lost, err := recfile.Lost(path, t.Path)
+	if err != nil {
+		return nil, t.Abandon(fmt.Errorf("%s: comparing the rewritten file: %w (the file is unchanged)", path, err))
+	}
+	if len(lost) > 0 {
+		return nil, t.Abandon(&LostError{File: path, Lost: lost})
 	}
 	closed = true
 	if err := f.Close(); err != nil {

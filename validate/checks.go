@@ -29,7 +29,7 @@ var checks = []CheckInfo{
 	{"structure.fletcher32", Error, "samples carry no Fletcher-32 checksum filter"},
 	{"structure.compression", Note, "samples are stored without shuffle + deflate"},
 	{"structure.list_position", Warning, "a trial, array or decomposition lacks list_position or it disagrees with creation order (layout 1.1)"},
-	{"structure.unexpected", Note, "an object the layout does not name (kept, not read)"},
+	{"structure.unexpected", Note, "an object the layout does not name (not read; see the hint)"},
 	{"channels.count", Error, "channel table length differs from the samples' channel count"},
 	{"channels.grid_duplicate", Error, "two channels share one grid position"},
 	{"channels.grid_outside", Error, "a channel's grid position lies outside rows x columns"},

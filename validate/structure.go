@@ -373,6 +373,9 @@ func contains(xs []string, x string) bool {
 	return false
 }
 
+// unreadHint says what muarc's commands do with a part it does not read.
+const unreadHint = "muarc does not read it: pack copies it with the file, stats --write refuses to rewrite the file while it is there, deidentify and export leave it out"
+
 // unexpected notes objects at the layout's fixed levels that the layout does
 // not name.
 func (s *structure) unexpected() {
@@ -387,7 +390,7 @@ func (s *structure) unexpected() {
 	for _, p := range ps {
 		for _, k := range s.t.kids[p] {
 			if !contains(known[p], k) {
-				s.add("structure.unexpected", path.Join(p, k), "", "muarc keeps but does not read it", "%s is not part of the layout", path.Join(p, k))
+				s.add("structure.unexpected", path.Join(p, k), "", unreadHint, "%s is not part of the layout", path.Join(p, k))
 			}
 		}
 	}
@@ -395,14 +398,14 @@ func (s *structure) unexpected() {
 		tp := "/trials/" + tn
 		for _, k := range s.t.kids[tp] {
 			if !contains([]string{"force", "force_target", "arrays"}, k) {
-				s.add("structure.unexpected", tp+"/"+k, "", "muarc keeps but does not read it", "%s is not part of the layout", tp+"/"+k)
+				s.add("structure.unexpected", tp+"/"+k, "", unreadHint, "%s is not part of the layout", tp+"/"+k)
 			}
 		}
 		for _, an := range s.t.kids[tp+"/arrays"] {
 			ap := tp + "/arrays/" + an
 			for _, k := range s.t.kids[ap] {
 				if !contains([]string{"samples", "channels", "decompositions"}, k) {
-					s.add("structure.unexpected", ap+"/"+k, "", "muarc keeps but does not read it", "%s is not part of the layout", ap+"/"+k)
+					s.add("structure.unexpected", ap+"/"+k, "", unreadHint, "%s is not part of the layout", ap+"/"+k)
 				}
 			}
 		}

@@ -46,8 +46,8 @@ recruit_force, derecruit_force, initial_rate_pps, plateau_rate_pps,
 plateau_isi_cov, plateau_isi_count; derived/muaps), with the software, the
 time and the method and its parameters beside them, and a "stats" entry in
 the provenance history. The lab's own unit table and templates are never
-changed. The file is rewritten beside itself and renamed into place; on any
-error it is left as it was.
+changed. The file is rewritten beside itself and renamed into place; on any error
+it is left as it was. A file with parts muarc does not read is refused, naming them.
 
 Given a folder (the study), stats reads every recording in it one at a time
 and fits, per subject x muscle x target level, plateau mean rate and
