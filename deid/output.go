@@ -32,6 +32,9 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
 	fo.quasi, fo.pseud = res.Quasi, ps.Subject(j.subj)
 	fo.InStudy = res.InStudy
+	if len(j.unread) > 0 {
+		fo.Notes = append(fo.Notes, fmt.Sprintf("left out, not part of the layout (muarc does not read or check them): %s", strings.Join(j.unread, ", ")))
+	}
 	if len(j.damage) > 0 {
 		fo.Notes = append(fo.Notes, fmt.Sprintf("the source fails its integrity checks (%s); de-identified as read because damage was accepted, and recorded in the output's history", damageCounts(j.damage)))
 	}

@@ -176,6 +176,7 @@ type job struct {
 	out      string // output name
 	preError error
 	damage   map[string]int // integrity findings accepted, by check id
+	unread   []string       // parts of the source the layout does not name (left out)
 	people   *studyPeople   // the run's subjects, for the other-subject check
 }
 
@@ -452,6 +453,11 @@ func checkSources(jobs []*job, opt StudyOptions) {
 		if rep.ReadError != "" {
 			j.preError = fmt.Errorf("could not read: %s", rep.ReadError)
 			return nil
+		}
+		for _, f := range rep.Findings {
+			if f.Check == "structure.unexpected" {
+				j.unread = append(j.unread, f.HDF5Path)
+			}
 		}
 		damage := rep.Damage()
 		if len(damage) == 0 {

@@ -2,6 +2,7 @@ package main
 
 import (
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
 	"strconv"
@@ -75,5 +76,32 @@ func TestFilesWrittenByOtherPrograms(t *testing.T) {
 	}
 	if _, stderr, code := runMuarc(t, dir, "validate", written[0]); code != 0 {
 		t.Fatalf("the de-identified recording does not validate: %s", stderr)
+	}
+}
+
+// TestDeidentifyNamesWhatItLeavesOut: a part another program added that the
+// layout does not name (here an external link, made with h5py, Debian
+// python3-h5py) is left out of the de-identified copy, and the report says
+// so by its HDF5 path instead of dropping it without a word.
+func TestDeidentifyNamesWhatItLeavesOut(t *testing.T) {
+	py := reftest.NeedPython(t, "h5py")
+	dir := t.TempDir()
+	study := filepath.Join(dir, "study")
+	os.MkdirAll(study, 0o755)
+	rec := filepath.Join(study, "rec.h5")
+	b, _ := os.ReadFile(smallFile(t))
+	os.WriteFile(rec, b, 0o644)
+	script := `import sys, h5py
+with h5py.File(sys.argv[1], "r+") as f:
+    f["lab_link"] = h5py.ExternalLink("elsewhere.h5", "/x")
+`
+	if out, err := exec.Command(py, "-c", script, rec).CombinedOutput(); err != nil {
+		t.Fatalf("h5py: %v\n%s", err, out)
+	}
+	key := filepath.Join(dir, "k.key")
+	runMuarc(t, dir, "key", "new", key)
+	stdout, stderr, code := runMuarc(t, dir, "deidentify", study, "-o", filepath.Join(dir, "out"), "--key", key)
+	if code != 0 || !strings.Contains(stdout, "note: left out, not part of the layout (muarc does not read or check them): /lab_link") {
+		t.Fatalf("deidentify: exit %d\n%s\n%s", code, stdout, stderr)
 	}
 }
