@@ -428,3 +428,22 @@ func TestUnnamedFilesTakeTheOnlyChoice(t *testing.T) {
 		t.Fatalf("%v %v", rep, err)
 	}
 }
+
+// TestStreamedCellRefusalNamesTheInput: an EMG cell refused while the
+// samples stream into the file is reported as the input's problem, with
+// file, line, column and the line as written, not behind the output's
+// path; and no output is left.
+func TestStreamedCellRefusalNamesTheInput(t *testing.T) {
+	dir := t.TempDir()
+	emg := filepath.Join(dir, "emg.csv")
+	os.WriteFile(emg, []byte("e1,e2,e3\n1.5,2.5,3.5\n1.25,inf,2\n0.5,0.25,1\n"), 0o644)
+	out := filepath.Join(dir, "rec.h5")
+	_, err := ImportRecording(Inputs{EMG: []string{emg}, Profile: DefaultProfile(), RateHz: 2048}, out, recfile.WriteOptions{})
+	pe := AsParseError(err)
+	if pe == nil || pe.File != emg || pe.Line != 3 || pe.Column != 2 || pe.Example != "1.25,inf,2" || strings.Contains(err.Error(), "rec.h5") {
+		t.Fatalf("got %v (%+v)", err, pe)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Fatalf("an output was left: %v", err)
+	}
+}

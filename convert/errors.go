@@ -1,8 +1,11 @@
 package convert
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
+	"os"
+	"strings"
 )
 
 // ParseError is an input problem at a place in a text file. Line and Column
@@ -40,6 +43,34 @@ func (e *ParseError) Error() string {
 		s += " (" + e.Hint + ")"
 	}
 	return s
+}
+
+// withExample fills in the line the error is about from its file when the
+// reader that found it did not keep the text (the streaming samples path).
+// The line is cut at 200 bytes; a file that cannot be read leaves it out.
+func (e *ParseError) withExample() *ParseError {
+	if e.Example != "" || e.Line <= 0 || e.File == "" {
+		return e
+	}
+	f, err := os.Open(e.File)
+	if err != nil {
+		return e
+	}
+	defer f.Close()
+	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 64<<10), 64<<20)
+	for n := 1; sc.Scan(); n++ {
+		if n == e.Line {
+			c := *e
+			line := strings.TrimRight(strings.TrimPrefix(sc.Text(), "\ufeff"), "\r")
+			if len(line) > 200 {
+				line = strings.ToValidUTF8(line[:200], "") + "..."
+			}
+			c.Example = line
+			return &c
+		}
+	}
+	return e
 }
 
 // AsParseError returns the ParseError inside err, or nil.

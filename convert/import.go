@@ -447,6 +447,12 @@ func ImportRecording(in Inputs, out string, opt recfile.WriteOptions) (*Report, 
 		return nil, err
 	}
 	if err := pl.Write(out, opt); err != nil {
+		// A cell refused while the samples streamed into the file is the
+		// input's problem: say it as such (file, line, column and the line
+		// itself), not as a failure to write the output.
+		if pe := AsParseError(err); pe != nil {
+			return pl.Report, pe.withExample()
+		}
 		return pl.Report, err
 	}
 	return pl.Report, nil
