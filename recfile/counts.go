@@ -51,71 +51,46 @@ func (w *writer) counts(g *h5.Group, ar *record.Array, cr, cc, level int) error 
 	path := mw.Dataset().Path()
 	cs, direct := ar.Samples.(record.CountSource)
 	type band struct {
-		k   []int32
-		f   []float64
-		err error
+		k []int32
+		f []float64
 	}
-	free := make(chan *band, 2)
-	full := make(chan *band, 2)
-	for i := 0; i < 2; i++ {
-		b := &band{k: make([]int32, cr*cols)}
+	var bufs [2]*band
+	for i := range bufs {
+		bufs[i] = &band{k: make([]int32, cr*cols)}
 		if !direct {
-			b.f = make([]float64, cr*cols)
+			bufs[i].f = make([]float64, cr*cols)
 		}
-		free <- b
 	}
-	stop := make(chan struct{})
-	defer close(stop)
-	go func() {
-		defer close(full)
-		for r := 0; r < rows; r += cr {
-			var b *band
-			select {
-			case b = <-free:
-			case <-stop:
-				return
+	fill := func(b *band, r, n int) error {
+		b.k = b.k[:n*cols]
+		if direct {
+			if err := cs.ReadCounts(r, b.k); err != nil {
+				return err
 			}
-			n := min(cr, rows-r)
-			b.k = b.k[:n*cols]
-			if direct {
-				b.err = cs.ReadCounts(r, b.k)
-			} else {
-				b.f = b.f[:n*cols]
-				if b.err = ar.Samples.ReadFloat64(r, b.f); b.err == nil {
-					for i, v := range b.f {
-						k, ok := ar.Scale.Count(v)
-						if !ok {
-							b.err = fmt.Errorf("row %d channel %d: %v is no whole number of counts of %g (offset %g); store the array as float", r+i/cols, i%cols, v, ar.Scale.ScaleFactor, ar.Scale.AddOffset)
-							break
-						}
-						b.k[i] = int32(k)
-					}
+		} else {
+			b.f = b.f[:n*cols]
+			if err := ar.Samples.ReadFloat64(r, b.f); err != nil {
+				return err
+			}
+			for i, v := range b.f {
+				k, ok := ar.Scale.Count(v)
+				if !ok {
+					return fmt.Errorf("row %d channel %d: %v is no whole number of counts of %g (offset %g); store the array as float", r+i/cols, i%cols, v, ar.Scale.ScaleFactor, ar.Scale.AddOffset)
 				}
-			}
-			if b.err == nil {
-				for i, k := range b.k {
-					if int64(k) < lo || int64(k) > hi {
-						b.err = fmt.Errorf("row %d channel %d: %d counts do not fit %s", r+i/cols, i%cols, k, ar.SampleType)
-						break
-					}
-				}
-			}
-			select {
-			case full <- b:
-			case <-stop:
-				return
-			}
-			if b.err != nil {
-				return
+				b.k[i] = int32(k)
 			}
 		}
-	}()
+		for i, k := range b.k {
+			if int64(k) < lo || int64(k) > hi {
+				return fmt.Errorf("row %d channel %d: %d counts do not fit %s", r+i/cols, i%cols, k, ar.SampleType)
+			}
+		}
+		return nil
+	}
 	var i8 []int8
 	var i16 []int16
-	for b := range full {
-		if b.err != nil {
-			return fmt.Errorf("%s: reading samples: %w", path, b.err)
-		}
+	err = readAhead(rows, cr, bufs, fill, func(b *band) error {
+		var err error
 		switch ar.SampleType {
 		case record.Int8:
 			i8 = narrow(i8, b.k)
@@ -126,14 +101,13 @@ func (w *writer) counts(g *h5.Group, ar *record.Array, cr, cc, level int) error 
 		default:
 			err = mw.WriteBandInt32(b.k)
 		}
-		if err != nil {
-			return err
+		if err == nil {
+			w.rowsDone(len(b.k) / cols)
 		}
-		w.done += int64(len(b.k) / cols)
-		if w.opt.Progress != nil {
-			w.opt.Progress(w.done, w.rows)
-		}
-		free <- b
+		return err
+	})
+	if err != nil {
+		return w.samplesErr(path, err)
 	}
 	if mw.Rows() != rows {
 		return fmt.Errorf("%s: wrote %d of %d rows", path, mw.Rows(), rows)

@@ -2,6 +2,7 @@ package recfile
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"regexp"
 	"slices"
@@ -442,69 +443,113 @@ func (w *writer) samples(g *h5.Group, ar *record.Array) error {
 	type band struct {
 		f32 []float32
 		f64 []float64
-		err error
 	}
-	free := make(chan *band, 2)
-	full := make(chan *band, 2)
-	for i := 0; i < 2; i++ {
+	var bufs [2]*band
+	for i := range bufs {
 		if f64 {
-			free <- &band{f64: make([]float64, cr*cols)}
+			bufs[i] = &band{f64: make([]float64, cr*cols)}
 		} else {
-			free <- &band{f32: make([]float32, cr*cols)}
+			bufs[i] = &band{f32: make([]float32, cr*cols)}
 		}
 	}
-	stop := make(chan struct{})
-	defer close(stop)
-	go func() {
-		defer close(full)
-		for r := 0; r < rows; r += cr {
-			var b *band
-			select {
-			case b = <-free:
-			case <-stop:
-				return
-			}
-			n := min(cr, rows-r)
-			if f64 {
-				b.f64 = b.f64[:n*cols]
-				b.err = ar.Samples.ReadFloat64(r, b.f64)
-			} else {
-				b.f32 = b.f32[:n*cols]
-				b.err = ar.Samples.ReadFloat32(r, b.f32)
-			}
-			select {
-			case full <- b:
-			case <-stop:
-				return
-			}
-			if b.err != nil {
-				return
-			}
+	fill := func(b *band, r, n int) error {
+		if f64 {
+			b.f64 = b.f64[:n*cols]
+			return ar.Samples.ReadFloat64(r, b.f64)
 		}
-	}()
-	for b := range full {
-		if b.err != nil {
-			return fmt.Errorf("%s: reading samples: %w", mw.Dataset().Path(), b.err)
-		}
+		b.f32 = b.f32[:n*cols]
+		return ar.Samples.ReadFloat32(r, b.f32)
+	}
+	err = readAhead(rows, cr, bufs, fill, func(b *band) error {
+		var err error
 		if f64 {
 			err = mw.WriteBand64(b.f64)
 		} else {
 			err = mw.WriteBand32(b.f32)
 		}
-		if err != nil {
-			return err
+		if err == nil {
+			w.rowsDone((len(b.f32) + len(b.f64)) / cols)
 		}
-		n := len(b.f32) + len(b.f64)
-		w.done += int64(n / cols)
-		if w.opt.Progress != nil {
-			w.opt.Progress(w.done, w.rows)
-		}
-		free <- b
+		return err
+	})
+	if err != nil {
+		return w.samplesErr(mw.Dataset().Path(), err)
 	}
 	if mw.Rows() != rows {
 		return fmt.Errorf("%s: wrote %d of %d rows", mw.Dataset().Path(), mw.Rows(), rows)
 	}
 	return nil
+}
+
+// readAhead streams rows [0, rows) in bands of up to cr rows, two buffers
+// deep: a goroutine fills the next band (fill reads rows [r, r+n) into b)
+// while write takes the one before, in order. A fill error comes back as a
+// *readError; the first error of either side stops both.
+func readAhead[B any](rows, cr int, bufs [2]B, fill func(b B, r, n int) error, write func(b B) error) error {
+	type band struct {
+		b   B
+		err error
+	}
+	free := make(chan B, 2)
+	full := make(chan band, 2)
+	free <- bufs[0]
+	free <- bufs[1]
+	stop := make(chan struct{})
+	defer close(stop)
+	go func() {
+		defer close(full)
+		for r := 0; r < rows; r += cr {
+			var b B
+			select {
+			case b = <-free:
+			case <-stop:
+				return
+			}
+			err := fill(b, r, min(cr, rows-r))
+			select {
+			case full <- band{b, err}:
+			case <-stop:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	for x := range full {
+		if x.err != nil {
+			return &readError{x.err}
+		}
+		if err := write(x.b); err != nil {
+			return err
+		}
+		free <- x.b
+	}
+	return nil
+}
+
+// readError marks an error of reading the samples a writer streams.
+type readError struct{ err error }
+
+func (e *readError) Error() string { return e.err.Error() }
+func (e *readError) Unwrap() error { return e.err }
+
+// samplesErr names the dataset in an error of streaming samples into it:
+// a read error as "PATH: reading samples: ...", a write error as it is.
+func (w *writer) samplesErr(path string, err error) error {
+	var re *readError
+	if errors.As(err, &re) {
+		return fmt.Errorf("%s: reading samples: %w", path, re.err)
+	}
+	return err
+}
+
+// rowsDone counts n more rows written and reports progress.
+func (w *writer) rowsDone(n int) {
+	w.done += int64(n)
+	if w.opt.Progress != nil {
+		w.opt.Progress(w.done, w.rows)
+	}
 }
 
 func filepathIsAbs(p string) bool {
