@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"path"
 	"path/filepath"
@@ -194,16 +193,7 @@ func apartFromResults(dir string, skipped []string) (rest, results []string) {
 	return rest, results
 }
 
-func fmtNum(v float64, prec int) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "–"
-	}
-	s := strconv.FormatFloat(v, 'f', prec, 64)
-	if strings.Trim(s, "-0.") == "" {
-		s = strings.TrimPrefix(s, "-") // no "-0.00"
-	}
-	return s
-}
+func fmtNum(v float64, prec int) string { return study.Figure(v, prec, "–") }
 
 func indexTable(rows []archive.IndexRow) Table {
 	t := Table{Caption: "Index: one row per recording, trial and array",

@@ -76,9 +76,13 @@ func levelCell(v float64) string {
 // TSVText keeps a text cell on its row: tabs and line breaks become blanks.
 func TSVText(s string) string { return strings.NewReplacer("\t", " ", "\n", " ", "\r", " ").Replace(s) }
 
-func num(v float64, prec int) string {
+func num(v float64, prec int) string { return Figure(v, prec, "-") }
+
+// Figure formats a figure for people with prec decimals, never as "-0.00";
+// missing stands for a value not known (NaN or infinite).
+func Figure(v float64, prec int, missing string) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "-"
+		return missing
 	}
 	s := strconv.FormatFloat(v, 'f', prec, 64)
 	if strings.Trim(s, "-0.") == "" {
