@@ -444,18 +444,22 @@ func (pl *Plan) Write(path string, opt recfile.WriteOptions) error {
 func ImportRecording(in Inputs, out string, opt recfile.WriteOptions) (*Report, error) {
 	pl, err := Read(in)
 	if err != nil {
-		return nil, err
+		return nil, inputError(err)
 	}
 	if err := pl.Write(out, opt); err != nil {
-		// A cell refused while the samples streamed into the file is the
-		// input's problem: say it as such (file, line, column and the line
-		// itself), not as a failure to write the output.
-		if pe := AsParseError(err); pe != nil {
-			return pl.Report, pe.withExample()
-		}
-		return pl.Report, err
+		return pl.Report, inputError(err)
 	}
 	return pl.Report, nil
+}
+
+// inputError gives a refused input as the input's problem (file, line,
+// column and the line itself), also when it was found while the samples
+// streamed into the output, rather than behind the output's HDF5 path.
+func inputError(err error) error {
+	if pe := AsParseError(err); pe != nil {
+		return pe.withExample()
+	}
+	return err
 }
 
 func matches(re *regexp.Regexp, s string) bool {
