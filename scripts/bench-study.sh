@@ -102,6 +102,9 @@ if want validate; then
 run val "$muarc" validate "$L"
 large[validate]="$M $W"
 row "\`muarc validate\` on $N recordings" "$W" "$B" "h5py root attributes" "$M"
+VW=$W VM=$M
+run valbase "$py" scripts/bench/readall.py "$L"
+row "same" "$VW" "$W" "h5py reading every dataset (decoded, checksums checked) and attribute" "$VM"
 fi
 if want deidentify; then
 D=$(study "$DEIDN")
