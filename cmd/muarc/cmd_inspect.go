@@ -162,7 +162,7 @@ func printInspection(w io.Writer, ins *inspection) {
 			if o.Chunk != nil {
 				line += fmt.Sprintf(" chunks %v %s", o.Chunk, strings.Join(o.Filters, "+"))
 			}
-		} else {
+		} else if o.Path != "/" {
 			line += "/"
 		}
 		fmt.Fprintln(w, line)

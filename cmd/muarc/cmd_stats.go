@@ -110,13 +110,8 @@ func runStats(cmd *cobra.Command, args []string) error {
 	return printStatsText(w, res)
 }
 
-// num formats a figure for people: "-" when unknown.
-func num(v float64, prec int) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "-"
-	}
-	return strconv.FormatFloat(v, 'f', prec, 64)
-}
+// num formats a figure for people: "-" when unknown, never "-0.00".
+func num(v float64, prec int) string { return study.Figure(v, prec, "-") }
 
 // tsvNum formats a figure for machines: empty when unknown, full precision.
 func tsvNum(v float64) string {

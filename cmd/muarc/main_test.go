@@ -115,6 +115,45 @@ h5py.File(sys.argv[1], "r").visititems(visit)
 	}
 }
 
+// The text tree names the root "/" and every group once, with one "/" at
+// its end, indented by depth: the groups h5py's visititems finds, in the
+// same words.
+func TestInspectTreeNamesGroupsAsH5py(t *testing.T) {
+	py := reftest.NeedPython(t, "h5py")
+	path := testFile(t)
+	stdout, stderr, code := runMuarc(t, ".", "inspect", path)
+	if code != 0 {
+		t.Fatalf("inspect exit %d: %s", code, stderr)
+	}
+	out, err := exec.Command(py, "-c", `
+import sys, h5py
+def visit(name, obj):
+    if isinstance(obj, h5py.Group):
+        print("  " * name.count("/") + "  " + name.split("/")[-1] + "/")
+print("/")
+h5py.File(sys.argv[1], "r").visititems(visit)
+`, path).CombinedOutput()
+	if err != nil {
+		t.Fatalf("h5py: %v %s", err, out)
+	}
+	lines := map[string]bool{}
+	for _, l := range strings.Split(stdout, "\n") {
+		lines[l] = true
+	}
+	want := strings.Split(strings.TrimSpace(string(out)), "\n")
+	if len(want) < 10 {
+		t.Fatalf("h5py sees only %d groups", len(want))
+	}
+	for _, l := range want {
+		if !lines[l] {
+			t.Errorf("h5py's group line %q is not in inspect's tree", l)
+		}
+	}
+	if strings.Contains(stdout, "//") {
+		t.Errorf("a group is written with two slashes:\n%s", stdout)
+	}
+}
+
 func fmtInts(v []int) string {
 	b, _ := json.Marshal(v)
 	if v == nil {
