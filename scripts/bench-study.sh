@@ -12,17 +12,17 @@
 #   BENCH_DEID_N recordings de-identified against the h5py copy (default 200)
 #   BENCH_ONE_S  seconds of the single large recording (default 300: ~140 MB)
 #   BENCH_MEM_N  recordings of the larger study of the peak-memory table for
-#                deidentify, pack and report (default BENCH_DEID_N; index and
-#                validate reuse their BENCH_N runs from the table above):
-#                BENCH_MEM_N=2000 measures them on 2,000, about 20 minutes
-#                more on 2 cores
+#                deidentify, pack and report (default BENCH_N; index and
+#                validate reuse their BENCH_N runs from the table above); on
+#                2,000 these three take about 15 minutes on 2 idle cores,
+#                BENCH_MEM_N=200 makes it a few
 #   BENCH_PARTS  which rows (default
 #                index,validate,deidentify,import,storage,memory,sweep;
 #                import, storage and sweep are scripts/bench-storage.sh's)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 N=${BENCH_N:-2000}; SMALL=${BENCH_SMALL:-20}; BIG=${BENCH_BIG:-10000}
-DEIDN=${BENCH_DEID_N:-200}; ONES=${BENCH_ONE_S:-300}; MEMN=${BENCH_MEM_N:-$DEIDN}
+DEIDN=${BENCH_DEID_N:-200}; ONES=${BENCH_ONE_S:-300}; MEMN=${BENCH_MEM_N:-$N}
 out=bench-out/studies
 mkdir -p "$out"
 go build -o bin/muarc ./cmd/muarc
