@@ -91,7 +91,9 @@ if want sweep; then
 	echo
 	echo "muarc's writer (recfile.Write, libdeflate, bands compressed on every core) on the same recording, file bytes per sample:"
 	echo
-	bin/muarc-benchchunks -seconds "$S" -shapes 16384x4,4096x64 -levels 1,6
+	bin/muarc-benchchunks -form int16 -seconds "$S" -shapes 16384x4,4096x64 -levels 1,4,6,9
+	echo
+	bin/muarc-benchchunks -form float32 -seconds "$S" -shapes 16384x4,4096x64 -levels 1,6
 	echo
 	echo "Built-in HDF5 filters on the same int16 counts, written and read by h5py ($N samples; every row checked to read back unchanged):"
 	echo

@@ -86,7 +86,7 @@ type RealisticSource struct {
 	s     []float64
 }
 
-var _ record.SampleSource = (*RealisticSource)(nil)
+var _ record.CountSource = (*RealisticSource)(nil)
 
 // biquad is one second-order section, transposed direct form II.
 type biquad struct{ b0, b1, b2, a1, a2, z1, z2 float64 }
@@ -227,6 +227,16 @@ func (s *RealisticSource) restart() {
 
 // Shape implements record.SampleSource.
 func (s *RealisticSource) Shape() (int, int) { return s.rows, s.channels }
+
+// Scale implements record.CountSource: physical uV = count x LSBuV, a
+// decimal scale of LSBDecimals decimals.
+func (s *RealisticSource) Scale() record.CountScale {
+	sc, err := record.DecimalScale(s.lsbUnits, 0, s.cfg.LSBDecimals)
+	if err != nil {
+		panic(err) // RealisticEMG checked the LSB
+	}
+	return sc
+}
 
 // LSBuV is the converter step in uV: every value is a whole multiple of it.
 func (s *RealisticSource) LSBuV() float64 { return s.cfg.LSBuV }

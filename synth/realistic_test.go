@@ -229,6 +229,12 @@ func TestRealisticTextIsWholeLSBs(t *testing.T) {
 			t.Fatalf("rows 100-109 read again differ at value %d: %d, first %d", i, v, counts[100*ch+i])
 		}
 	}
+	// The scale says what the text says: 0.1907 written as 1907 units of
+	// the 4th decimal (the config's LSB), no offset.
+	sc := s.Scale()
+	if sc.ScaleUnits != 1907 || sc.Decimals != 4 || sc.OffsetUnits != 0 || sc.ScaleFactor != 0.1907 {
+		t.Errorf("scale %+v, want 1907 units at 4 decimals (0.1907 uV), no offset", sc)
+	}
 }
 
 func TestRealisticRefusesBadConfig(t *testing.T) {

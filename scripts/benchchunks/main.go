@@ -2,12 +2,13 @@
 // (synth.RealisticEMG, 64 channels x 2048 Hz) with muarc's own writer
 // (recfile.Write: shuffle + libdeflate + Fletcher-32, the bands compressed
 // on every core) for each chunk shape and deflate level given, and prints
-// one table row each: bytes per sample of the file, write time, and the
+// one table row each, for int16 counts with their scale (how muarc import
+// stores this text since layout 1.2) or float32: bytes per sample of the file, write time, and the
 // time to read one channel whole and every channel in 1 s blocks. Used by
 // scripts/bench-storage.sh to choose the writer's defaults; not part of
 // muarc.
 //
-//	muarc-benchchunks [-seconds 60] [-shapes 16384x4,4096x64] [-levels 1,6]
+//	muarc-benchchunks [-form int16|float32] [-seconds 60] [-shapes 16384x4,4096x64] [-levels 1,6]
 package main
 
 import (
@@ -29,20 +30,25 @@ func main() {
 	seconds := flag.Float64("seconds", 60, "recording length, s")
 	shapes := flag.String("shapes", "16384x4,4096x64,8192x8,16384x8,65536x1", "chunk shapes ROWSxCHANNELS, comma-separated")
 	levels := flag.String("levels", "1,4,6,9", "deflate levels, comma-separated")
+	form := flag.String("form", "int16", "sample form: int16 (counts with their scale, as muarc import stores this text) or float32")
 	flag.Parse()
-	if err := run(*seconds, *shapes, *levels); err != nil {
+	if *form != "int16" && *form != "float32" {
+		fmt.Fprintln(os.Stderr, "muarc-benchchunks: -form int16 or float32")
+		os.Exit(2)
+	}
+	if err := run(*seconds, *shapes, *levels, record.SampleType(*form)); err != nil {
 		fmt.Fprintln(os.Stderr, "muarc-benchchunks:", err)
 		os.Exit(1)
 	}
 }
 
-func run(seconds float64, shapes, levels string) error {
+func run(seconds float64, shapes, levels string, form record.SampleType) error {
 	dir, err := os.MkdirTemp("", "benchchunks")
 	if err != nil {
 		return err
 	}
 	defer os.RemoveAll(dir)
-	fmt.Println("| muarc writer, float32 | chunk `[rows, channels]` | bytes/sample | write | read all, 1 s blocks | read one channel |")
+	fmt.Printf("| muarc writer, %s | chunk `[rows, channels]` | bytes/sample | write | read all, 1 s blocks | read one channel |\n", form)
 	fmt.Println("|---|---|---|---|---|---|")
 	for _, shape := range strings.Split(shapes, ",") {
 		r, c, ok := strings.Cut(shape, "x")
@@ -56,7 +62,7 @@ func run(seconds float64, shapes, levels string) error {
 			if err != nil || level < 1 || level > 9 {
 				return fmt.Errorf("deflate level %q: want 1-9", l)
 			}
-			if err := one(filepath.Join(dir, "s.h5"), seconds, rows, cols, level); err != nil {
+			if err := one(filepath.Join(dir, "s.h5"), seconds, rows, cols, level, form); err != nil {
 				return err
 			}
 		}
@@ -64,7 +70,7 @@ func run(seconds float64, shapes, levels string) error {
 	return nil
 }
 
-func one(path string, seconds float64, rows, cols, level int) error {
+func one(path string, seconds float64, rows, cols, level int, form record.SampleType) error {
 	cfg := synth.DefaultRealistic()
 	cfg.Seconds = seconds
 	src, err := synth.RealisticEMG(cfg)
@@ -80,6 +86,10 @@ func one(path string, seconds float64, rows, cols, level int) error {
 			Name: "grid", Rows: 8, Columns: 8, IEDMm: 8, Gain: nan, FilterLowHz: nan, FilterHighHz: nan,
 			SamplingRateHz: cfg.SamplingRateHz, Unit: "uV", Channels: src.Channels(), Samples: src,
 		}}}},
+	}
+	if form == record.Int16 {
+		a := &rec.Trials[0].Arrays[0]
+		a.SampleType, a.Scale = record.Int16, src.Scale()
 	}
 	t0 := time.Now()
 	if err := recfile.Write(path, rec, recfile.WriteOptions{Overwrite: true, ChunkRows: rows, ChunkCols: cols, DeflateLevel: level}); err != nil {
