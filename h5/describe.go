@@ -200,7 +200,7 @@ func (f *File) VerifyChunks(fn func(ChunkFault)) (int, error) {
 		if !hasFilter(filters, "fletcher32") {
 			return nil
 		}
-		n, err := d.verify(chunk, fn)
+		n, err := d.verify(chunk, true, fn)
 		checked += n
 		if err != nil {
 			fn(ChunkFault{Dataset: d.path, Err: err})
@@ -215,6 +215,16 @@ func (f *File) VerifyChunks(fn func(ChunkFault)) (int, error) {
 // include Fletcher-32, in the order of objs, instead of walking the file
 // again.
 func (f *File) VerifyChunksOf(objs []Object, fn func(ChunkFault)) (int, error) {
+	return f.VerifyChunksIndexOnly(objs, nil, fn)
+}
+
+// VerifyChunksIndexOnly is VerifyChunksOf checking only the chunk index
+// (every chunk of the extent listed, on the grid) of the datasets whose
+// paths indexOnly holds: a caller that is about to read every chunk of
+// them with its Fletcher-32 check (a decoding read, or
+// MatrixWriter.CopyChunksFrom) need not read them twice. The count
+// returned covers the chunks whose bytes were checked.
+func (f *File) VerifyChunksIndexOnly(objs []Object, indexOnly map[string]bool, fn func(ChunkFault)) (int, error) {
 	root, err := f.Root()
 	if err != nil {
 		return 0, err
@@ -230,7 +240,7 @@ func (f *File) VerifyChunksOf(objs []Object, fn func(ChunkFault)) (int, error) {
 			fn(ChunkFault{Dataset: o.Path, Err: err})
 			continue
 		}
-		n, err := d.verify(o.Chunk, fn)
+		n, err := d.verify(o.Chunk, !indexOnly[o.Path], fn)
 		d.Close()
 		checked += n
 		if err != nil {
@@ -256,6 +266,9 @@ type ChunkInfo struct {
 	Bytes  int
 	// Addr is the chunk's byte address in the file.
 	Addr int64
+	// Mask has a bit set for each filter skipped when the chunk was
+	// stored (0: the whole pipeline).
+	Mask uint
 }
 
 // Chunks lists the dataset's stored chunks in file order.
@@ -276,7 +289,7 @@ func (d *Dataset) Chunks() ([]ChunkInfo, error) {
 		if C.muarc_chunk_info(d.id, i, &off[0], &mask, &addr, &size) < 0 {
 			return nil, fail(d.file, d.path, fmt.Sprintf("chunk %d info", i))
 		}
-		ci := ChunkInfo{Bytes: int(size), Addr: int64(addr)}
+		ci := ChunkInfo{Bytes: int(size), Addr: int64(addr), Mask: uint(mask)}
 		for k := range d.Shape {
 			ci.Offset = append(ci.Offset, int(off[k]))
 		}
@@ -323,12 +336,17 @@ func (d *Dataset) ReadRawChunk(offset []int, size int, buf []byte) ([]byte, erro
 // it as fill values (zeros) without an error.
 var ErrChunkMissing = errors.New("chunk missing from the chunk index")
 
-func (d *Dataset) verify(chunk []int, fn func(ChunkFault)) (int, error) {
+// verify checks the chunk index of d against its extent and, when bytes,
+// every stored chunk's Fletcher-32.
+func (d *Dataset) verify(chunk []int, bytes bool, fn func(ChunkFault)) (int, error) {
 	chunks, err := d.Chunks()
 	if err != nil {
 		return 0, err
 	}
 	d.checkChunkGrid(chunk, chunks, fn)
+	if !bytes {
+		return 0, nil
+	}
 	var buf []byte
 	for _, c := range chunks {
 		buf, err = d.ReadRawChunk(c.Offset, c.Bytes, buf)

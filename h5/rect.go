@@ -7,6 +7,7 @@ import "C"
 
 import (
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"math"
 	"runtime"
@@ -159,26 +160,11 @@ func (d *Dataset) readRectAny(r0, nr, c0, nc int, dst rectDst) error {
 
 // chunkPlain fills plain with the decoded chunk at (row, col).
 func (d *Dataset) chunkPlain(dec unsafe.Pointer, p *rectPlan, row, col int, raw, plain, shuf []byte) ([]byte, error) {
-	off := [2]C.hsize_t{C.hsize_t(row), C.hsize_t(col)}
-	var size C.hsize_t
-	var mask C.uint
-	lockLib()
-	C.muarc_chunk_size(d.id, &off[0], &size)
-	if size == 0 {
-		unlockLib()
+	raw, mask, err := d.storedChunk(row, col, raw)
+	if errors.Is(err, ErrChunkMissing) {
 		clear(plain) // never written: the fill value, 0
 		return raw, nil
 	}
-	if cap(raw) < int(size) {
-		raw = make([]byte, int(size))
-	}
-	raw = raw[:int(size)]
-	rc := C.muarc_chunk_read(d.id, &off[0], &mask, unsafe.Pointer(&raw[0]))
-	var err error
-	if rc < 0 {
-		err = fail(d.file, d.path, fmt.Sprintf("read chunk at row %d column %d", row, col))
-	}
-	unlockLib()
 	if err != nil {
 		return raw, err
 	}
@@ -186,9 +172,8 @@ func (d *Dataset) chunkPlain(dec unsafe.Pointer, p *rectPlan, row, col int, raw,
 		// A filter was skipped for this chunk; let the library decode it.
 		return raw, d.libraryChunk(p, row, col, plain)
 	}
-	if len(raw) < 4 || fletcher32(raw[:len(raw)-4]) != binary.LittleEndian.Uint32(raw[len(raw)-4:]) {
-		return raw, &Error{File: d.file, Object: d.path, Op: fmt.Sprintf("read chunk at row %d column %d", row, col),
-			Detail: "data error detected by Fletcher32 checksum", sentinel: ErrChecksum}
+	if err := d.checkFletcher(raw, row, col); err != nil {
+		return raw, err
 	}
 	body := raw[:len(raw)-4]
 	target := plain

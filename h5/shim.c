@@ -369,3 +369,21 @@ int muarc_chunk_size(hid_t d, const hsize_t *offset, hsize_t *size) {
     H5E_BEGIN_TRY { if (H5Dget_chunk_storage_size(d, offset, size) < 0) *size = 0; } H5E_END_TRY;
     return 0;
 }
+
+/* The deflate level (client data 0) of a dataset's deflate filter; -1 when
+ * it has none. */
+int muarc_deflate_level(hid_t d, int *level) {
+    hid_t p = H5Dget_create_plist(d);
+    if (p < 0) return -1;
+    *level = -1;
+    unsigned flags, cd[8];
+    size_t ncd = 8;
+    char name[64];
+    unsigned conf;
+    H5E_BEGIN_TRY {
+        if (H5Pget_filter_by_id2(p, H5Z_FILTER_DEFLATE, &flags, &ncd, cd, sizeof name, name, &conf) >= 0 && ncd >= 1)
+            *level = (int)cd[0];
+    } H5E_END_TRY;
+    H5Pclose(p);
+    return 0;
+}

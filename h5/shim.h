@@ -45,3 +45,4 @@ void *muarc_decompressor_new(void);
 void muarc_decompressor_free(void *d);
 int muarc_inflate(void *d, const void *src, size_t n, void *dst, size_t want);
 int muarc_chunk_size(hid_t d, const hsize_t *offset, hsize_t *size);
+int muarc_deflate_level(hid_t d, int *level);

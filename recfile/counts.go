@@ -112,6 +112,11 @@ func (w *writer) counts(g *h5.Group, ar *record.Array, cr, cc, level int) error 
 	if mw.Rows() != rows {
 		return fmt.Errorf("%s: wrote %d of %d rows", path, mw.Rows(), rows)
 	}
+	return scaleAttrs(mw.Dataset(), ar)
+}
+
+// scaleAttrs writes the CF attributes of integer samples on their dataset.
+func scaleAttrs(d *h5.Dataset, ar *record.Array) error {
 	var a attrs
 	a.any(AttrScaleFactor, ar.Scale.ScaleFactor)
 	a.any(AttrAddOffset, ar.Scale.AddOffset)
@@ -119,7 +124,7 @@ func (w *writer) counts(g *h5.Group, ar *record.Array, cr, cc, level int) error 
 	if ar.Scale.Decimals >= 0 {
 		a.any(AttrTextDecimals, int64(ar.Scale.Decimals))
 	}
-	return a.write(mw.Dataset(), nil)
+	return a.write(d, nil)
 }
 
 func narrow[T int8 | int16](dst []T, k []int32) []T {

@@ -42,6 +42,15 @@ type WriteOptions struct {
 	// Now sets the "created" time when the recording has none (tests);
 	// zero means the current time.
 	Now time.Time
+	// DecodeSamples turns the raw chunk copy off (CopiesSamplesRaw):
+	// every array's samples are decoded and encoded again (tests and
+	// benchmarks compare the two paths).
+	DecodeSamples bool
+	// SamplesCopied, when set, is called for each array whose samples
+	// were copied chunk by chunk from their source file (CopiesSamplesRaw),
+	// with the trial's and array's positions and the SHA-256 (hex) of the
+	// stored chunks copied, as StoredSamplesSHA256 computes it.
+	SamplesCopied func(trial, array int, storedSHA256 string)
 }
 
 // Write stores rec at path in layout v1. It writes a temporary file beside
@@ -241,6 +250,7 @@ func (a attrs) write(g interface{ SetAttr(string, any) error }, extra record.Ext
 type writer struct {
 	opt        WriteOptions
 	done, rows int64
+	trialPos   int // the trial being written (for SamplesCopied)
 }
 
 func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error) {
@@ -302,6 +312,7 @@ func writeFile(name string, rec *record.Recording, opt WriteOptions) (err error)
 	}
 	defer trials.Close()
 	for i := range rec.Trials {
+		w.trialPos = i
 		if err := w.trial(trials, &rec.Trials[i], i); err != nil {
 			return err
 		}
@@ -397,7 +408,7 @@ func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
 		return err
 	}
 	defer g.Close()
-	if err := w.samples(g, ar); err != nil {
+	if err := w.samples(g, ar, pos); err != nil {
 		return err
 	}
 	if err := writeChannels(g, ar.Channels); err != nil {
@@ -418,20 +429,19 @@ func (w *writer) array(parent *h5.Group, ar *record.Array, pos int) error {
 
 // samples streams the array's samples in bands of chunk height; a second
 // goroutine reads the next band from the source while this one compresses.
-func (w *writer) samples(g *h5.Group, ar *record.Array) error {
+// Samples read from a muarc file in the encoding they would be written
+// with are copied chunk by chunk instead (copyRaw).
+func (w *writer) samples(g *h5.Group, ar *record.Array, pos int) error {
+	if src, level, ok := rawSource(ar, w.opt); ok {
+		return w.copyRaw(g, ar, pos, src, level)
+	}
 	rows, cols := ar.Samples.Shape()
 	f64 := ar.SampleType == record.Float64
 	level := w.opt.DeflateLevel
 	if level == 0 {
 		level = DefaultDeflate
 	}
-	cr, cc := w.opt.ChunkRows, w.opt.ChunkCols
-	if cr <= 0 {
-		cr = DefaultChunkRows
-	}
-	if cc <= 0 {
-		cc = DefaultChunkCols
-	}
+	cr, cc := chunkShape(w.opt)
 	if ar.SampleType.IsInteger() {
 		return w.counts(g, ar, cr, cc, level)
 	}
