@@ -7,6 +7,7 @@ import (
 	"testing"
 	"time"
 
+	"muarc/recfile"
 	"muarc/record"
 )
 
@@ -314,7 +315,7 @@ func TestHashingSource(t *testing.T) {
 	m := &record.MemSamples{Samples: 5, Channels: 2, F32: []float32{1, 2, 3, 4, 5, 6, 7, 8, 9, float32(math.NaN())}}
 	rec.Trials[0].Arrays[0].Samples = m
 	want, _ := DataDigests(rec)
-	hs := wrapSamples(rec)["trials[0].arrays[0].samples"]
+	hs := wrapSamples(rec, recfile.WriteOptions{})["trials[0].arrays[0].samples"]
 	buf := make([]float32, 4)
 	hs.ReadFloat32(0, buf)
 	hs.ReadFloat32(2, buf)
@@ -322,7 +323,7 @@ func TestHashingSource(t *testing.T) {
 	if got, ok := hs.sum(); !ok || got != want["trials[0].arrays[0].samples"] {
 		t.Fatalf("streamed digest %s %v, want %s", got, ok, want["trials[0].arrays[0].samples"])
 	}
-	hs = wrapSamples(rec)["trials[0].arrays[0].samples"]
+	hs = wrapSamples(rec, recfile.WriteOptions{})["trials[0].arrays[0].samples"]
 	hs.ReadFloat32(2, buf)
 	if _, ok := hs.sum(); ok {
 		t.Fatal("out-of-order read accepted")
@@ -402,7 +403,7 @@ func TestHashingCounts(t *testing.T) {
 	a.SampleType, a.Scale = record.Int16, sc
 	a.Samples = &record.MemCounts{Samples: 3, Channels: 2, Counts: []int32{-32768, 32767, 0, 1, -1, 7}, CountScale: sc}
 	want, _ := DataDigests(rec)
-	wrapSamples(rec)
+	wrapSamples(rec, recfile.WriteOptions{})
 	cs, ok := rec.Trials[0].Arrays[0].Samples.(record.CountSource)
 	if !ok || cs.Scale() != sc {
 		t.Fatalf("the wrapped samples are %T, not counts of %+v", rec.Trials[0].Arrays[0].Samples, sc)

@@ -7,6 +7,9 @@ import (
 	"fmt"
 	"hash"
 	"math"
+	"strings"
+
+	"muarc/recfile"
 	"muarc/record"
 )
 
@@ -252,13 +255,15 @@ func (s *hashingCounts) ReadFloat64(start int, dst []float64) error {
 	return s.src.ReadFloat64(start, dst)
 }
 
-// wrapSamples puts a hashingSource in front of every array's samples.
-func wrapSamples(rec *record.Recording) map[string]*hashingSource {
+// wrapSamples puts a hashingSource in front of every array's samples that
+// the writer decodes (those it copies chunk by chunk report a digest of
+// the stored chunks instead).
+func wrapSamples(rec *record.Recording, opt recfile.WriteOptions) map[string]*hashingSource {
 	out := map[string]*hashingSource{}
 	for ti := range rec.Trials {
 		for ai := range rec.Trials[ti].Arrays {
 			a := &rec.Trials[ti].Arrays[ai]
-			if a.Samples == nil {
+			if a.Samples == nil || recfile.CopiesSamplesRaw(a, opt) {
 				continue
 			}
 			hs := &hashingSource{src: a.Samples, rec: a, h: sha256.New()}
@@ -271,4 +276,29 @@ func wrapSamples(rec *record.Recording) map[string]*hashingSource {
 		}
 	}
 	return out
+}
+
+// storedDigest marks a digest of stored chunks (recfile.SamplesCopied),
+// so that it is never compared with a digest of values.
+func storedDigest(sum string) string { return "stored-chunks:" + sum }
+
+// storedDigests returns, for every samples path of known that holds a
+// digest of stored chunks, the same digest of out's samples there, read
+// raw: the output's chunks must be the input's, byte for byte. A path
+// whose samples cannot be hashed so is left out (and then hashed by value,
+// which cannot match: the check fails).
+func storedDigests(out *record.Recording, known map[string]string) map[string]string {
+	got := map[string]string{}
+	for ti := range out.Trials {
+		for ai, a := range out.Trials[ti].Arrays {
+			path := fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)
+			if !strings.HasPrefix(known[path], storedDigest("")) || a.Samples == nil {
+				continue
+			}
+			if sum, ok, err := recfile.StoredSamplesSHA256(a.Samples); ok && err == nil {
+				got[path] = storedDigest(sum)
+			}
+		}
+	}
+	return got
 }

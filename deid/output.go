@@ -54,17 +54,35 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	if err != nil {
 		return fo, err
 	}
-	// Hash the input's samples as the writer streams them (it reads each
-	// array once, in order), so the input need not be read twice. The
-	// output stays mode 0600 under its temporary name until it has passed
-	// the scan.
-	hashed := wrapSamples(res.Recording)
-	if err := recfile.WriteInto(t.Path, res.Recording, recfile.WriteOptions{Overwrite: true}); err != nil {
-		return fo, t.Abandon(fmt.Errorf("%s: %w", final, err))
-	}
+	// Samples stored as the writer would store them are copied chunk by
+	// chunk (recfile.CopiesSamplesRaw), their Fletcher-32 checked on the
+	// way; the copy reports the SHA-256 of the stored chunks, which the
+	// output's must match. Other samples are hashed as the writer streams
+	// them (it reads each array once, in order), so the input need not be
+	// read twice. The output stays mode 0600 under its temporary name
+	// until it has passed the scan.
+	wopt := recfile.WriteOptions{Overwrite: true, DecodeSamples: opt.decodeSamples}
 	known := map[string]string{}
-	for path, hs := range hashed {
+	wopt.SamplesCopied = func(ti, ai int, sum string) {
+		known[fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)] = storedDigest(sum)
+	}
+	hashed := wrapSamples(res.Recording, wopt)
+	err = recfile.WriteInto(t.Path, res.Recording, wopt)
+	for _, hs := range hashed {
 		hs.rec.Samples = hs.src // unwrap
+	}
+	if err != nil {
+		err = t.Abandon(fmt.Errorf("%s: %w", final, err))
+		if !j.fullCheck {
+			// The samples' chunks were left to the write: see whether
+			// the source is damaged, and report it as the full check
+			// does.
+			return recheck(j, outDir, pol, ps, opt, fo, err)
+		}
+		return fo, err
+	}
+	fo.RawCopied = len(known)
+	for path, hs := range hashed {
 		if d, ok := hs.sum(); ok {
 			known[path] = d
 		}
@@ -75,6 +93,26 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 		return fo, t.Abandon(err)
 	}
 	return fo, t.Publish()
+}
+
+// recheck runs the full source check after a failed write (writeErr) of a
+// source checked without its samples' chunk bytes. A damaged source is
+// then refused with the full check's report, as if found before the write,
+// or, when damage is accepted, de-identified again with the damage
+// recorded, as it would have been; otherwise the write's error stands.
+func recheck(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOptions, fo FileOutcome, writeErr error) (FileOutcome, error) {
+	checkSource(j, opt, true)
+	switch {
+	case j.preError != nil:
+		refused := FileOutcome{}
+		if j.single {
+			refused.Output = j.out
+		}
+		return refused, j.preError
+	case len(j.damage) > 0:
+		return doFile(j, outDir, pol, ps, opt)
+	}
+	return fo, writeErr
 }
 
 // verifyOutput scans a written output for the original identifying values
@@ -119,7 +157,7 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	if err != nil {
 		return sum, 0, fmt.Errorf("checksums of the input's data: %w", err)
 	}
-	got, err := DataDigests(out)
+	got, err := dataDigests(out, storedDigests(out, known))
 	if err != nil {
 		return sum, 0, fmt.Errorf("checksums of the output's data: %w", err)
 	}

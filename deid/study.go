@@ -48,6 +48,10 @@ type StudyOptions struct {
 	// a source is refused: a copy would carry the damage under a clean new
 	// checksum and digest.
 	AcceptDamaged bool
+
+	// decodeSamples makes the writer decode and encode every array's
+	// samples (tests compare both paths).
+	decodeSamples bool
 }
 
 // FileOutcome is the report of one input file.
@@ -72,6 +76,10 @@ type FileOutcome struct {
 	// DataChecked is the number of datasets whose values were compared with
 	// the input's by SHA-256 and found identical.
 	DataChecked int `json:"datasets_bit_exact,omitempty"`
+	// RawCopied is the number of sample datasets copied chunk by chunk,
+	// their stored bytes unchanged (recfile.CopiesSamplesRaw); their check
+	// compares the SHA-256 of the stored chunks, which fixes the values.
+	RawCopied int `json:"sample_datasets_copied_raw,omitempty"`
 	// Findings are the strings that would still identify, by path, with
 	// the policy line that fixes each (when the file was refused for them).
 	Findings []Finding `json:"findings,omitempty"`
@@ -176,8 +184,13 @@ type job struct {
 	out      string // output name
 	preError error
 	damage   map[string]int // integrity findings accepted, by check id
-	unread   []string       // parts of the source the layout does not name (left out)
-	people   *studyPeople   // the run's subjects, for the other-subject check
+	// fullCheck is set once the source was validated with every chunk
+	// read (checkSource); before, its samples' chunks are the write's to
+	// check.
+	fullCheck bool
+	single    bool         // DeidentifyFile: out was given, not made from pseudonyms
+	unread    []string     // parts of the source the layout does not name (left out)
+	people    *studyPeople // the run's subjects, for the other-subject check
 }
 
 // DeidentifyStudy de-identifies every muarc file (*.h5) under srcDir into
@@ -226,7 +239,7 @@ func DeidentifyFile(inPath, outPath string, opt StudyOptions) (*StudyReport, err
 	if same, _ := samePath(inPath, outPath); same {
 		return nil, fmt.Errorf("%s: the output would replace the input; de-identification writes a fresh file", outPath)
 	}
-	j := &job{in: inPath, rel: filepath.Base(inPath), out: filepath.Base(outPath)}
+	j := &job{in: inPath, rel: filepath.Base(inPath), out: filepath.Base(outPath), single: true}
 	return run([]*job{j}, filepath.Dir(outPath), true, opt)
 }
 
@@ -440,40 +453,57 @@ func viewString(view map[string]any, group, key string) string {
 // scan) before anything reads it here: an input that cannot be read (a
 // crash of the HDF5 library included, when the program isolates
 // validation) or that fails an integrity check is refused, unless
-// AcceptDamaged, which records the damage instead.
+// AcceptDamaged, which records the damage instead. The EMG samples' chunk
+// bytes are left to the write, which reads every chunk with its
+// Fletcher-32 check (validate.Options.SamplesReadByCaller): one read of
+// the samples, not two. Their chunk index is checked here. A dry run,
+// which writes nothing, checks every chunk here.
 func checkSources(jobs []*job, opt StudyOptions) {
-	vopt := validate.DefaultOptions()
-	vopt.ChecksumScan = true
 	batch.Run(len(jobs), opt.Workers, func(i int) error {
-		j := jobs[i]
-		if j.preError != nil {
-			return nil
-		}
-		rep := validate.Validator(j.in, vopt)
-		if rep.ReadError != "" {
-			j.preError = fmt.Errorf("could not read: %s", rep.ReadError)
-			return nil
-		}
-		for _, f := range rep.Findings {
-			if f.Check == "structure.unexpected" {
-				j.unread = append(j.unread, f.HDF5Path)
-			}
-		}
-		damage := rep.Damage()
-		if len(damage) == 0 {
-			return nil
-		}
-		if !opt.AcceptDamaged {
-			j.preError = fmt.Errorf("refused: the source fails its integrity checks: %s. Restore it from a copy; or give --accept-damaged to de-identify it as read (recorded in the output's history)",
-				rep.DamageText(5))
-			return nil
-		}
-		j.damage = map[string]int{}
-		for _, f := range damage {
-			j.damage[f.Check]++
+		if jobs[i].preError == nil {
+			checkSource(jobs[i], opt, opt.DryRun)
 		}
 		return nil
 	}, nil)
+}
+
+// checkSource validates one input as checkSources does; full reads every
+// chunk here too. A check that leaves the samples to the write and finds
+// damage is repeated in full, so the damage reported is always the whole
+// check's, as it is when the write finds a damaged chunk (doFile).
+func checkSource(j *job, opt StudyOptions, full bool) {
+	vopt := validate.DefaultOptions()
+	vopt.ChecksumScan = true
+	vopt.SamplesReadByCaller = !full
+	j.fullCheck = full
+	rep := validate.Validator(j.in, vopt)
+	if !full && (rep.ReadError != "" || len(rep.Damage()) > 0) {
+		checkSource(j, opt, true)
+		return
+	}
+	j.unread, j.damage = nil, nil
+	if rep.ReadError != "" {
+		j.preError = fmt.Errorf("could not read: %s", rep.ReadError)
+		return
+	}
+	for _, f := range rep.Findings {
+		if f.Check == "structure.unexpected" {
+			j.unread = append(j.unread, f.HDF5Path)
+		}
+	}
+	damage := rep.Damage()
+	if len(damage) == 0 {
+		return
+	}
+	if !opt.AcceptDamaged {
+		j.preError = fmt.Errorf("refused: the source fails its integrity checks: %s. Restore it from a copy; or give --accept-damaged to de-identify it as read (recorded in the output's history)",
+			rep.DamageText(5))
+		return
+	}
+	j.damage = map[string]int{}
+	for _, f := range damage {
+		j.damage[f.Check]++
+	}
 }
 
 func damageCounts(m map[string]int) string {

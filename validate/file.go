@@ -23,7 +23,8 @@ const maxChunkFaults = 20
 // (recfile.MetadataViewOf), the content checks on the recording
 // (recfile.OpenHandle) and, when opt.ChecksumScan, every stored chunk's
 // Fletcher-32 checksum (File.VerifyChunksOf) and the EMG samples for
-// stored infinities (band by band, each chunk inflated once), all through
+// stored infinities (band by band, each chunk inflated once; with
+// opt.SamplesReadByCaller only the samples' chunk index), all through
 // one open handle of the file, whose object tree is walked once for the
 // first two; memory does not grow with the recording's length. A file that
 // cannot be read at all (missing, not HDF5,
@@ -98,6 +99,7 @@ func File(path string, opt Options) (rep *Report) {
 	}
 
 	// Content checks on the model.
+	var callerReads map[string]bool // sample datasets the caller reads (SamplesReadByCaller)
 	if rf, err := recfile.OpenHandle(hf); err != nil {
 		readFailure(add, err, errorCount(raw), "content")
 	} else {
@@ -110,6 +112,13 @@ func File(path string, opt Options) (rep *Report) {
 			for ti := range rec.Trials {
 				for ai := range rec.Trials[ti].Arrays {
 					ah, aj := p.array(ti, ai)
+					if opt.SamplesReadByCaller {
+						if callerReads == nil {
+							callerReads = map[string]bool{}
+						}
+						callerReads[ah+"/samples"] = true
+						continue
+					}
 					checkSamplesInfinite(&rec.Trials[ti].Arrays[ai], ah, aj, add)
 				}
 			}
@@ -121,7 +130,7 @@ func File(path string, opt Options) (rep *Report) {
 
 	if opt.ChecksumScan {
 		faults := map[string]int{}
-		_, err := hf.VerifyChunksOf(objs, func(c h5.ChunkFault) {
+		_, err := hf.VerifyChunksIndexOnly(objs, callerReads, func(c h5.ChunkFault) {
 			faults[c.Dataset]++
 			if faults[c.Dataset] > maxChunkFaults {
 				return

@@ -16,6 +16,14 @@ type Options struct {
 	// checksum (default true). Off, a damaged chunk is found only if the
 	// content checks happen to read it.
 	ChecksumScan bool
+	// SamplesReadByCaller, with ChecksumScan, leaves the EMG samples to a
+	// caller that reads every chunk of them next with its Fletcher-32
+	// check (de-identification copies or decodes them all): their chunk
+	// index is still checked, their chunk bytes are not read here and not
+	// scanned for infinities. The caller must treat a checksum failure in
+	// its read as damage and validate again without this option to report
+	// it (deid does).
+	SamplesReadByCaller bool
 }
 
 // DefaultOptions are not strict, DefaultRules, with the checksum scan on.
