@@ -81,6 +81,8 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 		}
 		return fo, err
 	}
+	// The output is complete: its disk writes overlap the checks below.
+	t.StartSync()
 	fo.RawCopied = len(known)
 	for path, hs := range hashed {
 		if d, ok := hs.sum(); ok {

@@ -57,6 +57,7 @@ type Temp struct {
 	// Target is the final name Publish gives it.
 	Target    string
 	overwrite bool
+	synced    chan error // StartSync's result, when started
 }
 
 // Create checks the target (ErrExists unless overwrite), cleans temporary
@@ -89,8 +90,43 @@ func (t *Temp) Open() (*os.File, error) {
 // for the target when the file system is full (checked before the file is
 // removed, since removing it frees the space).
 func (t *Temp) Abandon(err error) error {
+	t.waitSync()
 	err = NoSpace(t.Target, err)
 	os.Remove(t.Path)
+	return err
+}
+
+// StartSync starts writing the temporary file's data to disk in the
+// background, for a caller that reads the finished file back (checks it)
+// before Publish: the disk writes then overlap the checks. The file must
+// not change after it. Publish waits for it and syncs once more (nothing
+// is left to write by then), so nothing is published before it is on
+// disk.
+func (t *Temp) StartSync() {
+	if t.synced != nil {
+		return
+	}
+	t.synced = make(chan error, 1)
+	go func() {
+		f, err := os.Open(t.Path)
+		if err == nil {
+			err = f.Sync()
+			if cerr := f.Close(); err == nil {
+				err = cerr
+			}
+		}
+		t.synced <- err
+	}()
+}
+
+// waitSync waits for StartSync's sync, if one was started, and returns
+// its error.
+func (t *Temp) waitSync() error {
+	if t.synced == nil {
+		return nil
+	}
+	err := <-t.synced
+	t.synced <- err // for a second wait
 	return err
 }
 
@@ -100,9 +136,13 @@ func (t *Temp) Abandon(err error) error {
 // when the target appeared in the meantime. On failure the temporary file
 // is removed.
 func (t *Temp) Publish() error {
+	serr := t.waitSync()
 	if err := CheckTarget(t.Target, t.overwrite); err != nil {
 		os.Remove(t.Path)
 		return err
+	}
+	if serr != nil {
+		return t.Abandon(fmt.Errorf("%s: sync: %w", t.Target, serr))
 	}
 	f, err := os.OpenFile(t.Path, os.O_RDWR, 0)
 	if err != nil {

@@ -192,3 +192,43 @@ func TestWriteNew(t *testing.T) {
 		t.Fatalf("%q %v %d entries", b, fi.Mode(), len(ents))
 	}
 }
+
+// TestStartSync: a temporary file synced in the background while it is
+// read is published with its content (Publish waits for the sync), and one
+// abandoned after StartSync is removed; a second wait does not block.
+func TestStartSync(t *testing.T) {
+	dir := t.TempDir()
+	for _, publish := range []bool{true, false} {
+		target := filepath.Join(dir, fmt.Sprintf("out-%v.bin", publish))
+		tmp, err := Create(target, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(tmp.Path, []byte("checked before publishing"), 0o600); err != nil {
+			t.Fatal(err)
+		}
+		tmp.StartSync()
+		tmp.StartSync() // no second sync
+		if b, err := os.ReadFile(tmp.Path); err != nil || string(b) != "checked before publishing" {
+			t.Fatalf("read back while syncing: %q %v", b, err)
+		}
+		if tmp.waitSync() != nil || tmp.waitSync() != nil {
+			t.Fatal("sync failed")
+		}
+		if !publish {
+			if err := tmp.Abandon(errors.New("check failed")); err == nil || err.Error() != "check failed" {
+				t.Fatalf("abandon: %v", err)
+			}
+			if _, err := os.Stat(tmp.Path); !os.IsNotExist(err) {
+				t.Fatalf("temporary file left: %v", err)
+			}
+			continue
+		}
+		if err := tmp.Publish(); err != nil {
+			t.Fatal(err)
+		}
+		if b, err := os.ReadFile(target); err != nil || string(b) != "checked before publishing" {
+			t.Fatalf("published: %q %v", b, err)
+		}
+	}
+}
