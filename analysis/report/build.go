@@ -34,6 +34,13 @@ type BuildOptions struct {
 	Progress func(done, total int)
 	// Now is the report's time stamp; zero means time.Now().
 	Now time.Time
+	// FigureRecordings is how many recordings, in page order, get their
+	// figures drawn: 0 means DefaultFigureRecordings, AllFigureRecordings
+	// every one, NoFigureRecordings none. The sections of the others keep
+	// their tables and verdict and say, with the command that draws them,
+	// that their figures are not in the page (Section.PlotCommand); the
+	// page's notes count them.
+	FigureRecordings int
 }
 
 // Build reads every recording under dir (archive.FindRecordings) and makes
@@ -47,7 +54,8 @@ type BuildOptions struct {
 // overview in every trial; the rate-versus-threshold scatter per array
 // name; and the MUAP grid of the trial with the highest target level
 // (stored templates when the file has them, else averaged from the EMG).
-// `muarc plot` draws all of them.
+// `muarc plot` draws all of them. Only the first opt.FigureRecordings
+// recordings get figures (BuildOptions).
 func Build(dir string, opt BuildOptions) (*Page, error) {
 	p, b, err := begin(dir, opt)
 	if err != nil {
@@ -60,11 +68,12 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 }
 
 // Write makes the same page as Build and Render, writing it to w as it
-// goes: each recording's section, its figures included, is written as soon
-// as it is made and only its verdict, tables and notes are kept, so memory
-// does not grow with the figures of a large study. The returned page
-// holds every section and the study figures without their drawings
-// (captions kept).
+// goes: the head (index and study analysis) first, then each recording's
+// section, its figures included, as soon as it is made, so that memory
+// does not grow with the size of the study. The returned page is an
+// outline of what was written: every section's file, verdict, figure
+// captions (no drawings) and PlotCommand, but not its tables, summary or
+// notes; the study figures' captions; the page's notes; no index rows.
 func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 	p, b, err := begin(dir, opt)
 	if err != nil {
@@ -78,6 +87,7 @@ func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 	if err := renderHead(w, p); err != nil {
 		return nil, err
 	}
+	p.Index.Rows = nil
 	// The study figures (one line per subject) are written; only their
 	// captions are kept.
 	for k := range p.StudyFigures {
@@ -88,10 +98,11 @@ func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 		if err := renderSection(w, i, &s); err != nil {
 			return nil, err
 		}
-		for k := range s.Figures {
-			s.Figures[k].SVG = nil
+		o := Section{File: s.File, Status: s.Status, Class: s.Class, PlotCommand: s.PlotCommand, Figures: make([]Figure, len(s.Figures))}
+		for k, f := range s.Figures {
+			o.Figures[k].Caption = f.Caption
 		}
-		p.Recordings[i] = s
+		p.Recordings[i] = o
 	}
 	if err := renderTail(w, p); err != nil {
 		return nil, err
@@ -105,10 +116,17 @@ type builder struct {
 	files []string
 	vopt  validate.Options
 	opt   BuildOptions
+	// drawn is the number of recordings, from the first, whose figures are
+	// drawn.
+	drawn int
 }
 
 func (b *builder) section(i int) Section {
-	s := section(filepath.Join(b.dir, filepath.FromSlash(b.files[i])), b.files[i], b.vopt)
+	leftOut := ""
+	if i >= b.drawn {
+		leftOut = PlotCommand(b.dir, b.files[i])
+	}
+	s := section(filepath.Join(b.dir, filepath.FromSlash(b.files[i])), b.files[i], b.vopt, leftOut)
 	if b.opt.Progress != nil {
 		b.opt.Progress(i+1, len(b.files))
 	}
@@ -169,7 +187,11 @@ func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
 	} else {
 		p.Dictionary = dictionaryTable(dict)
 	}
-	return p, &builder{dir: dir, files: files, vopt: vopt, opt: opt}, nil
+	b := &builder{dir: dir, files: files, vopt: vopt, opt: opt, drawn: figureLimit(opt, len(files))}
+	if b.drawn < len(files) {
+		p.Notes = append(p.Notes, figuresLeftOutNote(b.drawn, len(files), files[b.drawn]))
+	}
+	return p, b, nil
 }
 
 // apartFromResults takes the files of study-analysis results folders
@@ -210,9 +232,10 @@ func indexTable(rows []archive.IndexRow) Table {
 	return t
 }
 
-// section makes one recording's part of the page. Problems reading it are
-// shown in the section, never dropped.
-func section(path, rel string, vopt validate.Options) Section {
+// section makes one recording's part of the page. Its figures are drawn
+// unless plotCmd is given: then the section names that command instead.
+// Problems reading it are shown in the section, never dropped.
+func section(path, rel string, vopt validate.Options, plotCmd string) Section {
 	s := Section{File: rel}
 	// Through validate.Validator, so that a program that isolates
 	// validation (the muarc command) gets a file that crashes the HDF5
@@ -253,6 +276,10 @@ func section(path, rel string, vopt validate.Options) Section {
 		for _, n := range d.Notes {
 			s.Notes = append(s.Notes, fmt.Sprintf("%s/%s/%s: %s", d.Trial, d.Array, d.Decomposition, n))
 		}
+	}
+	if plotCmd != "" {
+		s.PlotCommand = plotCmd
+		return s
 	}
 	figs, fnotes, ferr := figures(rec, st)
 	if ferr != nil {

@@ -53,6 +53,10 @@ type Section struct {
 	Stats         Table
 	Notes         []string
 	Figures       []Figure
+	// PlotCommand, when not empty, is the command that draws this
+	// recording's figures, which the page does not hold
+	// (BuildOptions.FigureRecordings); the section says so.
+	PlotCommand string
 }
 
 // Figure is one inline SVG drawing with its caption.
@@ -165,6 +169,7 @@ lab; muarc helps to de-identify, it does not certify that a file is anonymous.</
 {{range .R.Notes}}<p class="note">{{.}}</p>
 {{end}}
 {{range .R.Figures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
+{{end}}{{with .R.PlotCommand}}<p class="note left-out">This page does not draw the figures of this recording (see the note at the top). To draw them: <code>{{.}}</code></p>
 {{end}}
 </section>
 {{end}}{{define "tail"}}

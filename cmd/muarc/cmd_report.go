@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strconv"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -13,14 +15,14 @@ import (
 )
 
 var reportFlags struct {
-	out, title      string
-	json, overwrite bool
+	out, title, figures string
+	json, overwrite     bool
 }
 
 var reportCmd = &cobra.Command{
 	Use:   "report DIR -o report.html",
 	Short: "Write one self-contained HTML page about a study folder",
-	Long: `report reads every recording under DIR (*.h5, *.hdf5, recursively; names
+	Long: fmt.Sprintf(`report reads every recording under DIR (*.h5, *.hdf5, recursively; names
 starting with "." are skipped) and writes one HTML page: the index (one row
 per recording, trial and array), per recording its validation summary (the
 findings of muarc validate grouped by check), its derived figures per
@@ -30,6 +32,15 @@ decomposition edited by hand, else the last one; the overview of every trial,
 the rate-versus-threshold scatter, the MUAP grid of the highest target
 level), how the figures are computed, and the data dictionary.
 
+Figures are drawn for the first %d recordings in the page's order
+(--figures N sets how many, --figures all every one, --figures 0 none):
+each recording's figures take about 0.2 to 0.5 MB of the page, and a page of
+thousands of recordings with all of them is more than a browser opens. Every
+other recording keeps its section with the tables and the validation
+verdict, and says in words that its figures are not in the page, with the
+command that draws them (muarc plot FILE -o figures/NAME); a note at the top
+of the page counts them.
+
 The page has no scripts and loads nothing from anywhere: it opens in a
 browser with no network and can be mailed or archived as it is. It shows
 what the files hold: before a study is shared, the ethics board, the consent
@@ -38,7 +49,7 @@ given and local data-protection law decide what may leave the lab.
 Exit status: 0 written, 2 the folder could not be read or the page not
 written (or bad usage), or a recording could not be read: the page is then
 still written, with it marked. Recordings that fail validation are shown as
-such in the page.`,
+such in the page.`, report.DefaultFigureRecordings),
 	Args: cobra.ExactArgs(1),
 	RunE: runReport,
 }
@@ -47,6 +58,7 @@ func init() {
 	f := reportCmd.Flags()
 	f.StringVarP(&reportFlags.out, "output", "o", "", "the HTML file to write (required)")
 	f.StringVar(&reportFlags.title, "title", "", "page title (default: \"Study report: \" and the folder name)")
+	f.StringVar(&reportFlags.figures, "figures", strconv.Itoa(report.DefaultFigureRecordings), "draw the figures of the first N recordings (a number, or all); the others name the command that draws them")
 	f.BoolVar(&reportFlags.overwrite, "overwrite", false, "replace the output file if it exists")
 	f.BoolVar(&reportFlags.json, "json", false, "print a summary of what was written as JSON")
 	reportCmd.MarkFlagRequired("output")
@@ -62,12 +74,30 @@ type reportSummary struct {
 	Statuses   []string `json:"statuses"`
 	// Unreadable counts the recordings that could not be read (shown in
 	// the page; exit status 2).
-	Unreadable int      `json:"unreadable"`
-	Notes      []string `json:"notes"`
+	Unreadable int `json:"unreadable"`
+	// FiguresLeftOut counts the recordings whose figures the page does
+	// not draw (--figures); their sections give the command that does.
+	FiguresLeftOut int      `json:"figures_left_out"`
+	Notes          []string `json:"notes"`
+}
+
+// parseFigureRecordings reads --figures: a count of recordings, or all.
+func parseFigureRecordings(v string) (int, error) {
+	if strings.EqualFold(strings.TrimSpace(v), "all") {
+		return report.AllFigureRecordings, nil
+	}
+	n, err := strconv.Atoi(strings.TrimSpace(v))
+	if err != nil || n < 0 {
+		return 0, fmt.Errorf("--figures %q: give the number of recordings whose figures the page draws (0 or more), or all", v)
+	}
+	if n == 0 {
+		return report.NoFigureRecordings, nil
+	}
+	return n, nil
 }
 
 // writeReport builds the page for dir and writes it atomically to out.
-func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error) {
+func writeReport(dir, out, title string, figureRecordings int, overwrite bool) (*reportSummary, error) {
 	if err := atomicfile.CheckTarget(out, overwrite); err != nil {
 		return nil, err
 	}
@@ -79,7 +109,7 @@ func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error)
 	err := atomicfile.Write(out, overwrite, func(f *os.File) error {
 		bw := bufio.NewWriterSize(io.MultiWriter(f, &n), 1<<20)
 		var err error
-		p, err = report.Write(bw, dir, report.BuildOptions{Title: title, Progress: func(done, total int) {
+		p, err = report.Write(bw, dir, report.BuildOptions{Title: title, FigureRecordings: figureRecordings, Progress: func(done, total int) {
 			if bar == nil {
 				bar = newProgress("report", int64(total))
 			}
@@ -106,6 +136,9 @@ func writeReport(dir, out, title string, overwrite bool) (*reportSummary, error)
 		if r.Status == "could not read" {
 			s.Unreadable++
 		}
+		if r.PlotCommand != "" {
+			s.FiguresLeftOut++
+		}
 	}
 	return s, nil
 }
@@ -114,7 +147,11 @@ func runReport(cmd *cobra.Command, args []string) error {
 	if st, err := os.Stat(args[0]); err != nil || !st.IsDir() {
 		return withExit(2, fmt.Errorf("%s: not a folder (give the folder holding the recordings)", args[0]))
 	}
-	s, err := writeReport(args[0], reportFlags.out, reportFlags.title, reportFlags.overwrite)
+	figs, err := parseFigureRecordings(reportFlags.figures)
+	if err != nil {
+		return withExit(2, err)
+	}
+	s, err := writeReport(args[0], reportFlags.out, reportFlags.title, figs, reportFlags.overwrite)
 	if err != nil {
 		return withExit(2, err)
 	}
@@ -130,6 +167,9 @@ func runReport(cmd *cobra.Command, args []string) error {
 		return silentExit(code)
 	}
 	fmt.Fprintf(w, "wrote %s (%d recordings, %d figures, %.1f MB)\n", s.Report, s.Recordings, s.Figures, float64(s.Bytes)/1e6)
+	if s.FiguresLeftOut > 0 {
+		fmt.Fprintf(w, "  %d recording(s) without figures in the page (--figures); each section gives the muarc plot command that draws them\n", s.FiguresLeftOut)
+	}
 	for _, st := range s.Statuses {
 		fmt.Fprintf(w, "  %s\n", st)
 	}

@@ -52,7 +52,7 @@ func demoReport(ctx *demoContext) error {
 		dir = filepath.Dir(ctx.Recordings[0])
 	}
 	out := filepath.Join(ctx.Dir, "report.html")
-	s, err := writeReport(dir, out, "Demo study report", true)
+	s, err := writeReport(dir, out, "Demo study report", 0, true) // the default number of recordings with figures
 	if err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
