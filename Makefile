@@ -9,7 +9,8 @@ DEMO    ?= demo-out
 # Debian packages. RUN_PACKAGES are what muarc needs to build and run (HDF5,
 # the compressor, pkg-config): make build and make demo install only these.
 # DEB_PACKAGES add the outside references the tests check against (h5dump,
-# h5py, jsonschema, numpy/scipy, pandas, headless Chromium for the report):
+# h5py, jsonschema, numpy/scipy, pandas, headless Chromium for the report,
+# python3-svg.path reading the report's shortened SVG path data):
 # make test, bench and fuzz install them.
 # EDF+/BDF+ references: EDFlib (libedf-dev, compiled with gcc in a test),
 # MNE-Python and biosig's save2gdf. R's hdf5r and npm's h5wasm (installed
@@ -22,7 +23,7 @@ DEMO    ?= demo-out
 # flac -8 of the raw converter counts (scripts/bench-storage.sh).
 RUN_PACKAGES := libhdf5-dev libdeflate-dev pkg-config
 DEB_PACKAGES := $(RUN_PACKAGES) hdf5-tools python3-h5py \
-	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium \
+	python3-jsonschema python3-yaml python3-numpy python3-scipy python3-pandas python3-statsmodels chromium python3-svg.path \
 	gcc libedf-dev python3-mne biosig-tools r-cran-hdf5r slurm-wlm munge python-tables-data
 BENCH_PACKAGES := xz-utils flac
 

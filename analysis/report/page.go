@@ -69,11 +69,11 @@ type Figure struct {
 
 var prolog = regexp.MustCompile(`^\s*(<\?xml[^>]*\?>\s*)?(<!--.*?-->\s*)*`)
 
-// inline returns svg as trusted HTML without its XML prolog and comments.
-// The SVG comes from our own plot package, never from a file being
-// reported on.
+// inline returns svg as trusted HTML without its XML prolog and comments,
+// its path data written shorter (compactSVG). The SVG comes from our own
+// plot package, never from a file being reported on.
 func inline(svg []byte) template.HTML {
-	return template.HTML(prolog.ReplaceAll(svg, nil))
+	return template.HTML(compactSVG(prolog.ReplaceAll(svg, nil)))
 }
 
 // Render writes the page as one HTML document.
