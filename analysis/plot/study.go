@@ -60,6 +60,32 @@ func SaveStudyFigures(out string, res *study.Result) ([]study.FigureFile, error)
 	return files, nil
 }
 
+// filledDots draws a scatter of CircleGlyph points as one filled path of
+// circles, not one path per point: the same drawing (points of one colour,
+// nonzero fill), but one SVG element per series, so that the figure of a
+// study of thousands of recordings stays a few bytes per point. Axis
+// ranges and glyph boxes are the scatter's.
+type filledDots struct{ *plotter.Scatter }
+
+func (d filledDots) Plot(c draw.Canvas, plt *gplot.Plot) {
+	trX, trY := plt.Transforms(&c)
+	r := d.GlyphStyle.Radius
+	var path vg.Path
+	for _, xy := range d.XYs {
+		pt := vg.Point{X: trX(xy.X), Y: trY(xy.Y)}
+		if !c.Contains(pt) {
+			continue // as draw.Canvas.DrawGlyph
+		}
+		path.Move(vg.Point{X: pt.X + r, Y: pt.Y})
+		path.Arc(pt, r, 0, 2*math.Pi)
+		path.Close()
+	}
+	if len(path) > 0 {
+		c.SetColor(d.GlyphStyle.Color)
+		c.Fill(path)
+	}
+}
+
 // r2Labels writes "<level> % MVC: R² x" lines in the top right of a panel.
 type r2Labels struct {
 	lines  []string
@@ -120,7 +146,7 @@ func muscleFigure(res *study.Result, muscle string) *Figure {
 				}
 				if s, err := plotter.NewScatter(xy); err == nil {
 					s.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.2), Shape: draw.CircleGlyph{}}
-					p.Add(s)
+					p.Add(filledDots{s})
 				}
 				f := r.Fit
 				if !math.IsNaN(f.Slope) {
