@@ -61,6 +61,13 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 	if err != nil {
 		return nil, err
 	}
+	for k, f := range p.StudyFigures {
+		var buf bytes.Buffer
+		if err := f.draw(&buf); err != nil {
+			return nil, err
+		}
+		p.StudyFigures[k] = Figure{Caption: f.Caption, SVG: buf.Bytes()}
+	}
 	for i := range b.files {
 		p.Recordings = append(p.Recordings, b.section(i))
 	}
@@ -88,10 +95,10 @@ func Write(w io.Writer, dir string, opt BuildOptions) (*Page, error) {
 		return nil, err
 	}
 	p.Index.Rows = nil
-	// The study figures (one line per subject) are written; only their
+	// The study figures were drawn straight into the page; only their
 	// captions are kept.
 	for k := range p.StudyFigures {
-		p.StudyFigures[k].SVG = nil
+		p.StudyFigures[k].draw = nil
 	}
 	for i := range b.files {
 		s := b.section(i)
@@ -173,11 +180,10 @@ func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
 		p.Notes = append(p.Notes, "The study analysis could not run: "+err.Error())
 	} else {
 		p.Study = studyTable(res)
+		// Drawn when the page's head is written (a study of thousands of
+		// recordings has figures of tens of megabytes of SVG).
 		for _, n := range plot.StudyFigures(res) {
-			var b bytes.Buffer
-			if err := n.Figure.WriteSVG(&b); err == nil {
-				p.StudyFigures = append(p.StudyFigures, Figure{Caption: n.Caption, SVG: b.Bytes()})
-			}
+			p.StudyFigures = append(p.StudyFigures, Figure{Caption: n.Caption, draw: n.Figure.WriteSVG})
 		}
 	}
 	p.Derived = derivedTable()

@@ -121,3 +121,38 @@ func TestCompactPathLeavesOthers(t *testing.T) {
 		}
 	}
 }
+
+// TestInlineWriterInChunks: the study figures, streamed in pieces of any
+// size through inlineWriter, come out as inline makes them from the whole
+// document.
+func TestInlineWriterInChunks(t *testing.T) {
+	dir := studyFolder(t)
+	p, err := Build(dir, BuildOptions{FigureRecordings: NoFigureRecordings})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(p.StudyFigures) == 0 {
+		t.Fatal("no study figures")
+	}
+	r := rand.New(rand.NewPCG(1, 2))
+	for _, f := range p.StudyFigures {
+		want := string(inline(f.SVG))
+		for _, size := range []int{1, 3, 64, 4096, 1 << 30} {
+			var got bytes.Buffer
+			iw := &inlineWriter{w: &got}
+			for rest := f.SVG; len(rest) > 0; {
+				n := min(len(rest), 1+r.IntN(size))
+				if _, err := iw.Write(rest[:n]); err != nil {
+					t.Fatal(err)
+				}
+				rest = rest[n:]
+			}
+			if err := iw.Close(); err != nil {
+				t.Fatal(err)
+			}
+			if got.String() != want {
+				t.Fatalf("pieces of up to %d bytes: %d bytes, inline %d", size, got.Len(), len(want))
+			}
+		}
+	}
+}

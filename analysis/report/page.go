@@ -1,6 +1,8 @@
 // Package report renders a study's one-page HTML report: an index of the
 // recordings, the validation summary of each, its derived unit figures and
-// its figures inline as SVG, and the data dictionary. The page is
+// its figures inline as SVG (for the first BuildOptions.FigureRecordings
+// recordings; the others' sections name the command that draws them), and
+// the data dictionary. The page is
 // self-contained: styles are inline, figures are inline SVG, there are no
 // scripts and no links to load, so it renders the same with no network.
 package report
@@ -65,6 +67,9 @@ type Figure struct {
 	// SVG is the drawing as produced by analysis/plot (an XML prolog is
 	// stripped when inlined).
 	SVG []byte
+	// draw, when set, writes the drawing instead of SVG: the study
+	// figures are drawn straight into the page.
+	draw func(io.Writer) error
 }
 
 var prolog = regexp.MustCompile(`^\s*(<\?xml[^>]*\?>\s*)?(<!--.*?-->\s*)*`)
@@ -99,7 +104,89 @@ func Render(w io.Writer, p *Page) error {
 // list of recordings, which needs only their file names), one section per
 // recording, and the tail.
 
-func renderHead(w io.Writer, p *Page) error { return execute(w, "head", p) }
+func renderHead(w io.Writer, p *Page) error {
+	if err := execute(w, "head", p); err != nil {
+		return err
+	}
+	for i := range p.StudyFigures {
+		if err := writeFigure(w, &p.StudyFigures[i]); err != nil {
+			return err
+		}
+	}
+	return execute(w, "nav", p)
+}
+
+// writeFigure writes one figure of the page, its drawing streamed through
+// an inlineWriter.
+func writeFigure(w io.Writer, f *Figure) error {
+	if _, err := io.WriteString(w, "<figure>"); err != nil {
+		return err
+	}
+	iw := &inlineWriter{w: w}
+	var err error
+	if f.draw != nil {
+		err = f.draw(iw)
+	} else {
+		_, err = iw.Write(f.SVG)
+	}
+	if err == nil {
+		err = iw.Close()
+	}
+	if err != nil {
+		return fmt.Errorf("report: figure %q: %w", f.Caption, err)
+	}
+	return execute(w, "figcaption", f)
+}
+
+// inlineWriter passes an SVG document on as inline would (without its
+// prolog, path data shortened), a line at a time: the canvas writes one
+// element per line and path data never spans lines.
+type inlineWriter struct {
+	w       io.Writer
+	pending []byte // an incomplete line, or the document before "<svg"
+	started bool   // the prolog has been dropped
+}
+
+func (iw *inlineWriter) Write(b []byte) (int, error) {
+	data := b
+	if len(iw.pending) > 0 {
+		data = append(iw.pending, b...)
+	}
+	if !iw.started {
+		i := bytes.Index(data, []byte("<svg"))
+		if i < 0 {
+			iw.pending = append(iw.pending[:0], data...)
+			return len(b), nil
+		}
+		if _, err := iw.w.Write(prolog.ReplaceAll(data[:i], nil)); err != nil {
+			return 0, err
+		}
+		data, iw.started = data[i:], true
+	}
+	for {
+		j := bytes.IndexByte(data, '\n')
+		if j < 0 {
+			break
+		}
+		if _, err := iw.w.Write(compactSVG(data[:j+1])); err != nil {
+			return 0, err
+		}
+		data = data[j+1:]
+	}
+	iw.pending = append(iw.pending[:0:0], data...)
+	return len(b), nil
+}
+
+// Close writes what is left.
+func (iw *inlineWriter) Close() error {
+	rest := iw.pending
+	if !iw.started {
+		rest = prolog.ReplaceAll(rest, nil)
+	}
+	_, err := iw.w.Write(compactSVG(rest))
+	iw.pending, iw.started = nil, true
+	return err
+}
 
 func renderSection(w io.Writer, i int, s *Section) error {
 	return execute(w, "section", sectionView{I: i, R: s})
@@ -157,8 +244,8 @@ lab; muarc helps to de-identify, it does not certify that a file is anonymous.</
 {{template "table" .Index}}
 {{if or .Study.Rows .StudyFigures}}<h2 id="study">Rate against recruitment threshold, across subjects</h2>
 {{template "table" .Study}}
-{{range .StudyFigures}}<figure>{{inline .SVG}}<figcaption>{{.Caption}}</figcaption></figure>
-{{end}}{{end}}
+{{end}}{{end}}{{define "figcaption"}}<figcaption>{{.Caption}}</figcaption></figure>
+{{end}}{{define "nav"}}
 {{if .Recordings}}<nav><ul>{{range $i, $r := .Recordings}}<li><a href="#rec-{{$i}}">{{$r.File}}</a></li>{{end}}</ul></nav>{{end}}
 {{end}}{{define "section"}}
 <section id="rec-{{.I}}" class="recording">
