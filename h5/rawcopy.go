@@ -76,10 +76,12 @@ func (w *MatrixWriter) Level() int { return w.level }
 // CopyChunksFrom fills the empty matrix w with the stored chunks of src,
 // byte for byte, in row-major chunk order, for a source RawCopyLevel
 // accepted with w's type and chunk shape. Each chunk's Fletcher-32 is
-// checked before it is written: a chunk that fails stops the copy with the
-// error a decoding read gives (ErrChecksum, naming the source's chunk,
-// inside a *SourceError like every error of reading the source), so
-// a damaged source is never carried under a new file's name. sum, when not
+// checked as it is copied (on another core, a few chunks behind): the
+// first chunk that fails, in order, fails the copy with the error a
+// decoding read gives (ErrChecksum, naming the source's chunk, inside a
+// *SourceError like every error of reading the source), and the caller
+// abandons the output, so a damaged source is never carried under a new
+// file's name. sum, when not
 // nil, receives every chunk as StoredSHA256 hashes it; band, when not nil,
 // is called after each band of chunk rows with the number of rows in it.
 func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(rows int)) error {
@@ -95,22 +97,50 @@ func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(row
 		return err
 	}
 	unlockLib()
-	var buf []byte
+	// This goroutine moves the chunks (the library calls are serial);
+	// another checks and hashes them, in order, a few chunks behind.
+	type chunk struct {
+		r, c int
+		raw  []byte
+	}
+	free := make(chan []byte, 4)
+	for range 4 {
+		free <- nil
+	}
+	todo := make(chan chunk, 4)
+	checked := make(chan error, 1)
+	go func() {
+		var err error
+		for ch := range todo {
+			if err == nil {
+				err = src.checkFletcher(ch.raw, ch.r, ch.c)
+				if err == nil && sum != nil {
+					hashChunk(sum, ch.r, ch.c, ch.raw)
+				}
+			}
+			free <- ch.raw
+		}
+		checked <- err
+	}()
+	finish := func(err error) error {
+		close(todo)
+		if cerr := <-checked; cerr != nil {
+			return &SourceError{cerr} // the first damaged chunk, in order
+		}
+		return err
+	}
 	for r := 0; r < rows; r += w.chunkRows {
 		for c := 0; c < w.cols; c += w.chunkCols {
-			var err error
-			if buf, err = src.storedFiltered(r, c, buf); err != nil {
-				return &SourceError{err}
+			buf, err := src.storedFiltered(r, c, <-free)
+			if err != nil {
+				return finish(&SourceError{err})
 			}
-			if err := src.checkFletcher(buf, r, c); err != nil {
-				return &SourceError{err}
-			}
-			if sum != nil {
-				hashChunk(sum, r, c, buf)
-			}
+			// A chunk that fails its check is written all the same: the
+			// copy then fails and is abandoned by the caller.
 			if err := w.writeChunk(r, c, buf); err != nil {
-				return err
+				return finish(err)
 			}
+			todo <- chunk{r, c, buf}
 		}
 		n := min(w.chunkRows, rows-r)
 		w.rows += n
@@ -119,7 +149,7 @@ func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(row
 			band(n)
 		}
 	}
-	return nil
+	return finish(nil)
 }
 
 // StoredSHA256 hashes every chunk of the 2-D matrix d as stored (filtered
