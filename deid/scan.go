@@ -1,7 +1,6 @@
 package deid
 
 import (
-	"bytes"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -133,58 +132,86 @@ func ScanBytes(path string, needles []string) ([]Leak, error) {
 	return scanReader(f, needles)
 }
 
-const scanBlock = 1 << 20
+// scanBlock is how much the scan reads at a time (a variable for tests).
+var scanBlock int64 = 1 << 20
 
-// scanReader searches r in one pass for every form: a 64 Ki-bit table of
-// the forms' first two bytes filters positions, a map on the first four
-// bytes picks the candidate forms, and only those are compared.
+// scanReader searches r in one pass for every form (Wu and Manber's
+// multi-pattern search over 2-byte blocks, "A fast algorithm for
+// multi-pattern searching", 1994): a table over every 2-byte block says
+// how far the next possible match start is from the block ending at the
+// fourth byte of the current position; only where it says 0 does a map on
+// the position's first four bytes pick the candidate forms, which are
+// compared in full. ASCII letters are compared through lowerTab, without
+// a lower-cased copy of the data.
 func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 	forms := needleForms(needles)
 	if len(forms) == 0 {
 		return nil, nil
 	}
 	maxLen := 0
-	var first2 [1 << 16 / 64]uint64
+	// shift[block] is how many positions can be skipped when the 2-byte
+	// block (lower-cased) ends at the current position's fourth byte: 3
+	// when no form's first four bytes hold it, less where one does (0:
+	// a form may start here).
+	const window = MinNeedleBytes // every form is at least this long
+	var shift [1 << 16]uint8
+	for i := range shift {
+		shift[i] = window - 1
+	}
+	// held has a bit for every 2-byte block, as it may stand in the data
+	// (either case of a letter), that shift does not give the full skip
+	// for: 8 KiB that stay in the cache where shift's 64 KiB would not.
+	var held [1 << 16 / 64]uint64
 	by4 := map[uint32][]int{}
 	for i, f := range forms {
 		maxLen = max(maxLen, len(f.pat))
-		p2 := uint16(f.pat[0])<<8 | uint16(f.pat[1])
-		first2[p2/64] |= 1 << (p2 % 64)
+		for j := 1; j < window; j++ {
+			b := uint16(f.pat[j-1])<<8 | uint16(f.pat[j])
+			shift[b] = min(shift[b], uint8(window-1-j))
+			for _, x := range caseVariants(f.pat[j-1]) {
+				for _, y := range caseVariants(f.pat[j]) {
+					v := uint16(x)<<8 | uint16(y)
+					held[v/64] |= 1 << (v % 64)
+				}
+			}
+		}
 		p4 := binary.BigEndian.Uint32(f.pat)
 		by4[p4] = append(by4[p4], i)
 	}
 	found := make([]Leak, len(forms))
 	margin := maxLen + ctxBytes // a match and the bytes after it
-	orig := make([]byte, 0, scanBlock+margin+2)
-	buf := make([]byte, 0, scanBlock+margin+2) // orig with ASCII letters lower-cased
-	var base int64                             // file offset of buf[0]
-	next := 0                                  // first position of buf not yet examined
+	orig := make([]byte, 0, int(scanBlock)+margin+2)
+	var base int64 // file offset of orig[0]
+	next := 0      // first position of orig not yet examined
 	for {
 		n, err := io.ReadFull(r, orig[len(orig):cap(orig)])
 		orig = orig[:len(orig)+n]
-		buf = buf[:len(orig)]
-		copy(buf[len(buf)-n:], orig[len(orig)-n:])
-		lowerASCII(buf[len(buf)-n:])
 		eof := err == io.EOF || errors.Is(err, io.ErrUnexpectedEOF)
 		if err != nil && !eof {
 			return nil, err
 		}
-		limit := len(buf) - margin
+		limit := len(orig) - margin
 		if eof {
-			limit = len(buf)
+			limit = len(orig)
 		}
-		for i := next; i < limit && i+4 <= len(buf); i++ {
-			p2 := uint16(buf[i])<<8 | uint16(buf[i+1])
-			if first2[p2/64]&(1<<(p2%64)) == 0 {
+		for i := next; i < limit && i+window <= len(orig); {
+			b := uint16(orig[i+window-2])<<8 | uint16(orig[i+window-1])
+			if held[b/64]&(1<<(b%64)) == 0 {
+				i += window - 1
 				continue
 			}
-			for _, fi := range by4[binary.BigEndian.Uint32(buf[i:])] {
+			if s := shift[uint16(lowerTab[b>>8])<<8|uint16(lowerTab[b&0xff])]; s > 0 {
+				i += int(s)
+				continue
+			}
+			p4 := uint32(lowerTab[orig[i]])<<24 | uint32(lowerTab[orig[i+1]])<<16 | uint32(lowerTab[orig[i+2]])<<8 | uint32(lowerTab[orig[i+3]])
+			for _, fi := range by4[p4] {
 				f := &forms[fi]
 				end := i + len(f.pat)
-				if end > len(buf) || !bytes.Equal(buf[i:end], f.pat) || !bounded(orig, i, end, f.encoding) {
+				if end > len(orig) || !equalLower(orig[i:end], f.pat) || !bounded(orig, i, end, f.encoding) {
 					continue
 				}
-				if len(f.pat) < shortNeedle && !textContext(buf, i, end, base == 0, eof) {
+				if len(f.pat) < shortNeedle && !textContext(orig, i, end, base == 0, eof) {
 					continue
 				}
 				if found[fi].Count == 0 {
@@ -192,16 +219,17 @@ func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 				}
 				found[fi].Count++
 			}
+			i++
 		}
 		if eof {
 			break
 		}
 		// Keep the bytes before the next position for the context tests.
+		// (A skip past limit covered positions where nothing starts:
+		// looking at them again finds nothing.)
 		cut := max(limit-ctxBytes, 0)
 		copy(orig, orig[cut:])
 		orig = orig[:len(orig)-cut]
-		buf = buf[:len(orig)]
-		copy(buf, buf[cut:cut+len(orig)])
 		base += int64(cut)
 		next = limit - cut
 	}
@@ -213,6 +241,28 @@ func scanReader(r io.Reader, needles []string) ([]Leak, error) {
 	}
 	sort.Slice(out, func(i, j int) bool { return out[i].Offset < out[j].Offset })
 	return out, nil
+}
+
+// caseVariants are the bytes that lower-case to c (c itself, and the
+// capital of a small ASCII letter).
+func caseVariants(c byte) []byte {
+	if c >= 'a' && c <= 'z' {
+		return []byte{c, c - 32}
+	}
+	return []byte{c}
+}
+
+// equalLower reports whether hay, its ASCII letters lower-cased, is pat.
+func equalLower(hay, pat []byte) bool {
+	if len(hay) != len(pat) {
+		return false
+	}
+	for i, c := range hay {
+		if lowerTab[c] != pat[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // shortNeedle is the encoded length below which a match must also sit in
