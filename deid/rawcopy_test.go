@@ -48,6 +48,17 @@ func rawCopyRecording() *record.Recording {
 	}
 }
 
+// rawCopySource writes rawCopyRecording into dir/src/rec.h5.
+func rawCopySource(t *testing.T, dir string) string {
+	t.Helper()
+	in := filepath.Join(dir, "src", "rec.h5")
+	os.MkdirAll(filepath.Dir(in), 0o755)
+	if err := recfile.Write(in, rawCopyRecording(), recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	return in
+}
+
 // compareSamplesScript has h5py (Debian python3-h5py, a reader muarc did
 // not write) describe every samples dataset of two files: the SHA-256 of
 // the values' bits (numpy tobytes), dtype with byte order, shape, chunk
@@ -113,11 +124,7 @@ func compareSamples(t *testing.T, py, in, out string) samplesComparison {
 func TestRawCopyAgainstH5py(t *testing.T) {
 	py := needPython(t)
 	dir := t.TempDir()
-	in := filepath.Join(dir, "src", "rec.h5")
-	os.MkdirAll(filepath.Dir(in), 0o755)
-	if err := recfile.Write(in, rawCopyRecording(), recfile.WriteOptions{}); err != nil {
-		t.Fatal(err)
-	}
+	in := rawCopySource(t, dir)
 	key, _ := KeyFromBytes(make([]byte, 32))
 	for _, decode := range []bool{false, true} {
 		out := filepath.Join(dir, fmt.Sprintf("out-%v.h5", decode))
@@ -163,15 +170,14 @@ func TestRawCopyAgainstH5py(t *testing.T) {
 func TestOtherEncodingsAreDecoded(t *testing.T) {
 	py := needPython(t)
 	dir := t.TempDir()
-	src := filepath.Join(dir, "rec.h5")
-	if err := recfile.Write(src, rawCopyRecording(), recfile.WriteOptions{}); err != nil {
-		t.Fatal(err)
-	}
+	src := rawCopySource(t, dir)
 	const ds = "trials/hold/arrays/grid_a/samples"
-	variants := map[string]string{
-		"big-endian": `dtype=">f4", chunks=(16384, 4), shuffle=True, compression="gzip", fletcher32=True`,
-		"no-shuffle": `dtype="<f4", chunks=(16384, 4), compression="gzip", fletcher32=True`,
-		"contiguous": `dtype="<f4"`,
+	// numpy type and h5py's create_dataset arguments
+	// (recfile/testdata/rewrite_samples.py)
+	variants := map[string][2]string{
+		"big-endian": {">f4", `{"chunks": [16384, 4], "shuffle": true, "compression": "gzip", "fletcher32": true}`},
+		"no-shuffle": {"<f4", `{"chunks": [16384, 4], "compression": "gzip", "fletcher32": true}`},
+		"contiguous": {"<f4", `{}`},
 	}
 	key, _ := KeyFromBytes(make([]byte, 32))
 	for name, opts := range variants {
@@ -179,19 +185,7 @@ func TestOtherEncodingsAreDecoded(t *testing.T) {
 		os.MkdirAll(filepath.Dir(in), 0o755)
 		b, _ := os.ReadFile(src)
 		os.WriteFile(in, b, 0o644)
-		script := `
-import sys, h5py
-with h5py.File(sys.argv[1], "r+") as f:
-    d = f["` + ds + `"]
-    data, attrs, maxshape = d[...], dict(d.attrs), d.maxshape
-    del f["` + ds + `"]
-    kw = dict(` + opts + `)
-    dt = kw.pop("dtype")
-    n = f.create_dataset("` + ds + `", data=data.astype(dt), maxshape=maxshape if "chunks" in kw else None, **kw)
-    for k, v in attrs.items():
-        n.attrs[k] = v
-`
-		if out, err := exec.Command(py, "-c", script, in).CombinedOutput(); err != nil {
+		if out, err := exec.Command(py, "../recfile/testdata/rewrite_samples.py", in, ds, opts[0], opts[1]).CombinedOutput(); err != nil {
 			t.Fatalf("%s: h5py: %v\n%s", name, err, out)
 		}
 		out := filepath.Join(dir, name+"-out.h5")
@@ -245,11 +239,7 @@ print(x.tobytes() == y.tobytes() and x.size > 0)
 func TestDamagedChunkFoundByTheCopy(t *testing.T) {
 	py := needPython(t)
 	dir := t.TempDir()
-	in := filepath.Join(dir, "src", "rec.h5")
-	os.MkdirAll(filepath.Dir(in), 0o755)
-	if err := recfile.Write(in, rawCopyRecording(), recfile.WriteOptions{}); err != nil {
-		t.Fatal(err)
-	}
+	in := rawCopySource(t, dir)
 	script := `
 import sys, h5py
 with h5py.File(sys.argv[1], "r") as f:

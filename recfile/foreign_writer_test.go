@@ -23,13 +23,15 @@ func TestSamplesRewrittenByAnotherWriter(t *testing.T) {
 		t.Fatal(err)
 	}
 	const ds = "trials/ramp_30/arrays/ta_grid/samples"
-	variants := map[string]string{
-		"big-endian float32, muarc's filters": `dtype=">f4", chunks=(4096, 4), shuffle=True, compression="gzip", fletcher32=True`,
-		"big-endian float64, muarc's filters": `dtype=">f8", chunks=(4096, 4), shuffle=True, compression="gzip", fletcher32=True`,
-		"little-endian float64, no shuffle":   `dtype="<f8", chunks=(1000, 6), compression="gzip", fletcher32=True`,
-		"little-endian float32, contiguous":   `dtype="<f4"`,
-		"big-endian float32, contiguous":      `dtype=">f4"`,
-		"little-endian float32, odd chunks":   `dtype="<f4", chunks=(777, 5), shuffle=True, compression="gzip", compression_opts=9, fletcher32=True`,
+	// h5py's create_dataset keyword arguments (testdata/rewrite_samples.py),
+	// after the numpy type.
+	variants := map[string][2]string{
+		"big-endian float32, muarc's filters": {">f4", `{"chunks": [4096, 4], "shuffle": true, "compression": "gzip", "fletcher32": true}`},
+		"big-endian float64, muarc's filters": {">f8", `{"chunks": [4096, 4], "shuffle": true, "compression": "gzip", "fletcher32": true}`},
+		"little-endian float64, no shuffle":   {"<f8", `{"chunks": [1000, 6], "compression": "gzip", "fletcher32": true}`},
+		"little-endian float32, contiguous":   {"<f4", `{}`},
+		"big-endian float32, contiguous":      {">f4", `{}`},
+		"little-endian float32, odd chunks":   {"<f4", `{"chunks": [777, 5], "shuffle": true, "compression": "gzip", "compression_opts": 9, "fletcher32": true}`},
 	}
 	i := 0
 	for name, opts := range variants {
@@ -38,20 +40,13 @@ func TestSamplesRewrittenByAnotherWriter(t *testing.T) {
 		raw := path + ".f64"
 		b, _ := os.ReadFile(src)
 		os.WriteFile(path, b, 0o644)
+		if out, err := exec.Command(py, "testdata/rewrite_samples.py", path, ds, opts[0], opts[1]).CombinedOutput(); err != nil {
+			t.Fatalf("%s: h5py: %v\n%s", name, err, out)
+		}
 		script := `
-import sys, h5py, numpy as np
-path, raw = sys.argv[1], sys.argv[2]
-with h5py.File(path, "r+") as f:
-    d = f["` + ds + `"]
-    data, attrs, maxshape = d[...], dict(d.attrs), d.maxshape
-    del f["` + ds + `"]
-    kw = dict(` + opts + `)
-    dt = kw.pop("dtype")
-    n = f.create_dataset("` + ds + `", data=data.astype(dt), maxshape=maxshape if "chunks" in kw else None, **kw)
-    for k, v in attrs.items():
-        n.attrs[k] = v
-with h5py.File(path, "r") as f:
-    f["` + ds + `"][...].astype("<f8").tofile(raw)
+import sys, h5py
+with h5py.File(sys.argv[1], "r") as f:
+    f["` + ds + `"][...].astype("<f8").tofile(sys.argv[2])
 `
 		if out, err := exec.Command(py, "-c", script, path, raw).CombinedOutput(); err != nil {
 			t.Fatalf("%s: h5py: %v\n%s", name, err, out)
