@@ -62,11 +62,14 @@ func Build(dir string, opt BuildOptions) (*Page, error) {
 		return nil, err
 	}
 	for k, f := range p.StudyFigures {
+		if f.draw == nil {
+			continue
+		}
 		var buf bytes.Buffer
 		if err := f.draw(&buf); err != nil {
 			return nil, err
 		}
-		p.StudyFigures[k] = Figure{Caption: f.Caption, SVG: buf.Bytes()}
+		p.StudyFigures[k].SVG, p.StudyFigures[k].draw = buf.Bytes(), nil
 	}
 	for i := range b.files {
 		p.Recordings = append(p.Recordings, b.section(i))
@@ -180,11 +183,8 @@ func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
 		p.Notes = append(p.Notes, "The study analysis could not run: "+err.Error())
 	} else {
 		p.Study = studyTable(res)
-		// Drawn when the page's head is written (a study of thousands of
-		// recordings has figures of tens of megabytes of SVG).
-		for _, n := range plot.StudyFigures(res) {
-			p.StudyFigures = append(p.StudyFigures, Figure{Caption: n.Caption, draw: n.Figure.WriteSVG})
-		}
+		// Drawn when the page's head is written.
+		p.StudyFigures = studyFigures(res, dir)
 	}
 	p.Derived = derivedTable()
 	dict, derr := archive.DataDictionary()

@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 
+	"muarc/analysis/plot"
+	"muarc/analysis/study"
 	"muarc/internal/atomicfile"
 )
 
@@ -45,10 +47,7 @@ func figureLimit(opt BuildOptions, n int) int {
 // (slash-separated, relative to the study folder dir), into a folder named
 // after it under figures/.
 func PlotCommand(dir, rel string) string {
-	file := filepath.Join(dir, filepath.FromSlash(rel))
-	if strings.HasPrefix(file, "-") {
-		file = "." + string(filepath.Separator) + file
-	}
+	file := dashSafe(filepath.Join(dir, filepath.FromSlash(rel)))
 	out := "figures/" + strings.TrimSuffix(rel, path.Ext(rel))
 	return "muarc plot " + atomicfile.ShellQuote(file) + " -o " + atomicfile.ShellQuote(out)
 }
@@ -65,4 +64,59 @@ func figuresLeftOutNote(drawn, total int, firstLeftOut string) string {
 	return fmt.Sprintf("Figures are drawn for the first %d of the %d recordings, to keep the page small enough for a browser to open. "+
 		"The other %d recording sections (from %s on, in the order of the list) have their tables and validation verdict and, in place of figures, the muarc plot command that draws them; "+
 		"muarc report --figures all draws every recording's figures (about 0.2 to 0.5 MB of page each).", drawn, total, total-drawn, firstLeftOut)
+}
+
+// MaxStudyFigureSubjects is the most subjects the page's study figure of a
+// muscle shows side by side (a column of 3.2 inches each, scaled to the
+// page's width: beyond about 30 a column is narrower than its tick
+// labels, and a study of 2,000 subjects made a figure of 28 MB of SVG).
+// The figure of a muscle with more subjects is not drawn; the page says so
+// in its place.
+const MaxStudyFigureSubjects = 30
+
+// studyFigures are the study figures of the page, one per muscle in the
+// order of res.Rows, drawn when the page is written; a muscle with more
+// than MaxStudyFigureSubjects subjects gets a Figure with LeftOut set
+// instead. dir is the study folder as given.
+func studyFigures(res *study.Result, dir string) []Figure {
+	subjects := map[string]map[string]bool{}
+	var muscles []string
+	for _, r := range res.Rows {
+		if subjects[r.Muscle] == nil {
+			subjects[r.Muscle] = map[string]bool{}
+			muscles = append(muscles, r.Muscle)
+		}
+		subjects[r.Muscle][r.Subject] = true
+	}
+	drawable := *res
+	drawable.Rows = nil
+	for _, r := range res.Rows {
+		if len(subjects[r.Muscle]) <= MaxStudyFigureSubjects {
+			drawable.Rows = append(drawable.Rows, r)
+		}
+	}
+	named := plot.StudyFigures(&drawable)
+	var out []Figure
+	for _, m := range muscles {
+		n := len(subjects[m])
+		if n <= MaxStudyFigureSubjects {
+			f := named[0]
+			named = named[1:]
+			out = append(out, Figure{Caption: f.Caption, draw: f.Figure.WriteSVG})
+			continue
+		}
+		out = append(out, Figure{Caption: fmt.Sprintf("%s: discharge rate against recruitment threshold per subject (not drawn).", m),
+			LeftOut: fmt.Sprintf("The figure of %s, one column per subject, is not drawn in this page: it would have %d columns, more than the %d that stay readable side by side. "+
+				"The table above summarises the subjects' lines; %s lists each subject's line (--tsv as a table).", m, n, MaxStudyFigureSubjects,
+				"muarc stats "+atomicfile.ShellQuote(dashSafe(dir)))})
+	}
+	return out
+}
+
+// dashSafe puts ./ before a path a command would read as an option.
+func dashSafe(p string) string {
+	if strings.HasPrefix(p, "-") {
+		return "." + string(filepath.Separator) + p
+	}
+	return p
 }

@@ -9,6 +9,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"muarc/analysis/study"
 )
 
 // copiesFolder is the test study with its recording copied to n files
@@ -152,5 +154,43 @@ func TestPlotCommandQuotes(t *testing.T) {
 		if got := PlotCommand(c.dir, c.rel); got != c.want {
 			t.Errorf("PlotCommand(%q, %q) = %s, want %s", c.dir, c.rel, got, c.want)
 		}
+	}
+}
+
+// TestStudyFigureSubjectLimit: a muscle with more subjects than
+// MaxStudyFigureSubjects gets a sentence in place of its figure (naming
+// the count and the command that lists the subjects' lines); a muscle
+// with fewer is drawn, in the order of the rows.
+func TestStudyFigureSubjectLimit(t *testing.T) {
+	res := &study.Result{Sources: []study.Source{{File: "x.h5"}}}
+	add := func(muscle string, subjects int) {
+		for s := range subjects {
+			for _, rel := range study.Relations {
+				res.Rows = append(res.Rows, study.SubjectRow{Subject: fmt.Sprintf("S%03d", s), Muscle: muscle, LevelPct: 30, Relation: rel,
+					Points: [][2]float64{{5, 10}, {10, 12}, {15, 13}}, Fit: study.FitLine([]float64{5, 10, 15}, []float64{10, 12, 13})})
+			}
+		}
+	}
+	add("soleus", MaxStudyFigureSubjects+1)
+	add("tibialis anterior", 3)
+	figs := studyFigures(res, "my study")
+	if len(figs) != 2 {
+		t.Fatalf("%d figures, want 2", len(figs))
+	}
+	var page bytes.Buffer
+	for i := range figs {
+		if err := writeFigure(&page, &figs[i]); err != nil {
+			t.Fatal(err)
+		}
+	}
+	want := fmt.Sprintf("The figure of soleus, one column per subject, is not drawn in this page: it would have %d columns, more than the %d", MaxStudyFigureSubjects+1, MaxStudyFigureSubjects)
+	if figs[0].draw != nil || !strings.Contains(figs[0].LeftOut, want) || !strings.Contains(figs[0].LeftOut, "muarc stats 'my study' lists each subject's line") {
+		t.Errorf("soleus: %+v", figs[0])
+	}
+	if figs[1].draw == nil || figs[1].LeftOut != "" || !strings.HasPrefix(figs[1].Caption, "tibialis anterior:") {
+		t.Errorf("tibialis anterior: %+v", figs[1])
+	}
+	if got := page.String(); strings.Count(got, "<svg") != 1 || !strings.Contains(got, `<p class="note left-out">`+want) {
+		t.Errorf("page part:\n%.600s", got)
 	}
 }

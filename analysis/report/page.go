@@ -67,6 +67,9 @@ type Figure struct {
 	// SVG is the drawing as produced by analysis/plot (an XML prolog is
 	// stripped when inlined).
 	SVG []byte
+	// LeftOut, when not empty, says in words why the figure is not drawn
+	// and what gives its content; the page shows it in its place.
+	LeftOut string
 	// draw, when set, writes the drawing instead of SVG: the study
 	// figures are drawn straight into the page.
 	draw func(io.Writer) error
@@ -119,6 +122,9 @@ func renderHead(w io.Writer, p *Page) error {
 // writeFigure writes one figure of the page, its drawing streamed through
 // an inlineWriter.
 func writeFigure(w io.Writer, f *Figure) error {
+	if f.LeftOut != "" {
+		return execute(w, "figure-left-out", f)
+	}
 	if _, err := io.WriteString(w, "<figure>"); err != nil {
 		return err
 	}
@@ -244,7 +250,8 @@ lab; muarc helps to de-identify, it does not certify that a file is anonymous.</
 {{template "table" .Index}}
 {{if or .Study.Rows .StudyFigures}}<h2 id="study">Rate against recruitment threshold, across subjects</h2>
 {{template "table" .Study}}
-{{end}}{{end}}{{define "figcaption"}}<figcaption>{{.Caption}}</figcaption></figure>
+{{end}}{{end}}{{define "figure-left-out"}}<p class="note left-out">{{.LeftOut}}</p>
+{{end}}{{define "figcaption"}}<figcaption>{{.Caption}}</figcaption></figure>
 {{end}}{{define "nav"}}
 {{if .Recordings}}<nav><ul>{{range $i, $r := .Recordings}}<li><a href="#rec-{{$i}}">{{$r.File}}</a></li>{{end}}</ul></nav>{{end}}
 {{end}}{{define "section"}}
