@@ -16,10 +16,11 @@ import (
 const (
 	// DefaultFigureRecordings is the number of recordings, in page order,
 	// whose figures a page draws when BuildOptions.FigureRecordings is 0.
-	// Each recording's figures take about 0.2 to 0.5 MB of the page, so a
-	// page of a large study with every figure (2,000 recordings: close to
-	// 1 GB) is more than a browser opens; 100 recordings keep it to tens of
-	// megabytes, and a study of up to 100 recordings is drawn whole.
+	// A recording's figures take about 0.3 MB of the page (two arrays in
+	// one trial: 0.27 MB on average in a generated study of 2,000), so a
+	// page of a large study with every figure (2,000 recordings: over
+	// 500 MB) is more than a browser opens; 100 recordings keep it near
+	// 30 MB, and a study of up to 100 recordings is drawn whole.
 	DefaultFigureRecordings = 100
 	// AllFigureRecordings draws the figures of every recording.
 	AllFigureRecordings = -1
@@ -63,7 +64,7 @@ func figuresLeftOutNote(drawn, total int, firstLeftOut string) string {
 	}
 	return fmt.Sprintf("Figures are drawn for the first %d of the %d recordings, to keep the page small enough for a browser to open. "+
 		"The other %d recording sections (from %s on, in the order of the list) have their tables and validation verdict and, in place of figures, the muarc plot command that draws them; "+
-		"muarc report --figures all draws every recording's figures (about 0.2 to 0.5 MB of page each).", drawn, total, total-drawn, firstLeftOut)
+		"muarc report --figures all draws every recording's figures (about 0.3 MB of page each for a recording of two arrays in one trial).", drawn, total, total-drawn, firstLeftOut)
 }
 
 // MaxStudyFigureSubjects is the most subjects the page's study figure of a

@@ -108,6 +108,13 @@ func TestFigureRecordingsLimit(t *testing.T) {
 	if !strings.Contains(top, want) || !strings.Contains(top, fmt.Sprintf("The other %d recording sections (from sub/%s.h5 on", n-drawn, names[drawn])) {
 		t.Errorf("the top of the page does not count the recordings without figures:\n%s", top)
 	}
+	// Chromium lays out the drawn figures and every section's tables
+	// (two per recording, with the index and the study summary beside).
+	html := filepath.Join(t.TempDir(), "page.html")
+	if err := os.WriteFile(html, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	checkInChromium(t, html, drawn*8, 2*n+2)
 	if cmd := PlotCommand(dir, "sub/rec02.h5"); cmd != "muarc plot "+filepath.Join(dir, "sub", "rec02.h5")+" -o figures/sub/rec02" {
 		t.Errorf("plot command %q", cmd)
 	}

@@ -34,7 +34,7 @@ level), how the figures are computed, and the data dictionary.
 
 Figures are drawn for the first %d recordings in the page's order
 (--figures N sets how many, --figures all every one, --figures 0 none):
-each recording's figures take about 0.2 to 0.5 MB of the page, and a page of
+each recording's figures take about 0.3 MB of the page, and a page of
 thousands of recordings with all of them is more than a browser opens. Every
 other recording keeps its section with the tables and the validation
 verdict, and says in words that its figures are not in the page, with the
