@@ -16,11 +16,13 @@ import (
 const (
 	// DefaultFigureRecordings is the number of recordings, in page order,
 	// whose figures a page draws when BuildOptions.FigureRecordings is 0.
-	// A recording's figures take about 0.3 MB of the page (two arrays in
-	// one trial: 0.27 MB on average in a generated study of 2,000), so a
-	// page of a large study with every figure (2,000 recordings: over
-	// 500 MB) is more than a browser opens; 100 recordings keep it near
-	// 30 MB, and a study of up to 100 recordings is drawn whole.
+	// A recording's figures take 0.27 MB of the page for one trial of two
+	// arrays (the average over a generated study of 2,000) and 1.7 MB for
+	// the demo's three trials, so a page of a large study with every
+	// figure (2,000 recordings of one trial: over 500 MB) is more than a
+	// browser opens; 100 recordings keep such a page near 30 MB (170 MB
+	// for recordings like the demo's), and a study of up to 100
+	// recordings is drawn whole.
 	DefaultFigureRecordings = 100
 	// AllFigureRecordings draws the figures of every recording.
 	AllFigureRecordings = -1
@@ -64,7 +66,7 @@ func figuresLeftOutNote(drawn, total int, firstLeftOut string) string {
 	}
 	return fmt.Sprintf("Figures are drawn for the first %d of the %d recordings, to keep the page small enough for a browser to open. "+
 		"The other %d recording sections (from %s on, in the order of the list) have their tables and validation verdict and, in place of figures, the muarc plot command that draws them; "+
-		"muarc report --figures all draws every recording's figures (about 0.3 MB of page each for a recording of two arrays in one trial).", drawn, total, total-drawn, firstLeftOut)
+		"muarc report --figures all draws every recording's figures.", drawn, total, total-drawn, firstLeftOut)
 }
 
 // MaxStudyFigureSubjects is the most subjects the page's study figure of a

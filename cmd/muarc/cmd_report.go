@@ -34,7 +34,8 @@ level), how the figures are computed, and the data dictionary.
 
 Figures are drawn for the first %d recordings in the page's order
 (--figures N sets how many, --figures all every one, --figures 0 none):
-each recording's figures take about 0.3 MB of the page, and a page of
+each recording's figures take from 0.3 MB (one trial, two arrays) to a
+few MB (the demo's three trials: 1.7 MB) of the page, and a page of
 thousands of recordings with all of them is more than a browser opens. Every
 other recording keeps its section with the tables and the validation
 verdict, and says in words that its figures are not in the page, with the
@@ -128,9 +129,11 @@ func writeReport(dir, out, title string, figureRecordings int, overwrite bool) (
 	if err != nil {
 		return nil, err
 	}
-	s := &reportSummary{Report: out, Bytes: int(n), Recordings: len(p.Recordings), Notes: p.Notes}
-	if s.Notes == nil {
-		s.Notes = []string{}
+	s := &reportSummary{Report: out, Bytes: int(n), Recordings: len(p.Recordings), Notes: append([]string{}, p.Notes...)}
+	for _, f := range p.StudyFigures {
+		if f.LeftOut != "" {
+			s.Notes = append(s.Notes, f.LeftOut)
+		}
 	}
 	for _, r := range p.Recordings {
 		s.Figures += len(r.Figures)
