@@ -7,6 +7,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"muarc/record"
@@ -239,6 +240,7 @@ func (a *applier) action(path string) (Action, bool) {
 
 // note records what happened to a field.
 func (a *applier) note(path string, act Action, named bool, note string) {
+	path = internPath(path)
 	a.res.Fields = append(a.res.Fields, FieldOutcome{path, act, named, note})
 	if !named {
 		a.res.Unlisted = append(a.res.Unlisted, path)
@@ -311,6 +313,30 @@ func (a *applier) str(path, v string, set func(string)) {
 		a.needles = append(a.needles, needlesOf(v, k)...)
 	}
 	a.note(path, act, named, note)
+}
+
+// paths holds one copy of each field path reported: a study's
+// recordings share their paths, and a run keeps every file's report rows
+// to the end, so each row then costs its slot, not its own copy of the
+// text. The number of distinct paths is set by the recordings' shapes
+// (trials, arrays, decompositions, extra fields), not by the number of
+// files.
+var paths struct {
+	sync.Mutex
+	m map[string]string
+}
+
+func internPath(p string) string {
+	paths.Lock()
+	defer paths.Unlock()
+	if q, ok := paths.m[p]; ok {
+		return q
+	}
+	if paths.m == nil || len(paths.m) > 1<<16 {
+		paths.m = map[string]string{} // a bound for odd inputs; rows stay correct
+	}
+	paths.m[p] = p
+	return p
 }
 
 func countRemovals(rm []Removal) int {

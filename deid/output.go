@@ -6,6 +6,7 @@ import (
 	"muarc/recfile"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 )
@@ -29,7 +30,8 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 		return fo, err
 	}
 	fo.Subject, fo.Session = res.Subject, res.Session
-	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = res.Fields, res.Unlisted, res.Scrubbed, res.Notes
+	// Kept to the end of the run: copies without the spare capacity.
+	fo.Fields, fo.Unlisted, fo.Scrubbed, fo.Notes = slices.Clone(res.Fields), slices.Clone(res.Unlisted), res.Scrubbed, res.Notes
 	fo.quasi, fo.pseud = res.Quasi, ps.Subject(j.subj)
 	fo.InStudy = res.InStudy
 	if len(j.unread) > 0 {
