@@ -116,7 +116,7 @@ bin/muarc-benchwrite -seconds "$ONES" -o "$tmp/one.h5" >/dev/null
 mkdir -p "$tmp/onedir" && mv "$tmp/one.h5" "$tmp/onedir/"
 run obase "$py" scripts/bench/copyall.py "$tmp/onedir" "$tmp/onecopy"; OB=$W; rm -rf "$tmp/onecopy"
 run one "$muarc" deidentify "$tmp/onedir/one.h5" -o "$tmp/one-shared.h5" --key "$key"
-row "\`muarc deidentify\` on one $(du -m "$tmp/onedir/one.h5" | cut -f1) MB recording" "$W" "$OB" "h5py copy of every object" "$M"
+row "\`muarc deidentify\` on one $(du -m "$tmp/onedir/one.h5" | cut -f1) MB recording (source check, leak scan, data check and sync included; samples copied chunk by chunk)" "$W" "$OB" "h5py copy of every object (no sync)" "$M"
 rm -rf "$tmp/onedir" "$tmp/one-shared.h5"
 fi
 parts=""
