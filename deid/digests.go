@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"hash"
 	"math"
-	"strings"
 
 	"muarc/recfile"
 	"muarc/record"
@@ -256,8 +255,8 @@ func (s *hashingCounts) ReadFloat64(start int, dst []float64) error {
 }
 
 // wrapSamples puts a hashingSource in front of every array's samples that
-// the writer decodes (those it copies chunk by chunk report a digest of
-// the stored chunks instead).
+// the writer decodes (those it copies chunk by chunk are compared with
+// the input's stored chunks instead, sameStored).
 func wrapSamples(rec *record.Recording, opt recfile.WriteOptions) map[string]*hashingSource {
 	out := map[string]*hashingSource{}
 	for ti := range rec.Trials {
@@ -278,25 +277,26 @@ func wrapSamples(rec *record.Recording, opt recfile.WriteOptions) map[string]*ha
 	return out
 }
 
-// storedDigest marks a digest of stored chunks (recfile.SamplesCopied),
-// so that it is never compared with a digest of values.
-func storedDigest(sum string) string { return "stored-chunks:" + sum }
+// copiedRaw stands for the digest of samples copied chunk by chunk
+// (recfile.SamplesCopied): they are compared with the input's stored
+// chunks directly (sameStored), never with a digest of values.
+const copiedRaw = "stored chunks copied"
 
-// storedDigests returns, for every samples path of known that holds a
-// digest of stored chunks, the same digest of out's samples there, read
-// raw: the output's chunks must be the input's, byte for byte. A path
-// whose samples cannot be hashed so is left out (and then hashed by value,
-// which cannot match: the check fails).
-func storedDigests(out *record.Recording, known map[string]string) map[string]string {
+// sameStored returns copiedRaw for every samples path of known marked so
+// whose output chunks are the input's, byte for byte
+// (recfile.SameStoredSamples). A path whose chunks differ, or cannot be
+// compared, is left out (and then hashed by value, which cannot match
+// copiedRaw: the check fails).
+func sameStored(in, out *record.Recording, known map[string]string) map[string]string {
 	got := map[string]string{}
 	for ti := range out.Trials {
 		for ai, a := range out.Trials[ti].Arrays {
 			path := fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)
-			if !strings.HasPrefix(known[path], storedDigest("")) || a.Samples == nil {
+			if known[path] != copiedRaw || a.Samples == nil || ti >= len(in.Trials) || ai >= len(in.Trials[ti].Arrays) {
 				continue
 			}
-			if sum, ok, err := recfile.StoredSamplesSHA256(a.Samples); ok && err == nil {
-				got[path] = storedDigest(sum)
+			if same, ok, err := recfile.SameStoredSamples(in.Trials[ti].Arrays[ai].Samples, a.Samples); same && ok && err == nil {
+				got[path] = copiedRaw
 			}
 		}
 	}

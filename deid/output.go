@@ -58,15 +58,15 @@ func doFile(j *job, outDir string, pol *Policy, ps *Pseudonymizer, opt StudyOpti
 	}
 	// Samples stored as the writer would store them are copied chunk by
 	// chunk (recfile.CopiesSamplesRaw), their Fletcher-32 checked on the
-	// way; the copy reports the SHA-256 of the stored chunks, which the
-	// output's must match. Other samples are hashed as the writer streams
+	// way; the output's stored chunks must then be the input's, byte for
+	// byte (compared after writing). Other samples are hashed as the writer streams
 	// them (it reads each array once, in order), so the input need not be
 	// read twice. The output stays mode 0600 under its temporary name
 	// until it has passed the scan.
 	wopt := recfile.WriteOptions{Overwrite: true, DecodeSamples: opt.decodeSamples}
 	known := map[string]string{}
-	wopt.SamplesCopied = func(ti, ai int, sum string) {
-		known[fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)] = storedDigest(sum)
+	wopt.SamplesCopied = func(ti, ai int) {
+		known[fmt.Sprintf("trials[%d].arrays[%d].samples", ti, ai)] = copiedRaw
 	}
 	hashed := wrapSamples(res.Recording, wopt)
 	err = recfile.WriteInto(t.Path, res.Recording, wopt)
@@ -154,7 +154,7 @@ func verifyOutput(path string, res *Result, pol *Policy, known map[string]string
 	sum.Findings = mergeFindings(checkStrings(out, needles), append(append(wf, checkOthers(out, res.people, res.originalID)...), checkPhones(out, res.phones)...))
 	sum.StillIdentifying = IdentifyingFields(out)
 	want, werr := dataDigests(res.Recording, known)
-	got, gerr := dataDigests(out, storedDigests(out, known))
+	got, gerr := dataDigests(out, sameStored(res.Recording, out, known))
 	sc := <-scan
 	if sc.err != nil {
 		return sum, 0, sc.err

@@ -254,6 +254,10 @@ print(ci.byte_offset + ci.size // 2)
 	if _, err := fmt.Sscan(string(b), &at); err != nil {
 		t.Fatal(err, string(b))
 	}
+	good := filepath.Join(dir, "good.h5")
+	if b, err := os.ReadFile(in); err != nil || os.WriteFile(good, b, 0o644) != nil {
+		t.Fatal(err)
+	}
 	f, err := os.OpenFile(in, os.O_RDWR, 0)
 	if err != nil {
 		t.Fatal(err)
@@ -263,6 +267,16 @@ print(ci.byte_offset + ci.size // 2)
 	one[0] ^= 0x5a
 	f.WriteAt(one, at)
 	f.Close()
+
+	// The comparison that checks a raw copy sees the flipped byte, and
+	// only in the array that holds it.
+	ga, gb := openArrays(t, good), openArrays(t, in)
+	for i, want := range []bool{false, true} {
+		same, ok, err := recfile.SameStoredSamples(ga[i].Samples, gb[i].Samples)
+		if same != want || !ok || err != nil {
+			t.Fatalf("array %d: same stored chunks %v %v %v, want %v", i, same, ok, err, want)
+		}
+	}
 
 	vopt := validate.DefaultOptions()
 	vopt.SamplesReadByCaller = true
@@ -299,4 +313,16 @@ print(ci.byte_offset + ci.size // 2)
 	if left, _ := filepath.Glob(filepath.Join(dir, "out2", "*")); len(left) != 0 {
 		t.Fatalf("left behind: %v", left)
 	}
+}
+
+// openArrays opens a recording for the test's lifetime and returns its
+// first trial's arrays.
+func openArrays(t *testing.T, path string) []record.Array {
+	t.Helper()
+	f, err := recfile.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { f.Close() })
+	return f.Recording().Trials[0].Arrays
 }

@@ -78,7 +78,8 @@ type FileOutcome struct {
 	DataChecked int `json:"datasets_bit_exact,omitempty"`
 	// RawCopied is the number of sample datasets copied chunk by chunk,
 	// their stored bytes unchanged (recfile.CopiesSamplesRaw); their check
-	// compares the SHA-256 of the stored chunks, which fixes the values.
+	// compares their stored chunks with the input's, byte for byte, which
+	// fixes the values.
 	RawCopied int `json:"sample_datasets_copied_raw,omitempty"`
 	// Findings are the strings that would still identify, by path, with
 	// the policy line that fixes each (when the file was refused for them).

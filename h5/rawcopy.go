@@ -6,9 +6,9 @@ package h5
 import "C"
 
 import (
+	"bytes"
 	"encoding/binary"
 	"fmt"
-	"hash"
 	"slices"
 	"unsafe"
 )
@@ -81,10 +81,9 @@ func (w *MatrixWriter) Level() int { return w.level }
 // decoding read gives (ErrChecksum, naming the source's chunk, inside a
 // *SourceError like every error of reading the source), and the caller
 // abandons the output, so a damaged source is never carried under a new
-// file's name. sum, when not
-// nil, receives every chunk as StoredSHA256 hashes it; band, when not nil,
-// is called after each band of chunk rows with the number of rows in it.
-func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(rows int)) error {
+// file's name. band, when not nil, is called after each band of chunk
+// rows with the number of rows in it.
+func (w *MatrixWriter) CopyChunksFrom(src *Dataset, band func(rows int)) error {
 	if w.rows != 0 || len(src.Shape) != 2 || src.Shape[1] != w.cols || src.Type != w.typ {
 		return &Error{File: w.ds.file, Object: w.ds.path, Op: "copy chunks", Detail: fmt.Sprintf("source %s %v does not fit an empty %s matrix of %d columns", src.Type, src.Shape, w.typ, w.cols)}
 	}
@@ -98,7 +97,7 @@ func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(row
 	}
 	unlockLib()
 	// This goroutine moves the chunks (the library calls are serial);
-	// another checks and hashes them, in order, a few chunks behind.
+	// another checks them, in order, a few chunks behind.
 	type chunk struct {
 		r, c int
 		raw  []byte
@@ -114,9 +113,6 @@ func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(row
 		for ch := range todo {
 			if err == nil {
 				err = src.checkFletcher(ch.raw, ch.r, ch.c)
-				if err == nil && sum != nil {
-					hashChunk(sum, ch.r, ch.c, ch.raw)
-				}
 			}
 			free <- ch.raw
 		}
@@ -152,39 +148,39 @@ func (w *MatrixWriter) CopyChunksFrom(src *Dataset, sum hash.Hash, band func(row
 	return finish(nil)
 }
 
-// StoredSHA256 hashes every chunk of the 2-D matrix d as stored (filtered
-// bytes, checksum included) with its offset, in row-major chunk order,
-// into h: two matrices with the same element type and filters hold the
-// same values where their sums agree. A chunk missing from the index is an
-// error (ErrChunkMissing).
-func (d *Dataset) StoredSHA256(h hash.Hash) error {
-	chunk, _, err := d.Layout()
+// SameStoredChunks reports whether the 2-D matrices d and e store the
+// same chunks, byte for byte, at the same offsets, with the same element
+// type, extent, chunk shape and filters: then they hold the same values.
+// It reads every chunk of both raw (nothing is inflated). A chunk missing
+// from either index is an error (ErrChunkMissing).
+func (d *Dataset) SameStoredChunks(e *Dataset) (bool, error) {
+	dc, df, err := d.Layout()
 	if err != nil {
-		return err
+		return false, err
 	}
-	if len(d.Shape) != 2 || len(chunk) != 2 {
-		return &Error{File: d.file, Object: d.path, Op: "hash stored chunks", Detail: "not a chunked matrix"}
+	ec, ef, err := e.Layout()
+	if err != nil {
+		return false, err
 	}
-	var buf []byte
-	for r := 0; r < d.Shape[0]; r += chunk[0] {
-		for c := 0; c < d.Shape[1]; c += chunk[1] {
-			if buf, err = d.storedFiltered(r, c, buf); err != nil {
-				return err
+	if d.Type != e.Type || d.ieeeLE != e.ieeeLE || len(d.Shape) != 2 || !slices.Equal(d.Shape, e.Shape) ||
+		len(dc) != 2 || !slices.Equal(dc, ec) || !slices.Equal(df, ef) {
+		return false, nil
+	}
+	var a, b []byte
+	for r := 0; r < d.Shape[0]; r += dc[0] {
+		for c := 0; c < d.Shape[1]; c += dc[1] {
+			if a, err = d.storedFiltered(r, c, a); err != nil {
+				return false, err
 			}
-			hashChunk(h, r, c, buf)
+			if b, err = e.storedFiltered(r, c, b); err != nil {
+				return false, err
+			}
+			if !bytes.Equal(a, b) {
+				return false, nil
+			}
 		}
 	}
-	return nil
-}
-
-// hashChunk feeds a chunk's offset, length and stored bytes to h.
-func hashChunk(h hash.Hash, row, col int, raw []byte) {
-	var b [24]byte
-	binary.LittleEndian.PutUint64(b[0:], uint64(row))
-	binary.LittleEndian.PutUint64(b[8:], uint64(col))
-	binary.LittleEndian.PutUint64(b[16:], uint64(len(raw)))
-	h.Write(b[:])
-	h.Write(raw)
+	return true, nil
 }
 
 // storedChunk reads the stored bytes of the chunk at (row, col) of a 2-D

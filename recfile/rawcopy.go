@@ -1,8 +1,6 @@
 package recfile
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 
@@ -89,8 +87,7 @@ func (w *writer) copyRaw(g *h5.Group, ar *record.Array, pos int, src *h5.Dataset
 		return err
 	}
 	defer mw.Close()
-	h := sha256.New()
-	if err := mw.CopyChunksFrom(src, h, w.rowsDone); err != nil {
+	if err := mw.CopyChunksFrom(src, w.rowsDone); err != nil {
 		var se *h5.SourceError
 		if errors.As(err, &se) {
 			err = &readError{se.Err}
@@ -106,23 +103,20 @@ func (w *writer) copyRaw(g *h5.Group, ar *record.Array, pos int, src *h5.Dataset
 		}
 	}
 	if w.opt.SamplesCopied != nil {
-		w.opt.SamplesCopied(w.trialPos, pos, hex.EncodeToString(h.Sum(nil)))
+		w.opt.SamplesCopied(w.trialPos, pos)
 	}
 	return nil
 }
 
-// StoredSamplesSHA256 returns the SHA-256 (hex) of the stored chunks of
-// samples read from a muarc file, as SamplesCopied reports them for a
-// copy, reading the chunks raw (nothing is inflated); ok is false for
-// samples from anywhere else.
-func StoredSamplesSHA256(src record.SampleSource) (sum string, ok bool, err error) {
-	ds := storedMatrix(src)
-	if ds == nil {
-		return "", false, nil
+// SameStoredSamples reports whether two sample sources read from muarc
+// files store the same chunks, byte for byte (h5.Dataset.SameStoredChunks:
+// same type, extent, chunk shape and filters, hence the same values),
+// reading them raw; ok is false when either comes from anywhere else.
+func SameStoredSamples(a, b record.SampleSource) (same, ok bool, err error) {
+	da, db := storedMatrix(a), storedMatrix(b)
+	if da == nil || db == nil {
+		return false, false, nil
 	}
-	h := sha256.New()
-	if err := ds.StoredSHA256(h); err != nil {
-		return "", true, err
-	}
-	return hex.EncodeToString(h.Sum(nil)), true, nil
+	same, err = da.SameStoredChunks(db)
+	return same, true, err
 }

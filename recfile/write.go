@@ -48,9 +48,9 @@ type WriteOptions struct {
 	DecodeSamples bool
 	// SamplesCopied, when set, is called for each array whose samples
 	// were copied chunk by chunk from their source file (CopiesSamplesRaw),
-	// with the trial's and array's positions and the SHA-256 (hex) of the
-	// stored chunks copied, as StoredSamplesSHA256 computes it.
-	SamplesCopied func(trial, array int, storedSHA256 string)
+	// with the trial's and array's positions (SameStoredSamples then
+	// compares the copy with its source).
+	SamplesCopied func(trial, array int)
 }
 
 // Write stores rec at path in layout v1. It writes a temporary file beside
