@@ -20,7 +20,11 @@ type Named struct {
 	// Templates says where a MUAP grid's templates came from (the
 	// Options.Templates answer, "stored" by default).
 	Templates string
-	Figure    *Figure
+	// Muscle and Subjects are the muscle a study figure shows and its
+	// subjects, in column order.
+	Muscle   string
+	Subjects []string
+	Figure   *Figure
 }
 
 // Options choose what RecordingFigures draws.

@@ -18,25 +18,50 @@ import (
 	"muarc/analysis/study"
 )
 
+// StudySubjectsPerFigure is the most subjects one study figure shows side
+// by side (a column of 3.2 inches each): a muscle with more subjects gets
+// its figure in parts of this many subjects (in the order of their codes),
+// every part on the same axes, so that no column shrinks below its tick
+// labels however large the study.
+const StudySubjectsPerFigure = 10
+
 // StudyFigures draws, per muscle of a study analysis, the subjects side by
 // side (one column each) with plateau mean rate (top row) and initial rate
 // (bottom row) against recruitment threshold: points and least-squares
 // lines in one colour per target level (LevelColor), R^2 of each line
-// written in the panel, the same axes in a row.
+// written in the panel, the same axes in a row and in every part of a
+// muscle (StudySubjectsPerFigure). Named.Subjects lists each figure's
+// subjects.
 func StudyFigures(res *study.Result) []Named {
 	var muscles []string
-	seen := map[string]bool{}
+	subjects := map[string][]string{}
+	seen := map[[2]string]bool{}
 	for _, r := range res.Rows {
-		if !seen[r.Muscle] {
-			seen[r.Muscle] = true
+		if subjects[r.Muscle] == nil {
 			muscles = append(muscles, r.Muscle)
+		}
+		if k := [2]string{r.Muscle, r.Subject}; !seen[k] {
+			seen[k] = true
+			subjects[r.Muscle] = append(subjects[r.Muscle], r.Subject)
 		}
 	}
 	var out []Named
 	for _, m := range muscles {
-		out = append(out, Named{Name: stem("study", m, "rate_threshold"), Kind: "study",
-			Caption: fmt.Sprintf("%s: discharge rate against recruitment threshold per subject (columns); top plateau mean rate, bottom initial rate; one colour per target level, least-squares line and its R² per level.", m),
-			Figure:  muscleFigure(res, m)})
+		all := subjects[m]
+		sort.Strings(all)
+		parts := (len(all) + StudySubjectsPerFigure - 1) / StudySubjectsPerFigure
+		for k := range parts {
+			part := all[k*StudySubjectsPerFigure : min(len(all), (k+1)*StudySubjectsPerFigure)]
+			name, title, which := stem("study", m, "rate_threshold"), m, ""
+			if parts > 1 {
+				name += fmt.Sprintf("__part%02d_of_%02d", k+1, parts)
+				which = fmt.Sprintf(" (subjects %s to %s, part %d of %d)", part[0], part[len(part)-1], k+1, parts)
+				title += which
+			}
+			out = append(out, Named{Name: name, Kind: "study", Muscle: m, Subjects: part,
+				Caption: fmt.Sprintf("%s%s: discharge rate against recruitment threshold per subject (columns); top plateau mean rate, bottom initial rate; one colour per target level, least-squares line and its R² per level.", m, which),
+				Figure:  muscleFigure(res, m, title, part)})
+		}
 	}
 	return out
 }
@@ -100,16 +125,10 @@ func (l r2Labels) Plot(c draw.Canvas, p *gplot.Plot) {
 	}
 }
 
-func muscleFigure(res *study.Result, muscle string) *Figure {
-	var subjects []string
-	seen := map[string]bool{}
-	for _, r := range res.Rows {
-		if r.Muscle == muscle && !seen[r.Subject] {
-			seen[r.Subject] = true
-			subjects = append(subjects, r.Subject)
-		}
-	}
-	sort.Strings(subjects)
+// muscleFigure draws the given subjects of a muscle side by side under the
+// heading title; the axes span every subject of the muscle, so that the
+// parts of one muscle compare.
+func muscleFigure(res *study.Result, muscle, title string, subjects []string) *Figure {
 	plots := make([][]*gplot.Plot, len(study.Relations))
 	for ri, rel := range study.Relations {
 		xmax, ymax := 0.0, 0.0
@@ -169,7 +188,7 @@ func muscleFigure(res *study.Result, muscle string) *Figure {
 	w := vg.Length(cols)*3.2*vg.Inch + 0.6*vg.Inch
 	return &Figure{Width: w, Height: 6.4 * vg.Inch, draw: func(dc draw.Canvas) {
 		hdr := text.Style{Color: color.Black, Font: font.From(gplot.DefaultFont, 12), Handler: gplot.DefaultTextHandler, XAlign: draw.XLeft, YAlign: draw.YTop}
-		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(4)}, muscle)
+		dc.FillText(hdr, vg.Point{X: dc.Min.X + vg.Points(6), Y: dc.Max.Y - vg.Points(4)}, title)
 		// Provenance in a footer line of its own: what computed it, when,
 		// from how many recordings.
 		prov := hdr

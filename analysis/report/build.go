@@ -182,6 +182,9 @@ func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
 	if res, err := study.Analyse(dir, nil); err != nil {
 		p.Notes = append(p.Notes, "The study analysis could not run: "+err.Error())
 	} else {
+		// The figures' provenance line gives the page's time (BuildOptions.Now),
+		// so that one page made twice is the same page.
+		res.Computed = now.UTC().Truncate(time.Second)
 		p.Study = studyTable(res)
 		// Drawn when the page's head is written.
 		p.StudyFigures = studyFigures(res, dir)

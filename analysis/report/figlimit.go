@@ -69,49 +69,45 @@ func figuresLeftOutNote(drawn, total int, firstLeftOut string) string {
 		"muarc report --figures all draws every recording's figures.", drawn, total, total-drawn, firstLeftOut)
 }
 
-// MaxStudyFigureSubjects is the most subjects the page's study figure of a
-// muscle shows side by side (a column of 3.2 inches each, scaled to the
-// page's width: beyond about 30 a column is narrower than its tick
-// labels, and a study of 2,000 subjects made a figure of 28 MB of SVG).
-// The figure of a muscle with more subjects is not drawn; the page says so
-// in its place.
+// MaxStudyFigureSubjects is the most subjects per muscle whose study
+// figures the page draws (the first parts of plot.StudyFigures, each of
+// plot.StudySubjectsPerFigure subjects): a study of 2,000 subjects made
+// 28 MB of SVG in one figure. The muscle's other subjects get a sentence
+// in place of their figures, with the command that draws them all.
 const MaxStudyFigureSubjects = 30
 
-// studyFigures are the study figures of the page, one per muscle in the
-// order of res.Rows, drawn when the page is written; a muscle with more
-// than MaxStudyFigureSubjects subjects gets a Figure with LeftOut set
-// instead. dir is the study folder as given.
+// studyFigures are the study figures of the page, in the order of
+// plot.StudyFigures, drawn when the page is written: per muscle, the parts
+// of its first MaxStudyFigureSubjects subjects, and for the rest one
+// Figure with LeftOut set. dir is the study folder as given.
 func studyFigures(res *study.Result, dir string) []Figure {
-	subjects := map[string]map[string]bool{}
-	var muscles []string
-	for _, r := range res.Rows {
-		if subjects[r.Muscle] == nil {
-			subjects[r.Muscle] = map[string]bool{}
-			muscles = append(muscles, r.Muscle)
-		}
-		subjects[r.Muscle][r.Subject] = true
-	}
-	drawable := *res
-	drawable.Rows = nil
-	for _, r := range res.Rows {
-		if len(subjects[r.Muscle]) <= MaxStudyFigureSubjects {
-			drawable.Rows = append(drawable.Rows, r)
-		}
-	}
-	named := plot.StudyFigures(&drawable)
+	named := plot.StudyFigures(res)
 	var out []Figure
-	for _, m := range muscles {
-		n := len(subjects[m])
-		if n <= MaxStudyFigureSubjects {
-			f := named[0]
-			named = named[1:]
-			out = append(out, Figure{Caption: f.Caption, draw: f.Figure.WriteSVG})
+	for i := 0; i < len(named); {
+		m := named[i].Muscle
+		shown, subjects, parts := 0, 0, 0
+		first := ""
+		for ; i < len(named) && named[i].Muscle == m; i++ {
+			n := named[i]
+			if parts == 0 && shown+len(n.Subjects) <= MaxStudyFigureSubjects {
+				shown += len(n.Subjects)
+				out = append(out, Figure{Caption: n.Caption, draw: n.Figure.WriteSVG})
+				continue
+			}
+			if parts == 0 {
+				first = n.Subjects[0]
+			}
+			parts++
+			subjects += len(n.Subjects)
+		}
+		if parts == 0 {
 			continue
 		}
-		out = append(out, Figure{Caption: fmt.Sprintf("%s: discharge rate against recruitment threshold per subject (not drawn).", m),
-			LeftOut: fmt.Sprintf("The figure of %s, one column per subject, is not drawn in this page: it would have %d columns, more than the %d that stay readable side by side. "+
-				"The table above summarises the subjects' lines; %s lists each subject's line (--tsv as a table).", m, n, MaxStudyFigureSubjects,
-				"muarc stats "+atomicfile.ShellQuote(dashSafe(dir)))})
+		q := atomicfile.ShellQuote(dashSafe(dir))
+		out = append(out, Figure{Caption: fmt.Sprintf("%s: discharge rate against recruitment threshold, the other %d subjects (not drawn in this page).", m, subjects),
+			LeftOut: fmt.Sprintf("The study figures of %s for its other %d subjects (from subject %s on, %d more parts of up to %d subjects) are not drawn in this page, which shows the first %d subjects of a muscle so that it stays small enough to open. "+
+				"muarc stats %s --write draws every part as PNG and SVG (into the study folder's rate_threshold unless --out names another); muarc stats %s lists each subject's line (--tsv as a table).",
+				m, subjects, first, parts, plot.StudySubjectsPerFigure, shown, q, q)})
 	}
 	return out
 }

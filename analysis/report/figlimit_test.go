@@ -10,6 +10,7 @@ import (
 	"testing"
 	"time"
 
+	"muarc/analysis/plot"
 	"muarc/analysis/study"
 )
 
@@ -164,10 +165,12 @@ func TestPlotCommandQuotes(t *testing.T) {
 	}
 }
 
-// TestStudyFigureSubjectLimit: a muscle with more subjects than
-// MaxStudyFigureSubjects gets a sentence in place of its figure (naming
-// the count and the command that lists the subjects' lines); a muscle
-// with fewer is drawn, in the order of the rows.
+// TestStudyFigureSubjectLimit: a muscle's study figure comes in parts of
+// plot.StudySubjectsPerFigure subjects; the page draws the parts of its
+// first MaxStudyFigureSubjects subjects and, in place of the others, a
+// sentence naming how many subjects and parts and the commands that draw
+// and list them; a muscle with few subjects is drawn whole, in the order
+// of the rows.
 func TestStudyFigureSubjectLimit(t *testing.T) {
 	res := &study.Result{Sources: []study.Source{{File: "x.h5"}}}
 	add := func(muscle string, subjects int) {
@@ -178,11 +181,13 @@ func TestStudyFigureSubjectLimit(t *testing.T) {
 			}
 		}
 	}
-	add("soleus", MaxStudyFigureSubjects+1)
+	per := plot.StudySubjectsPerFigure
+	add("soleus", MaxStudyFigureSubjects+per+5) // 30 drawn, then 2 parts left out
 	add("tibialis anterior", 3)
 	figs := studyFigures(res, "my study")
-	if len(figs) != 2 {
-		t.Fatalf("%d figures, want 2", len(figs))
+	drawn := MaxStudyFigureSubjects / per
+	if len(figs) != drawn+2 {
+		t.Fatalf("%d figures, want %d drawn soleus parts, a note and tibialis anterior", len(figs), drawn)
 	}
 	var page bytes.Buffer
 	for i := range figs {
@@ -190,14 +195,21 @@ func TestStudyFigureSubjectLimit(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	want := fmt.Sprintf("The figure of soleus, one column per subject, is not drawn in this page: it would have %d columns, more than the %d", MaxStudyFigureSubjects+1, MaxStudyFigureSubjects)
-	if figs[0].draw != nil || !strings.Contains(figs[0].LeftOut, want) || !strings.Contains(figs[0].LeftOut, "muarc stats 'my study' lists each subject's line") {
-		t.Errorf("soleus: %+v", figs[0])
+	for k := range drawn {
+		want := fmt.Sprintf("soleus (subjects S%03d to S%03d, part %d of %d):", k*per, k*per+per-1, k+1, drawn+2)
+		if figs[k].draw == nil || figs[k].LeftOut != "" || !strings.HasPrefix(figs[k].Caption, want) {
+			t.Errorf("soleus part %d: %+v, want caption %q", k+1, figs[k], want)
+		}
 	}
-	if figs[1].draw == nil || figs[1].LeftOut != "" || !strings.HasPrefix(figs[1].Caption, "tibialis anterior:") {
-		t.Errorf("tibialis anterior: %+v", figs[1])
+	note := figs[drawn]
+	want := fmt.Sprintf("The study figures of soleus for its other %d subjects (from subject S%03d on, 2 more parts of up to %d subjects) are not drawn in this page, which shows the first %d subjects", per+5, MaxStudyFigureSubjects, per, MaxStudyFigureSubjects)
+	if note.draw != nil || !strings.Contains(note.LeftOut, want) || !strings.Contains(note.LeftOut, "muarc stats 'my study' --write draws every part") || !strings.Contains(note.LeftOut, "muarc stats 'my study' lists each subject's line") {
+		t.Errorf("soleus note: %+v", note)
 	}
-	if got := page.String(); strings.Count(got, "<svg") != 1 || !strings.Contains(got, `<p class="note left-out">`+want) {
+	if f := figs[drawn+1]; f.draw == nil || f.LeftOut != "" || !strings.HasPrefix(f.Caption, "tibialis anterior:") {
+		t.Errorf("tibialis anterior: %+v", f)
+	}
+	if got := page.String(); strings.Count(got, "<svg") != drawn+1 || !strings.Contains(got, `<p class="note left-out">`+want) {
 		t.Errorf("page part:\n%.600s", got)
 	}
 }

@@ -10,6 +10,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"muarc/analysis/plot"
 	"muarc/analysis/report"
 	"muarc/internal/atomicfile"
 )
@@ -40,9 +41,11 @@ thousands of recordings with all of them is more than a browser opens. Every
 other recording keeps its section with the tables and the validation
 verdict, and says in words that its figures are not in the page, with the
 command that draws them (muarc plot FILE -o figures/NAME); a note at the top
-of the page counts them. The study figure of a muscle shows its subjects
-side by side, up to %d; for a muscle with more, the page says so in its
-place and names muarc stats DIR, which lists every subject's line.
+of the page counts them. The study figures of a muscle show its subjects
+side by side, %d to a figure; the page draws those of its first %d
+subjects and, in place of the rest, says how many are left out and names
+muarc stats DIR --write, which draws every part, and muarc stats DIR, which
+lists every subject's line.
 
 The page has no scripts and loads nothing from anywhere: it opens in a
 browser with no network and can be mailed or archived as it is. It shows
@@ -52,7 +55,7 @@ given and local data-protection law decide what may leave the lab.
 Exit status: 0 written, 2 the folder could not be read or the page not
 written (or bad usage), or a recording could not be read: the page is then
 still written, with it marked. Recordings that fail validation are shown as
-such in the page.`, report.DefaultFigureRecordings, report.MaxStudyFigureSubjects),
+such in the page.`, report.DefaultFigureRecordings, plot.StudySubjectsPerFigure, report.MaxStudyFigureSubjects),
 	Args: cobra.ExactArgs(1),
 	RunE: runReport,
 }

@@ -64,7 +64,9 @@ level is not counted as within-subject scatter. --tsv prints one
 row per subject x muscle x level x relation; --write stores
 rate_threshold_fits.tsv, rate_threshold_summary.tsv, per muscle a figure of
 the subjects side by side (both relations, one colour per level, R^2 on each
-panel; study__<muscle>__rate_threshold.png and .svg) and rate_threshold.json
+panel; study__<muscle>__rate_threshold.png and .svg; a muscle with more
+than 10 subjects gets parts of 10 on the same axes,
+study__<muscle>__rate_threshold__partKK_of_NN) and rate_threshold.json
 (the method, every recording's SHA-256, the figure files) in --out (default
 DIR/rate_threshold); the recordings are not changed.
 
