@@ -36,7 +36,8 @@ Pseudonyms are HMAC-SHA-256 of the original ids under the study key (muarc key
 new KEYFILE); dates move by a per-subject offset of whole days, the same in
 all of that subject's files. Outputs are named by pseudonyms. Signals,
 discharges and unit figures are carried bit-exact (compared by SHA-256 after
-writing).
+writing); EMG samples already stored as muarc stores them are copied chunk
+by chunk, never decoded, and compared byte for byte.
 
 Every string an output will hold (attributes, labels, columns, group names,
 provenance) is searched for the original identifying values before anything
@@ -50,8 +51,9 @@ the same checks and writes nothing. The key, the policy and the --linkage
 folder are checked before anything is written.
 
 Every source is validated first (chunk checksums, structure, the metadata
-digest): a damaged source is refused with what is damaged, since a copy
-would carry the damage under a new, clean checksum. --accept-damaged
+digest; the EMG samples' chunk checksums as they are copied): a damaged
+source is refused with what is damaged, since a copy would carry the damage
+under a new, clean checksum. --accept-damaged
 de-identifies it as read and records that in the output's history.
 
 --check FILE checks a file meant for sharing (with --original, against the
