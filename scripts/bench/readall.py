@@ -3,10 +3,11 @@
 shuffle + deflate and checks each chunk's Fletcher-32), and every attribute
 of every object (Debian python3-h5py). This is the least a validator that
 checks every stored value and checksum must read."""
-import os
 import sys
 
 import h5py
+
+from h5walk import recordings
 
 
 def read_object(name, obj):
@@ -19,13 +20,10 @@ def read_object(name, obj):
 
 
 n = 0
-for dirpath, dirnames, filenames in os.walk(sys.argv[1]):
-    dirnames[:] = sorted(d for d in dirnames if not d.startswith("."))
-    for name in sorted(filenames):
-        if name.endswith(".h5") and not name.startswith("."):
-            with h5py.File(os.path.join(dirpath, name), "r") as f:
-                for k in f.attrs:
-                    f.attrs[k]
-                f.visititems(read_object)
-            n += 1
+for path in recordings(sys.argv[1]):
+    with h5py.File(path, "r") as f:
+        for k in f.attrs:
+            f.attrs[k]
+        f.visititems(read_object)
+    n += 1
 print(n, "files")
