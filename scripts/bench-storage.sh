@@ -80,7 +80,7 @@ if want storage; then
 	base="int16 counts + shuffle + deflate (h5py defaults: chunks ${HB#* }, gzip 4): ${HB%% *} B/sample"
 	for form in "default:$MB:$MT:$MD:$IM" "--dtype float32:$FB:$FT:$FD:$F32M"; do
 		IFS=: read -r how b t d m <<<"$form"
-		lbl="bytes/sample of the $what, \`muarc import\` ($how: ${t//_/ }, largest |stored - count x LSB| $d uV)"
+		lbl="bytes/sample of the $what, \`muarc import\` ($how: ${t//_/ }, largest difference between stored value and count x LSB: $d uV)"
 		echo "| $lbl | $b B/sample | $base | $(ratio "$b" "${HB%% *}") | $m MiB |"
 		echo "| same ($how) | $b B/sample | flac -8 of the counts (8 streams of 8 channels): $LB B/sample, ${LW} s, $LM MiB | $(ratio "$b" "$LB") | $m MiB |"
 		echo "| same ($how) | $b B/sample | xz -9 of the raw int16 counts: $XB B/sample, ${XW} s, $XM MiB | $(ratio "$b" "$XB") | $m MiB |"
