@@ -17,6 +17,7 @@ import (
 	"muarc/analysis/plot"
 	"muarc/analysis/study"
 	"muarc/archive"
+	"muarc/internal/atomicfile"
 	"muarc/recfile"
 	"muarc/record"
 	"muarc/schema"
@@ -269,7 +270,7 @@ func section(path, rel string, vopt validate.Options, plotCmd string) Section {
 	}
 	s.Validation.Rows = groupFindings(rep.Findings)
 	if len(rep.Findings) > 0 {
-		s.Notes = append(s.Notes, fmt.Sprintf("`muarc validate %s` lists every finding with its hint.", rel))
+		s.Notes = append(s.Notes, fmt.Sprintf("`muarc validate %s` lists every finding with its hint.", atomicfile.ShellQuote(dashSafe(path))))
 	}
 	fh, err := recfile.Open(path)
 	if err != nil {

@@ -65,6 +65,25 @@ func TestReportFiguresLeftOutRunAsPrinted(t *testing.T) {
 			t.Fatalf("%s drew no PNG", line)
 		}
 	}
+	// The validate command a section names works from where report ran:
+	// it lists the findings the section counts (exit 0 or 1, not 2).
+	vcmds := regexp.MustCompile("`(muarc validate [^`]*)` lists every finding").FindAllStringSubmatch(string(page), -1)
+	if len(vcmds) != 3 {
+		t.Fatalf("%d validate commands in the page, want 3", len(vcmds))
+	}
+	for i, c := range vcmds {
+		line := html.UnescapeString(c[1])
+		if want := "muarc validate 'my study/sub 1/" + []string{"a", "b", "c"}[i] + ".h5'"; line != want {
+			t.Fatalf("command %q, want %q", line, want)
+		}
+		sh := exec.Command("/bin/sh", "-c", line)
+		sh.Dir = dir
+		sh.Env = append(os.Environ(), "PATH="+filepath.Dir(muarcBin)+string(os.PathListSeparator)+os.Getenv("PATH"))
+		out, err := sh.CombinedOutput()
+		if ee, ok := err.(*exec.ExitError); err != nil && (!ok || ee.ExitCode() != 1) || !strings.Contains(string(out), "a.h5") && i == 0 {
+			t.Fatalf("%s: %v\n%s", line, err, out)
+		}
+	}
 	if _, _, code := runMuarc(t, dir, "report", "my study", "-o", "x.html", "--figures", "some"); code != 2 {
 		t.Errorf("--figures some: exit %d, want 2", code)
 	}
