@@ -36,7 +36,8 @@ type BuildOptions struct {
 	// Now is the report's time stamp; zero means time.Now().
 	Now time.Time
 	// FigureRecordings is how many recordings, in page order, get their
-	// figures drawn: 0 means DefaultFigureRecordings, AllFigureRecordings
+	// figures drawn: 0 means as many as hold DefaultFigureTrialArrays trial x
+	// array pairs (at least one), AllFigureRecordings
 	// every one, NoFigureRecordings none. The sections of the others keep
 	// their tables and verdict and say, with the command that draws them,
 	// that their figures are not in the page (Section.PlotCommand); the
@@ -197,7 +198,7 @@ func begin(dir string, opt BuildOptions) (*Page, *builder, error) {
 	} else {
 		p.Dictionary = dictionaryTable(dict)
 	}
-	b := &builder{dir: dir, files: files, vopt: vopt, opt: opt, drawn: figureLimit(opt, len(files))}
+	b := &builder{dir: dir, files: files, vopt: vopt, opt: opt, drawn: figureLimit(opt, trialArrays(files, rows))}
 	if b.drawn < len(files) {
 		p.Notes = append(p.Notes, figuresLeftOutNote(b.drawn, len(files), files[b.drawn]))
 	}

@@ -8,22 +8,25 @@ import (
 
 	"muarc/analysis/plot"
 	"muarc/analysis/study"
+	"muarc/archive"
 	"muarc/internal/atomicfile"
 )
 
 // How many recordings get their figures drawn in the page
 // (BuildOptions.FigureRecordings).
 const (
-	// DefaultFigureRecordings is the number of recordings, in page order,
-	// whose figures a page draws when BuildOptions.FigureRecordings is 0.
-	// A recording's figures take 0.27 MB of the page for one trial of two
-	// arrays (the average over a generated study of 2,000) and 1.7 MB for
-	// the demo's three trials, so a page of a large study with every
-	// figure (2,000 recordings of one trial: over 500 MB) is more than a
-	// browser opens; 100 recordings keep such a page near 30 MB (170 MB
-	// for recordings like the demo's), and a study of up to 100
-	// recordings is drawn whole.
-	DefaultFigureRecordings = 100
+	// DefaultFigureTrialArrays is how many of the study's trial x array
+	// pairs, counted from the first recording, the default page draws
+	// figures for (BuildOptions.FigureRecordings 0): every recording whose
+	// pairs fit, and always the first. The figures grow with the pairs
+	// (an overview per trial and array, rates and MUAPs per array): 0.27
+	// MB of page for a recording of one trial and two arrays (the average
+	// over a generated study of 2,000) and 1.7 MB for the demo's three
+	// trials of two arrays, about 0.14-0.28 MB a pair, so 200 pairs keep
+	// the figures near 30-60 MB whatever the recordings hold, a page a
+	// browser opens; a study with every figure (2,000 recordings of one
+	// trial: over 500 MB) is more than one opens.
+	DefaultFigureTrialArrays = 200
 	// AllFigureRecordings draws the figures of every recording.
 	AllFigureRecordings = -1
 	// NoFigureRecordings draws no per-recording figures (the study
@@ -32,11 +35,20 @@ const (
 )
 
 // figureLimit is the number of recordings, in page order, that get their
-// figures, for n recordings.
-func figureLimit(opt BuildOptions, n int) int {
+// figures; pairs[i] is the number of trial x array pairs of recording i
+// (the index rows; 0 when it could not be indexed, counted as 1).
+func figureLimit(opt BuildOptions, pairs []int) int {
+	n := len(pairs)
 	switch k := opt.FigureRecordings; {
 	case k == 0:
-		return min(DefaultFigureRecordings, n)
+		sum := 0
+		for i, c := range pairs {
+			sum += max(c, 1)
+			if sum > DefaultFigureTrialArrays {
+				return max(i, 1)
+			}
+		}
+		return n
 	case k == NoFigureRecordings:
 		return 0
 	case k < 0:
@@ -44,6 +56,22 @@ func figureLimit(opt BuildOptions, n int) int {
 	default:
 		return min(k, n)
 	}
+}
+
+// trialArrays counts the index rows (one per recording, trial and array)
+// of each file.
+func trialArrays(files []string, rows []archive.IndexRow) []int {
+	at := make(map[string]int, len(files))
+	for i, f := range files {
+		at[f] = i
+	}
+	pairs := make([]int, len(files))
+	for _, r := range rows {
+		if i, ok := at[r.File]; ok {
+			pairs[i]++
+		}
+	}
+	return pairs
 }
 
 // PlotCommand is the command that draws the figures of the recording rel
@@ -64,9 +92,9 @@ func figuresLeftOutNote(drawn, total int, firstLeftOut string) string {
 	if drawn == 0 {
 		return fmt.Sprintf("No recording's figures are drawn in this page (muarc report --figures 0): each of the %d recording sections has its tables and validation verdict, and the muarc plot command that draws its figures.", total)
 	}
-	return fmt.Sprintf("Figures are drawn for the first %d of the %d recordings, to keep the page small enough for a browser to open. "+
+	return fmt.Sprintf("Figures are drawn for the first %d of the %d recordings (by default as many as hold %d trial x array pairs), to keep the page small enough for a browser to open. "+
 		"The other %d recording sections (from %s on, in the order of the list) have their tables and validation verdict and, in place of figures, the muarc plot command that draws them; "+
-		"muarc report --figures all draws every recording's figures.", drawn, total, total-drawn, firstLeftOut)
+		"muarc report --figures all draws every recording's figures.", drawn, total, DefaultFigureTrialArrays, total-drawn, firstLeftOut)
 }
 
 // MaxStudyFigureSubjects is the most subjects per muscle whose study

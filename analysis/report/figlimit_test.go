@@ -12,6 +12,7 @@ import (
 
 	"muarc/analysis/plot"
 	"muarc/analysis/study"
+	"muarc/archive"
 )
 
 // copiesFolder is the test study with its recording copied to n files
@@ -146,8 +147,33 @@ func TestFigureRecordingsDefaultAndNone(t *testing.T) {
 			t.Errorf("FigureRecordings %d: %d sections, %d figures, %d notes, top note %v; want %d, %d, %d", c.limit, len(secs), figs, notes, top, n, c.figures, c.notes)
 		}
 	}
-	if got := figureLimit(BuildOptions{}, 5000); got != DefaultFigureRecordings {
-		t.Errorf("default limit on 5000 recordings: %d", got)
+	// The default counts trial x array pairs (the index rows) from the
+	// first recording: 5,000 recordings of one trial and two arrays give
+	// 100, of three trials 33; a first recording above the budget is
+	// drawn all the same; an unindexed one counts as one pair.
+	same := func(n, c int) []int {
+		p := make([]int, n)
+		for i := range p {
+			p[i] = c
+		}
+		return p
+	}
+	for _, c := range []struct {
+		pairs []int
+		want  int
+	}{
+		{same(5000, 2), DefaultFigureTrialArrays / 2},
+		{same(5000, 6), DefaultFigureTrialArrays / 6},
+		{same(3, 6), 3},
+		{append([]int{DefaultFigureTrialArrays + 1}, same(10, 1)...), 1},
+		{same(DefaultFigureTrialArrays+7, 0), DefaultFigureTrialArrays},
+	} {
+		if got := figureLimit(BuildOptions{}, c.pairs); got != c.want {
+			t.Errorf("default limit on %d recordings of %d pairs (first %d): %d, want %d", len(c.pairs), c.pairs[len(c.pairs)-1], c.pairs[0], got, c.want)
+		}
+	}
+	if got := figureLimit(BuildOptions{FigureRecordings: 7}, same(5000, 6)); got != 7 {
+		t.Errorf("--figures 7: %d", got)
 	}
 }
 
@@ -211,5 +237,29 @@ func TestStudyFigureSubjectLimit(t *testing.T) {
 	}
 	if got := page.String(); strings.Count(got, "<svg") != drawn+1 || !strings.Contains(got, `<p class="note left-out">`+want) {
 		t.Errorf("page part:\n%.600s", got)
+	}
+}
+
+// trialArrays finds each recording's index rows by its path: copies of
+// one recording hold the same number of trial x array pairs, the rows of
+// archive.Index over the folder divided among them.
+func TestTrialArraysFromIndexRows(t *testing.T) {
+	dir, _ := copiesFolder(t, 3)
+	files, _, err := archive.FindRecordings(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, err := archive.Index(dir, archive.AnyLevel())
+	if err != nil {
+		t.Fatal(err)
+	}
+	pairs := trialArrays(files, rows)
+	if len(files) != 3 || len(rows)%3 != 0 || len(rows) < 3 {
+		t.Fatalf("%d files, %d rows", len(files), len(rows))
+	}
+	for i, p := range pairs {
+		if p != len(rows)/3 {
+			t.Errorf("%s: %d pairs, want %d", files[i], p, len(rows)/3)
+		}
 	}
 }

@@ -33,14 +33,15 @@ decomposition edited by hand, else the last one; the overview of every trial,
 the rate-versus-threshold scatter, the MUAP grid of the highest target
 level), how the figures are computed, and the data dictionary.
 
-Figures are drawn for the first %d recordings in the page's order
-(--figures N sets how many, --figures all every one, --figures 0 none):
-each recording's figures take from 0.3 MB (one trial, two arrays) to a
-few MB (the demo's three trials: 1.7 MB) of the page, and a page of
-thousands of recordings with all of them is more than a browser opens. Every
-other recording keeps its section with the tables and the validation
-verdict, and says in words that its figures are not in the page, with the
-command that draws them (muarc plot FILE -o figures/NAME); a note at the top
+Figures are drawn for the first recordings in the page's order, by default
+(--figures fit) as many as hold the study's first %d trial x array pairs,
+at least one (--figures N draws the first N recordings', --figures all
+every one, --figures 0 none): a recording's figures take from 0.3 MB of the
+page (one trial, two arrays) to a few MB (the demo's three trials: 1.7
+MB), and a page of thousands of recordings with all of them is more than a
+browser opens. Every other recording keeps its section with the tables and
+the validation verdict, and says in words that its figures are not in the
+page, with the command that draws them (muarc plot FILE -o figures/NAME); a note at the top
 of the page counts them. The study figures of a muscle show its subjects
 side by side, %d to a figure; the page draws those of its first %d
 subjects and, in place of the rest, says how many are left out and names
@@ -55,7 +56,7 @@ given and local data-protection law decide what may leave the lab.
 Exit status: 0 written, 2 the folder could not be read or the page not
 written (or bad usage), or a recording could not be read: the page is then
 still written, with it marked. Recordings that fail validation are shown as
-such in the page.`, report.DefaultFigureRecordings, plot.StudySubjectsPerFigure, report.MaxStudyFigureSubjects),
+such in the page.`, report.DefaultFigureTrialArrays, plot.StudySubjectsPerFigure, report.MaxStudyFigureSubjects),
 	Args: cobra.ExactArgs(1),
 	RunE: runReport,
 }
@@ -64,7 +65,7 @@ func init() {
 	f := reportCmd.Flags()
 	f.StringVarP(&reportFlags.out, "output", "o", "", "the HTML file to write (required)")
 	f.StringVar(&reportFlags.title, "title", "", "page title (default: \"Study report: \" and the folder name)")
-	f.StringVar(&reportFlags.figures, "figures", strconv.Itoa(report.DefaultFigureRecordings), "draw the figures of the first N recordings (a number, or all); the others name the command that draws them")
+	f.StringVar(&reportFlags.figures, "figures", "fit", fmt.Sprintf("draw the figures of the first N recordings (a number), all, or those that fit (the first recordings holding %d trial x array pairs); the others name the command that draws them", report.DefaultFigureTrialArrays))
 	f.BoolVar(&reportFlags.overwrite, "overwrite", false, "replace the output file if it exists")
 	f.BoolVar(&reportFlags.json, "json", false, "print a summary of what was written as JSON")
 	reportCmd.MarkFlagRequired("output")
@@ -89,12 +90,15 @@ type reportSummary struct {
 
 // parseFigureRecordings reads --figures: a count of recordings, or all.
 func parseFigureRecordings(v string) (int, error) {
-	if strings.EqualFold(strings.TrimSpace(v), "all") {
+	switch strings.ToLower(strings.TrimSpace(v)) {
+	case "all":
 		return report.AllFigureRecordings, nil
+	case "fit":
+		return 0, nil // report.DefaultFigureTrialArrays
 	}
 	n, err := strconv.Atoi(strings.TrimSpace(v))
 	if err != nil || n < 0 {
-		return 0, fmt.Errorf("--figures %q: give the number of recordings whose figures the page draws (0 or more), or all", v)
+		return 0, fmt.Errorf("--figures %q: give the number of recordings whose figures the page draws (0 or more), all, or fit", v)
 	}
 	if n == 0 {
 		return report.NoFigureRecordings, nil
