@@ -195,7 +195,13 @@ func walkStrings(r *record.Recording, fn func(path, s string)) {
 	walkValue(reflect.ValueOf(r).Elem(), "", fn)
 }
 
-var timeType = reflect.TypeOf(time.Time{})
+var (
+	timeType = reflect.TypeOf(time.Time{})
+	// sourceType is the samples' stream: numbers only, whatever the
+	// concrete reader behind it holds (file handles, caches), so the walk
+	// does not enter it.
+	sourceType = reflect.TypeOf((*record.SampleSource)(nil)).Elem()
+)
 
 func walkValue(v reflect.Value, path string, fn func(path, s string)) {
 	switch v.Kind() {
@@ -237,6 +243,9 @@ func walkValue(v reflect.Value, path string, fn func(path, s string)) {
 				continue
 			}
 			fv := v.Field(i)
+			if sf.Type == sourceType {
+				continue
+			}
 			if sf.Anonymous || sf.Type == reflect.TypeOf(record.ForceProfile{}) {
 				walkFlat(fv, path, sf.Name, fn)
 				continue
