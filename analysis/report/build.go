@@ -271,7 +271,7 @@ func section(path, rel string, vopt validate.Options, plotCmd string) Section {
 	}
 	s.Validation.Rows = groupFindings(rep.Findings)
 	if len(rep.Findings) > 0 {
-		s.Notes = append(s.Notes, fmt.Sprintf("`muarc validate %s` lists every finding with its hint.", atomicfile.ShellQuote(dashSafe(path))))
+		s.Notes = append(s.Notes, "To see every finding with its hint: "+"muarc validate "+atomicfile.ShellQuote(dashSafe(path)))
 	}
 	fh, err := recfile.Open(path)
 	if err != nil {

@@ -67,7 +67,7 @@ func TestReportFiguresLeftOutRunAsPrinted(t *testing.T) {
 	}
 	// The validate command a section names works from where report ran:
 	// it lists the findings the section counts (exit 0 or 1, not 2).
-	vcmds := regexp.MustCompile("`(muarc validate [^`]*)` lists every finding").FindAllStringSubmatch(string(page), -1)
+	vcmds := regexp.MustCompile(`To see every finding with its hint: (muarc validate [^<]*)</p>`).FindAllStringSubmatch(string(page), -1)
 	if len(vcmds) != 3 {
 		t.Fatalf("%d validate commands in the page, want 3", len(vcmds))
 	}
