@@ -104,6 +104,12 @@ type Plan struct {
 	reportIdx []int       // each EMG source's entry in Report.Files
 	// extraSources are files read besides the inputs (a subjects table).
 	extraSources []input
+	// noTimes are discharge files that hold no number at all (a header
+	// line only), by trial, array and decomposition, with the reader's
+	// refusal; unitTables the unit tables read, with their rows. finish
+	// decides each: see (*Plan).emptyDischarges.
+	noTimes    map[[3]string]error
+	unitTables map[[3]string]int
 }
 
 type input struct {
@@ -356,6 +362,9 @@ func sourceFile(path, rel, role string) (record.SourceFile, error) {
 // finish checks what the files left open: arrays without EMG, units
 // without figures, extra columns shorter than the unit list.
 func (pl *Plan) finish() error {
+	if err := pl.emptyDischarges(); err != nil {
+		return err
+	}
 	for ti := range pl.Rec.Trials {
 		t := &pl.Rec.Trials[ti]
 		for ai := range t.Arrays {
@@ -367,7 +376,7 @@ func (pl *Plan) finish() error {
 			// stored (an empty one breaks later steps); the report says so.
 			kept := a.Decompositions[:0]
 			for _, d := range a.Decompositions {
-				if len(d.Units) == 0 && d.MUAPs == nil {
+				if len(d.Units) == 0 && d.MUAPs == nil && !pl.readEmpty(t.Name, a.Name, d.Name) {
 					pl.Report.Notes = append(pl.Report.Notes, fmt.Sprintf("decomposition %q of trial %q array %q is in the metadata but no discharge or unit file was read for it: not stored (give its files with --discharges/--units, or a profile template with {decomposition})", d.Name, t.Name, a.Name))
 					continue
 				}

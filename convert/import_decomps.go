@@ -1,8 +1,11 @@
 package convert
 
 import (
+	"errors"
 	"fmt"
 	"math"
+	"os"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -36,7 +39,20 @@ func (pl *Plan) discharges(it input, prof *Profile) error {
 	rows, _ := a.Samples.Shape()
 	dc, err := ReadDischarges(it.path, Grid{RateHz: a.SamplingRateHz, StartS: a.StartS, Samples: rows}, prof.dischargeOptions())
 	if err != nil {
-		return err
+		if !holdsNoNumber(it.path) {
+			return err
+		}
+		// No reading can take a discharge time from a file without a
+		// number; whether it means no units or units without discharges
+		// is the unit table's to say (emptyDischarges).
+		if pl.noTimes == nil {
+			pl.noTimes = map[[3]string]error{}
+		}
+		pl.noTimes[[3]string{it.trial, a.Name, it.dc}] = err
+		decompNamed(a, it.dc)
+		pl.Report.Files = append(pl.Report.Files, FileReport{Name: it.rel, Role: "discharges", Trial: it.trial, Array: a.Name, Decomposition: it.dc,
+			Notes: []string{"the file holds no number (a header line only): no discharges"}})
+		return nil
 	}
 	d := decompNamed(a, it.dc)
 	byLabel := map[string]int{}
@@ -75,6 +91,10 @@ func (pl *Plan) units(it input, prof *Profile) error {
 		return err
 	}
 	dec := decompNamed(a, it.dc)
+	if pl.unitTables == nil {
+		pl.unitTables = map[[3]string]int{}
+	}
+	pl.unitTables[[3]string{it.trial, a.Name, it.dc}] = len(ut.Units)
 	notes := append([]string(nil), ut.Notes...)
 	// Units are matched by label as written. A discharge file without
 	// labels numbered its units 1..N: then a table label that is exactly
@@ -174,4 +194,64 @@ func nextUnitID(d *record.Decomposition) int64 {
 		m = max(m, u.ID)
 	}
 	return m + 1
+}
+
+// holdsNoNumber reports whether the text file at path holds no token (split
+// at spaces, commas, semicolons and tabs) that reads as a number: then no
+// reading of it yields a discharge time.
+func holdsNoNumber(path string) bool {
+	b, err := os.ReadFile(path)
+	if err != nil || len(b) > 1<<16 {
+		return false
+	}
+	for _, tok := range strings.FieldsFunc(string(b), func(r rune) bool {
+		return r == ',' || r == ';' || r == '\t' || r == ' ' || r == '\n' || r == '\r'
+	}) {
+		t := strings.Trim(tok, "\"'()[]")
+		if _, err := strconv.ParseFloat(strings.Replace(t, ",", ".", 1), 64); err == nil {
+			return false
+		}
+	}
+	return true
+}
+
+// emptyDischarges decides the discharge files without a number: with the
+// decomposition's unit table read and empty (a header only) the
+// decomposition is stored with no units, as an export of one writes it;
+// otherwise the file is refused (the reader's refusal, with what to give),
+// since zero units and units that never discharged store different values.
+func (pl *Plan) emptyDischarges() error {
+	keys := make([][3]string, 0, len(pl.noTimes))
+	for k := range pl.noTimes {
+		keys = append(keys, k)
+	}
+	slices.SortFunc(keys, func(a, b [3]string) int {
+		return strings.Compare(a[0]+"\x00"+a[1]+"\x00"+a[2], b[0]+"\x00"+b[1]+"\x00"+b[2])
+	})
+	for _, k := range keys {
+		err := pl.noTimes[k]
+		rows, read := pl.unitTables[k]
+		if read && rows == 0 {
+			continue
+		}
+		var pe *ParseError
+		if errors.As(err, &pe) {
+			why := "give the decomposition's unit table too (--units): one row per unit, a header line only for a decomposition that found none"
+			if read {
+				why = fmt.Sprintf("the unit table lists %d unit(s) but the discharge file holds no discharge time: give each unit's discharges, or one row per unit it lists", rows)
+			}
+			pe.Hint = why + "; " + pe.Hint
+		}
+		return err
+	}
+	return nil
+}
+
+// readEmpty reports whether trial/array/decomposition was read from files
+// that say it found no units (emptyDischarges kept it).
+func (pl *Plan) readEmpty(trial, array, dc string) bool {
+	k := [3]string{trial, array, dc}
+	_, none := pl.noTimes[k]
+	rows, read := pl.unitTables[k]
+	return none && read && rows == 0
 }

@@ -258,3 +258,54 @@ func TestExportFolderIntoNamedFile(t *testing.T) {
 		t.Fatalf("%s was made: %v", out, err)
 	}
 }
+
+// A decomposition that found no units (a header-only discharge file and
+// unit table in the export) comes back as a decomposition with no units,
+// the whole file equal by h5py. Without its unit table the header-only
+// discharge file is refused: zero units and units that never discharged
+// are different recordings, and only the table says which.
+func TestExportImportRoundTripNoUnits(t *testing.T) {
+	gens, err := synth.Generate(synth.TestConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec := gens[0].Recording
+	a := &rec.Trials[0].Arrays[0]
+	a.Decompositions = append(a.Decompositions, record.Decomposition{Name: "none_found", Parameters: "{}"})
+	out := roundTrip(t, rec, "S01")
+	got, err := recfile.ReadAll(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ga := got.Trials[0].Arrays[0]
+	if d := ga.Decompositions[len(ga.Decompositions)-1]; d.Name != "none_found" || len(d.Units) != 0 {
+		t.Fatalf("last decomposition %q with %d units, want none_found with 0", d.Name, len(d.Units))
+	}
+
+	orig := filepath.Join(t.TempDir(), "orig.h5")
+	if err := recfile.Write(orig, rec, recfile.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	exp := filepath.Join(t.TempDir(), "S01")
+	if _, err := Export(orig, ExportKinds, ExportOptions{Dir: exp}); err != nil {
+		t.Fatal(err)
+	}
+	units, _ := filepath.Glob(filepath.Join(exp, "*", "units_*_none_found.csv"))
+	if len(units) != 1 {
+		t.Fatalf("unit tables of none_found: %v", units)
+	}
+	os.Remove(units[0])
+	res, err := ImportStudy(exp, filepath.Join(t.TempDir(), "out"), StudyOptions{})
+	if err == nil && (len(res) != 1 || res[0].Error == "") {
+		t.Fatalf("imported without the unit table: %+v", res)
+	}
+	msg := ""
+	if err != nil {
+		msg = err.Error()
+	} else {
+		msg = res[0].Error
+	}
+	if !strings.Contains(msg, "discharges_") || !strings.Contains(msg, "give the decomposition's unit table too (--units)") {
+		t.Errorf("refusal: %s", msg)
+	}
+}
