@@ -39,7 +39,19 @@ func (pl *Plan) discharges(it input, prof *Profile) error {
 	rows, _ := a.Samples.Shape()
 	dc, err := ReadDischarges(it.path, Grid{RateHz: a.SamplingRateHz, StartS: a.StartS, Samples: rows}, prof.dischargeOptions())
 	if err != nil {
-		if !holdsNoNumber(it.path) {
+		line, ok := onlyLineWithoutNumber(it.path)
+		if !ok {
+			return err
+		}
+		if sh := prof.Discharges.Shape; sh != ShapeLong && sh != ShapeLines && !exportedEmptyHeader(line) {
+			// Read as a header of unit columns, the line names units that
+			// never discharged; read as a long table's header, it names
+			// none: the two store different recordings.
+			var pe *ParseError
+			if errors.As(err, &pe) {
+				pe.Msg = fmt.Sprintf("the file holds one line and no number (%q): read as the header of a long table (unit, time) it means no units; read as one column per unit it names units that never discharged", line)
+				pe.Hint = "give --shape long (profile: discharges.shape: long) for no units, with the decomposition's unit table holding no rows; or give each unit's discharges"
+			}
 			return err
 		}
 		// No reading can take a discharge time from a file without a
@@ -196,23 +208,48 @@ func nextUnitID(d *record.Decomposition) int64 {
 	return m + 1
 }
 
-// holdsNoNumber reports whether the text file at path holds no token (split
-// at spaces, commas, semicolons and tabs) that reads as a number: then no
-// reading of it yields a discharge time.
-func holdsNoNumber(path string) bool {
+// onlyLineWithoutNumber returns the one non-blank line of the text file at
+// path when it holds no token (split at spaces, commas, semicolons and
+// tabs) that reads as a number: then no reading of it yields a discharge
+// time.
+func onlyLineWithoutNumber(path string) (string, bool) {
 	b, err := os.ReadFile(path)
 	if err != nil || len(b) > 1<<16 {
-		return false
+		return "", false
 	}
-	for _, tok := range strings.FieldsFunc(string(b), func(r rune) bool {
-		return r == ',' || r == ';' || r == '\t' || r == ' ' || r == '\n' || r == '\r'
+	var lines []string
+	for _, l := range strings.Split(strings.TrimPrefix(string(b), "\ufeff"), "\n") {
+		if l = strings.TrimSpace(l); l != "" {
+			lines = append(lines, l)
+		}
+	}
+	if len(lines) != 1 {
+		return "", false
+	}
+	for _, tok := range strings.FieldsFunc(lines[0], func(r rune) bool {
+		return r == ',' || r == ';' || r == '\t' || r == ' '
 	}) {
 		t := strings.Trim(tok, "\"'()[]")
 		if _, err := strconv.ParseFloat(strings.Replace(t, ",", ".", 1), 64); err == nil {
-			return false
+			return "", false
 		}
 	}
-	return true
+	return lines[0], true
+}
+
+// exportedEmptyHeader reports whether line is exactly the header `muarc
+// export` writes over a long table or one line per unit ("unit", then the
+// time column's head, in any of the delimiters it writes): the first column
+// holds unit labels, so a file of that line alone names no unit.
+func exportedEmptyHeader(line string) bool {
+	for _, d := range []string{",", ";", "\t"} {
+		for _, tb := range []dischargeTime{{seconds: true}, {}} {
+			if line == "unit"+d+tb.head() {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // emptyDischarges decides the discharge files without a number: with the

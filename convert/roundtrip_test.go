@@ -308,4 +308,29 @@ func TestExportImportRoundTripNoUnits(t *testing.T) {
 	if !strings.Contains(msg, "discharges_") || !strings.Contains(msg, "give the decomposition's unit table too (--units)") {
 		t.Errorf("refusal: %s", msg)
 	}
+
+	// A header line muarc did not write could also be the header of one
+	// column per unit (units that never discharged): refused, naming the
+	// flag that reads it as a long table, even with the empty unit table.
+	exp2 := filepath.Join(t.TempDir(), "S01")
+	if _, err := Export(orig, ExportKinds, ExportOptions{Dir: exp2}); err != nil {
+		t.Fatal(err)
+	}
+	dis, _ := filepath.Glob(filepath.Join(exp2, "*", "discharges_*_none_found.csv"))
+	if len(dis) != 1 {
+		t.Fatalf("discharge files of none_found: %v", dis)
+	}
+	if err := os.WriteFile(dis[0], []byte("Unit,Time\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	res, err = ImportStudy(exp2, filepath.Join(t.TempDir(), "out"), StudyOptions{})
+	msg = ""
+	if err != nil {
+		msg = err.Error()
+	} else if len(res) == 1 {
+		msg = res[0].Error
+	}
+	if !strings.Contains(msg, "read as one column per unit it names units that never discharged") || !strings.Contains(msg, "--shape long") {
+		t.Errorf("a header-only file muarc did not write: %q", msg)
+	}
 }
