@@ -54,10 +54,7 @@ func TestReportFiguresLeftOutRunAsPrinted(t *testing.T) {
 		if line != want {
 			t.Fatalf("command %q, want %q", line, want)
 		}
-		sh := exec.Command("/bin/sh", "-c", line)
-		sh.Dir = dir
-		sh.Env = append(os.Environ(), "PATH="+filepath.Dir(muarcBin)+string(os.PathListSeparator)+os.Getenv("PATH"))
-		if out, err := sh.CombinedOutput(); err != nil {
+		if out, err := runAsPrinted(dir, line); err != nil {
 			t.Fatalf("%s: %v\n%s", line, err, out)
 		}
 		pngs, _ := filepath.Glob(filepath.Join(dir, "figures", "sub 1", name, "*.png"))
@@ -76,10 +73,7 @@ func TestReportFiguresLeftOutRunAsPrinted(t *testing.T) {
 		if want := "muarc validate 'my study/sub 1/" + []string{"a", "b", "c"}[i] + ".h5'"; line != want {
 			t.Fatalf("command %q, want %q", line, want)
 		}
-		sh := exec.Command("/bin/sh", "-c", line)
-		sh.Dir = dir
-		sh.Env = append(os.Environ(), "PATH="+filepath.Dir(muarcBin)+string(os.PathListSeparator)+os.Getenv("PATH"))
-		out, err := sh.CombinedOutput()
+		out, err := runAsPrinted(dir, line)
 		if ee, ok := err.(*exec.ExitError); err != nil && (!ok || ee.ExitCode() != 1) || !strings.Contains(string(out), "a.h5") && i == 0 {
 			t.Fatalf("%s: %v\n%s", line, err, out)
 		}
@@ -87,4 +81,13 @@ func TestReportFiguresLeftOutRunAsPrinted(t *testing.T) {
 	if _, _, code := runMuarc(t, dir, "report", "my study", "-o", "x.html", "--figures", "some"); code != 2 {
 		t.Errorf("--figures some: exit %d, want 2", code)
 	}
+}
+
+// runAsPrinted runs a command line a page prints through a POSIX shell in
+// dir, with the muarc under test first on PATH.
+func runAsPrinted(dir, line string) ([]byte, error) {
+	sh := exec.Command("/bin/sh", "-c", line)
+	sh.Dir = dir
+	sh.Env = append(os.Environ(), "PATH="+filepath.Dir(muarcBin)+string(os.PathListSeparator)+os.Getenv("PATH"))
+	return sh.CombinedOutput()
 }
