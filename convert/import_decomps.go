@@ -267,10 +267,10 @@ func (pl *Plan) emptyDischarges() error {
 	})
 	for _, k := range keys {
 		err := pl.noTimes[k]
-		rows, read := pl.unitTables[k]
-		if read && rows == 0 {
+		if pl.readEmpty(k[0], k[1], k[2]) {
 			continue
 		}
+		rows, read := pl.unitTables[k]
 		var pe *ParseError
 		if errors.As(err, &pe) {
 			why := "give the decomposition's unit table too (--units): one row per unit, a header line only for a decomposition that found none"
